@@ -1,0 +1,2 @@
+//! tautline: large-displacement equilibrium of pin-jointed trusses and cable nets.
+pub mod model;

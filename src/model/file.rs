@@ -1,0 +1,1 @@
+//! serde mirror of the model file (to be written).

@@ -1,0 +1,340 @@
+//! The validated structural model: what every later stage reads.
+//!
+//! A model file is read into [`file::ModelFile`] (a serde mirror that keeps the
+//! user's labels and the places they were written), then [`validate`] turns it
+//! into a [`Model`]: ids resolved to dense indices, units converted to SI
+//! (N, m) and every problem collected before failing. A `Model` is immutable.
+
+pub mod diagnostics;
+pub mod file;
+pub mod units;
+pub mod validate;
+
+pub use diagnostics::{Diagnostic, ModelErrors};
+pub use units::{ForceUnit, LengthUnit, Units};
+pub use validate::{load, load_str};
+
+/// Axis of a translational degree of freedom.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Axis {
+    X = 0,
+    Y = 1,
+    Z = 2,
+}
+
+impl Axis {
+    pub const ALL: [Axis; 3] = [Axis::X, Axis::Y, Axis::Z];
+
+    pub fn index(self) -> usize {
+        self as usize
+    }
+
+    pub fn from_index(i: usize) -> Axis {
+        Axis::ALL[i]
+    }
+
+    pub fn letter(self) -> char {
+        ['x', 'y', 'z'][self as usize]
+    }
+
+    pub fn from_letter(c: char) -> Option<Axis> {
+        match c {
+            'x' | 'X' => Some(Axis::X),
+            'y' | 'Y' => Some(Axis::Y),
+            'z' | 'Z' => Some(Axis::Z),
+            _ => None,
+        }
+    }
+}
+
+impl std::fmt::Display for Axis {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}", self.letter())
+    }
+}
+
+/// Where an item was written: an index into [`Model::files`] and a 1-based line.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct Place {
+    pub file: u16,
+    pub line: u32,
+}
+
+#[derive(Clone, Debug)]
+pub struct Node {
+    pub label: String,
+    /// Initial position, m.
+    pub at: [f64; 3],
+    /// Supported directions.
+    pub fixed: [bool; 3],
+    pub place: Place,
+}
+
+#[derive(Clone, Debug)]
+pub struct Section {
+    pub name: String,
+    /// Axial rigidity, N.
+    pub ea: f64,
+    /// Self-weight, N/m, acting in −z.
+    pub weight: Option<f64>,
+    /// N.
+    pub tension_capacity: Option<f64>,
+    /// N, as a positive number.
+    pub compression_capacity: Option<f64>,
+    pub place: Place,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum MemberKind {
+    /// Carries tension and compression.
+    Bar,
+    /// Tension only: zero force and zero stiffness when slack.
+    Cable,
+}
+
+/// How the unstressed length of a member is given.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum RestSpec {
+    /// The member is unstressed in the given geometry.
+    Geometry,
+    /// Unstressed length, m.
+    Length(f64),
+    /// Axial force in the given geometry, N (tension positive).
+    Prestress(f64),
+}
+
+#[derive(Clone, Debug)]
+pub struct Member {
+    pub label: String,
+    pub kind: MemberKind,
+    pub ends: [usize; 2],
+    pub section: usize,
+    pub rest: RestSpec,
+    /// Force per length, N/m, for form finding.
+    pub force_density: Option<f64>,
+    pub place: Place,
+}
+
+#[derive(Clone, Debug)]
+pub struct Spring {
+    pub node: usize,
+    pub axis: Axis,
+    /// N/m.
+    pub k: f64,
+    pub place: Place,
+}
+
+#[derive(Clone, Debug)]
+pub struct NodalLoad {
+    pub node: usize,
+    /// Reference load, N, scaled by the load factor λ.
+    pub force: [f64; 3],
+    pub place: Place,
+}
+
+/// A node and a direction: a controlled or watched displacement.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct NodeDir {
+    pub node: usize,
+    pub axis: Axis,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum StrainMeasure {
+    /// Green-Lagrange strain, total Lagrangian, S = E·E_GL on the reference area.
+    #[default]
+    Green,
+    /// Engineering strain (l − L)/L with a corotational description.
+    Engineering,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Method {
+    /// Full Newton-Raphson: refactor every iteration.
+    #[default]
+    Newton,
+    /// Keep the factorization of the step's first tangent.
+    ModifiedNewton,
+    /// Broyden's "good" update of the inverse, Sherman-Morrison form.
+    Broyden,
+    /// Broyden's "bad" update (of the inverse directly).
+    BroydenBad,
+    /// BFGS in the Matthies-Strang form.
+    Bfgs,
+}
+
+impl Method {
+    pub const NAMES: [&'static str; 5] =
+        ["newton", "modified-newton", "broyden", "broyden-bad", "bfgs"];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Method::Newton => "newton",
+            Method::ModifiedNewton => "modified-newton",
+            Method::Broyden => "broyden",
+            Method::BroydenBad => "broyden-bad",
+            Method::Bfgs => "bfgs",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Method> {
+        Some(match s {
+            "newton" => Method::Newton,
+            "modified-newton" => Method::ModifiedNewton,
+            "broyden" => Method::Broyden,
+            "broyden-bad" => Method::BroydenBad,
+            "bfgs" => Method::Bfgs,
+            _ => return None,
+        })
+    }
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Control {
+    #[default]
+    Load,
+    Displacement,
+    ArcLength,
+}
+
+impl Control {
+    pub const NAMES: [&'static str; 3] = ["load", "displacement", "arc-length"];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Control::Load => "load",
+            Control::Displacement => "displacement",
+            Control::ArcLength => "arc-length",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Control> {
+        Some(match s {
+            "load" => Control::Load,
+            "displacement" => Control::Displacement,
+            "arc-length" => Control::ArcLength,
+            _ => return None,
+        })
+    }
+}
+
+/// The `[analysis]` table, in SI.
+#[derive(Clone, Debug)]
+pub struct Analysis {
+    pub strain: StrainMeasure,
+    pub method: Method,
+    pub control: Control,
+    /// Number of equal increments to `target` (load control).
+    pub steps: usize,
+    /// Load factor (load, arc-length) or controlled displacement in m (displacement).
+    pub target: f64,
+    /// Stop when |u(point)| reaches it, m.
+    pub max_displacement: Option<f64>,
+    /// Controlled / watched point.
+    pub point: Option<NodeDir>,
+    /// First arc length (arc-length control), in the model's scaled norm.
+    pub arc: Option<f64>,
+    pub max_steps: usize,
+    /// Relative residual tolerance.
+    pub tolerance: f64,
+    /// Maximum corrector iterations per step.
+    pub max_iterations: usize,
+    /// How many times a step may be halved before the run stops.
+    pub max_cutbacks: usize,
+    /// Columns of path.csv.
+    pub watch: Vec<NodeDir>,
+}
+
+impl Default for Analysis {
+    fn default() -> Self {
+        Analysis {
+            strain: StrainMeasure::Green,
+            method: Method::Newton,
+            control: Control::Load,
+            steps: 10,
+            target: 1.0,
+            max_displacement: None,
+            point: None,
+            arc: None,
+            max_steps: 200,
+            tolerance: 1e-9,
+            max_iterations: 30,
+            max_cutbacks: 6,
+            watch: Vec::new(),
+        }
+    }
+}
+
+/// Settings of the `[form]` table (form finding).
+#[derive(Clone, Debug, Default)]
+pub struct FormSettings {
+    /// Default force density, N/m, for members that set none.
+    pub force_density: Option<f64>,
+}
+
+/// A validated model, SI units inside.
+#[derive(Clone, Debug)]
+pub struct Model {
+    pub title: String,
+    /// Files the model was read from; `files[0]` is the TOML file.
+    pub files: Vec<String>,
+    pub units: Units,
+    pub nodes: Vec<Node>,
+    pub sections: Vec<Section>,
+    pub members: Vec<Member>,
+    pub springs: Vec<Spring>,
+    pub loads: Vec<NodalLoad>,
+    pub analysis: Analysis,
+    pub form: FormSettings,
+    /// Things worth knowing that do not stop the run (e.g. an unloaded model).
+    pub warnings: Vec<Diagnostic>,
+}
+
+impl Model {
+    pub fn n_nodes(&self) -> usize {
+        self.nodes.len()
+    }
+
+    pub fn n_members(&self) -> usize {
+        self.members.len()
+    }
+
+    /// "file:line" of an item, for messages.
+    pub fn describe_place(&self, place: Place) -> String {
+        let file = self.files.get(place.file as usize).map(String::as_str).unwrap_or("?");
+        if place.line > 0 { format!("{file}:{}", place.line) } else { file.to_string() }
+    }
+
+    /// "A2.z" style label of a node direction.
+    pub fn node_dir_label(&self, nd: NodeDir) -> String {
+        format!("{}.{}", self.nodes[nd.node].label, nd.axis)
+    }
+
+    /// Index of the node with this label.
+    pub fn node_index(&self, label: &str) -> Option<usize> {
+        self.nodes.iter().position(|n| n.label == label)
+    }
+
+    /// Number of supported directions.
+    pub fn n_fixed(&self) -> usize {
+        self.nodes.iter().map(|n| n.fixed.iter().filter(|f| **f).count()).sum()
+    }
+
+    /// Total reference load, N.
+    pub fn total_reference_load(&self) -> [f64; 3] {
+        let mut t = [0.0; 3];
+        for l in &self.loads {
+            for a in 0..3 {
+                t[a] += l.force[a];
+            }
+        }
+        t
+    }
+
+    /// Initial length of a member, m.
+    pub fn member_length(&self, m: usize) -> f64 {
+        let [i, j] = self.members[m].ends;
+        let (a, b) = (self.nodes[i].at, self.nodes[j].at);
+        ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2) + (b[2] - a[2]).powi(2)).sqrt()
+    }
+}
