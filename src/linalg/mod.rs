@@ -1,0 +1,295 @@
+//! Sparse symmetric LDLᵀ factorization of the tangent: the only place that
+//! talks to faer. The symbolic analysis (AMD ordering, elimination tree,
+//! supernodes) runs once per pattern; each refactorization is numeric only.
+//!
+//! Every factorization reports its inertia (the number of negative pivots of
+//! D, by Sylvester's law of inertia the number of negative eigenvalues of K):
+//! it is how limit points and bifurcations are seen.
+
+use crate::assembly::Pattern;
+use faer::Par;
+use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::linalg::cholesky::ldlt::factor::{LdltParams, LdltRegularization};
+use faer::sparse::linalg::cholesky::{
+    CholeskySymbolicParams, LdltRef, SymbolicCholesky, SymbolicCholeskyRaw, SymmetricOrdering,
+    factorize_symbolic_cholesky,
+};
+use faer::sparse::linalg::cholesky::simplicial::SimplicialLdltRef;
+use faer::sparse::linalg::cholesky::supernodal::SupernodalLdltRef;
+use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
+use faer::{Conj, MatMut, Side, Spec};
+
+/// A pivot is taken as zero when |d| falls below this fraction of the
+/// matching diagonal entry of K (or of the largest diagonal entry, when that
+/// entry is itself zero). Round-off in a factorization of a well-posed
+/// stiffness leaves pivots many orders above it.
+pub const ZERO_PIVOT_RATIO: f64 = 1e-11;
+
+/// What a numeric factorization found.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Inertia {
+    /// Number of negative pivots of D.
+    pub negative: usize,
+    /// Free DOFs (original numbering) whose pivot is numerically zero.
+    pub zero_dofs: Vec<usize>,
+}
+
+impl Inertia {
+    pub fn is_singular(&self) -> bool {
+        !self.zero_dofs.is_empty()
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum LinalgError {
+    /// faer could not allocate or analyse the pattern.
+    Analysis(String),
+}
+
+impl std::fmt::Display for LinalgError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            LinalgError::Analysis(s) => write!(f, "sparse factorization failed: {s}"),
+        }
+    }
+}
+
+impl std::error::Error for LinalgError {}
+
+/// Symbolic analysis of one pattern plus the numeric factor of the latest
+/// tangent.
+pub struct Ldlt {
+    n: usize,
+    symbolic: SymbolicCholesky<usize>,
+    l_values: Vec<f64>,
+    factor_mem: MemBuffer,
+    solve_mem: MemBuffer,
+    par: Par,
+    /// Whether `l_values` holds a usable factorization.
+    factored: bool,
+    /// Number of numeric factorizations done.
+    pub n_factorizations: usize,
+}
+
+fn symbolic_view(p: &Pattern) -> SymbolicSparseColMatRef<'_, usize> {
+    SymbolicSparseColMatRef::new_checked(p.n, p.n, &p.col_ptr, None, &p.row_idx)
+}
+
+impl Ldlt {
+    /// Symbolic analysis of the pattern (once per structure).
+    pub fn new(pattern: &Pattern, par: Par) -> Result<Ldlt, LinalgError> {
+        let symbolic = factorize_symbolic_cholesky(
+            symbolic_view(pattern),
+            Side::Upper,
+            SymmetricOrdering::Amd,
+            CholeskySymbolicParams::default(),
+        )
+        .map_err(|e| LinalgError::Analysis(format!("{e:?}")))?;
+        let factor_mem = MemBuffer::try_new(
+            symbolic.factorize_numeric_ldlt_scratch::<f64>(par, Spec::<LdltParams, f64>::default()),
+        )
+        .map_err(|_| LinalgError::Analysis("out of memory for the factorization workspace".into()))?;
+        let solve_mem = MemBuffer::try_new(symbolic.solve_in_place_scratch::<f64>(1, par))
+            .map_err(|_| LinalgError::Analysis("out of memory for the solve workspace".into()))?;
+        let l_values = vec![0.0; symbolic.len_val()];
+        Ok(Ldlt {
+            n: pattern.n,
+            symbolic,
+            l_values,
+            factor_mem,
+            solve_mem,
+            par,
+            factored: false,
+            n_factorizations: 0,
+        })
+    }
+
+    pub fn dimension(&self) -> usize {
+        self.n
+    }
+
+    /// Number of stored entries of L (fill), a measure of memory use.
+    pub fn factor_nnz(&self) -> usize {
+        self.l_values.len()
+    }
+
+    /// Numeric LDLᵀ of the tangent with values `k_values` on `pattern`.
+    pub fn factorize(&mut self, pattern: &Pattern, k_values: &[f64]) -> Inertia {
+        self.factorize_with(pattern, k_values, None)
+    }
+
+    /// As [`Ldlt::factorize`], but pivots below the zero threshold are replaced
+    /// by a tiny positive value, so a singular tangent still gives a factor
+    /// whose solves amplify the null direction (for mechanism and mode
+    /// detection by inverse iteration).
+    pub fn factorize_regularized(&mut self, pattern: &Pattern, k_values: &[f64]) -> Inertia {
+        let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s].abs()).fold(0.0, f64::max);
+        let signs = vec![1i8; self.n];
+        self.factorize_with(pattern, k_values, Some((signs, max_diag)))
+    }
+
+    fn factorize_with(
+        &mut self,
+        pattern: &Pattern,
+        k_values: &[f64],
+        regularize: Option<(Vec<i8>, f64)>,
+    ) -> Inertia {
+        let a = SparseColMatRef::new(symbolic_view(pattern), k_values);
+        let reg = match &regularize {
+            Some((signs, max_diag)) => LdltRegularization {
+                dynamic_regularization_signs: Some(signs),
+                dynamic_regularization_delta: max_diag.max(1.0) * 1e-12,
+                dynamic_regularization_epsilon: max_diag.max(1.0) * 1e-13,
+            },
+            None => LdltRegularization::default(),
+        };
+        let stack = MemStack::new(&mut self.factor_mem);
+        let result = self.symbolic.factorize_numeric_ldlt(
+            &mut self.l_values,
+            a,
+            Side::Upper,
+            reg,
+            self.par,
+            stack,
+            Spec::<LdltParams, f64>::default(),
+        );
+        self.n_factorizations += 1;
+        match result {
+            Ok(_) => {
+                self.factored = true;
+                self.inertia(pattern, k_values)
+            }
+            Err(e) => {
+                // faer stops at an exactly zero pivot: report that DOF.
+                self.factored = false;
+                let faer::linalg::cholesky::ldlt::factor::LdltError::ZeroPivot { index } = e;
+                // The simplicial kernel counts from one, the supernodal one
+                // from zero.
+                let permuted = match self.symbolic.raw() {
+                    SymbolicCholeskyRaw::Simplicial(_) => index.saturating_sub(1),
+                    SymbolicCholeskyRaw::Supernodal(_) => index,
+                };
+                let dof = self.original_index(permuted.min(self.n.saturating_sub(1)));
+                Inertia { negative: 0, zero_dofs: vec![dof] }
+            }
+        }
+    }
+
+    fn original_index(&self, permuted: usize) -> usize {
+        match self.symbolic.perm() {
+            Some(p) => p.arrays().0[permuted],
+            None => permuted,
+        }
+    }
+
+    /// The pivots d_j of D in elimination order.
+    fn pivots(&self) -> Vec<f64> {
+        let mut d = vec![0.0; self.n];
+        match self.symbolic.raw() {
+            SymbolicCholeskyRaw::Simplicial(s) => {
+                let f = SimplicialLdltRef::new(s, &self.l_values);
+                let col_ptr = s.col_ptr();
+                let vals = f.values();
+                for (j, dj) in d.iter_mut().enumerate() {
+                    // The first entry of each column of L is its diagonal, which
+                    // holds d_j (L has a unit diagonal that is not stored).
+                    *dj = vals[col_ptr[j]];
+                }
+            }
+            SymbolicCholeskyRaw::Supernodal(s) => {
+                let f = SupernodalLdltRef::new(s, &self.l_values);
+                for sn in 0..s.n_supernodes() {
+                    let node = f.supernode(sn);
+                    let start = node.start();
+                    let v = node.val();
+                    for k in 0..v.ncols() {
+                        d[start + k] = v[(k, k)];
+                    }
+                }
+            }
+        }
+        d
+    }
+
+    fn inertia(&self, pattern: &Pattern, k_values: &[f64]) -> Inertia {
+        let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s].abs()).fold(0.0, f64::max);
+        let mut inertia = Inertia::default();
+        for (j, dj) in self.pivots().into_iter().enumerate() {
+            let dof = self.original_index(j);
+            let kjj = k_values[pattern.diag_slot[dof]].abs();
+            let scale = if kjj > ZERO_PIVOT_RATIO * max_diag { kjj } else { max_diag };
+            if !(dj.abs() > ZERO_PIVOT_RATIO * scale) {
+                inertia.zero_dofs.push(dof);
+            } else if dj < 0.0 {
+                inertia.negative += 1;
+            }
+        }
+        inertia
+    }
+
+    /// Whether the last factorization succeeded.
+    pub fn is_factored(&self) -> bool {
+        self.factored
+    }
+
+    /// Solves K·x = rhs in place with the last factorization.
+    pub fn solve_in_place(&mut self, rhs: &mut [f64]) {
+        debug_assert!(self.factored);
+        let ldlt = LdltRef::new(&self.symbolic, &self.l_values);
+        let n = rhs.len();
+        let mat = MatMut::from_column_major_slice_mut(rhs, n, 1);
+        ldlt.solve_in_place_with_conj(Conj::No, mat, self.par, MemStack::new(&mut self.solve_mem));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Upper-triangle CSC pattern of a dense symmetric matrix, for tests.
+    fn dense_pattern(a: &[Vec<f64>]) -> (Pattern, Vec<f64>) {
+        let n = a.len();
+        let mut col_ptr = vec![0];
+        let mut row_idx = vec![];
+        let mut vals = vec![];
+        let mut diag_slot = vec![];
+        for c in 0..n {
+            for (r, row) in a.iter().enumerate().take(c + 1) {
+                if row[c] != 0.0 || r == c {
+                    if r == c {
+                        diag_slot.push(row_idx.len());
+                    }
+                    row_idx.push(r);
+                    vals.push(row[c]);
+                }
+            }
+            col_ptr.push(row_idx.len());
+        }
+        (Pattern { n, col_ptr, row_idx, member_slots: vec![], diag_slot }, vals)
+    }
+
+    #[test]
+    fn solves_and_counts_negative_pivots() {
+        // Eigenvalues of this matrix: 3, 1 and −2 (diagonal in a rotated basis).
+        let a = vec![vec![2.0, 1.0, 0.0], vec![1.0, 2.0, 0.0], vec![0.0, 0.0, -2.0]];
+        let (p, v) = dense_pattern(&a);
+        let mut f = Ldlt::new(&p, Par::Seq).unwrap();
+        let inertia = f.factorize(&p, &v);
+        assert_eq!(inertia.negative, 1);
+        assert!(!inertia.is_singular());
+        let mut x = vec![3.0, 3.0, -4.0];
+        f.solve_in_place(&mut x);
+        for (xi, ei) in x.iter().zip([1.0, 1.0, 2.0]) {
+            assert!((xi - ei).abs() < 1e-14, "{x:?}");
+        }
+    }
+
+    #[test]
+    fn flags_a_zero_pivot() {
+        let a = vec![vec![1.0, 1.0], vec![1.0, 1.0]];
+        let (p, v) = dense_pattern(&a);
+        let mut f = Ldlt::new(&p, Par::Seq).unwrap();
+        let inertia = f.factorize(&p, &v);
+        assert!(inertia.is_singular(), "{inertia:?}");
+    }
+}
