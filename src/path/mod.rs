@@ -205,6 +205,29 @@ impl<'a> Tracer<'a> {
             };
         }
         ws.fresh = true;
+        if state.relative_residual > self.corrector.tolerance {
+            // The given geometry is not in balance with its prestress: find
+            // the prestressed equilibrium at λ = 0 first.
+            let start_u = state.u.clone();
+            let (term, rec) = solve::drive(sys, ws, &mut state, &start_u, 0.0, &FixedLoad, &self.corrector, 0, observer);
+            add_records(&mut rec0, &rec);
+            let failed = term != Termination::Converged
+                || solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some();
+            if failed {
+                let failure = Failure { step: 0, lambda_tried: 0.0, termination: term, relative_residual: state.relative_residual };
+                add_records(&mut self.wasted, &rec0);
+                restore(&mut state, start_u, 0.0);
+                return Path {
+                    points: Vec::new(),
+                    stop: StopReason::NoConvergence,
+                    final_state: state,
+                    mechanism: None,
+                    last_failure: Some(failure),
+                    n_cutbacks,
+                };
+            }
+            ws.fresh = true;
+        }
         let neg0 = ws.h.inertia.negative;
         points.push(self.make_point(&state, 0, rec0, neg0));
 

@@ -1,1 +1,34 @@
-fn main() {}
+//! The command-line front end: clap arguments → run settings → library calls
+//! → exit code. It knows nothing of mechanics.
+
+mod args;
+mod run;
+
+use clap::Parser;
+use std::process::ExitCode;
+
+/// Exit codes of the contract.
+pub mod exit {
+    pub const DONE: u8 = 0;
+    pub const INTERNAL: u8 = 1;
+    pub const BAD_INPUT: u8 = 2;
+    pub const STOPPED: u8 = 3;
+    pub const INTERRUPTED: u8 = 130;
+}
+
+fn main() -> ExitCode {
+    let cli = args::Cli::parse();
+    let code = match run::run(cli) {
+        Ok(code) => code,
+        Err(run::Failure::BadInput(msg)) => {
+            eprintln!("{msg}");
+            eprintln!("nothing was written");
+            exit::BAD_INPUT
+        }
+        Err(run::Failure::Internal(e)) => {
+            eprintln!("internal error: {e:#}");
+            exit::INTERNAL
+        }
+    };
+    ExitCode::from(code)
+}

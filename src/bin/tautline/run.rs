@@ -1,0 +1,266 @@
+//! Resolved run settings and the calls into the library.
+
+use crate::args::{Cli, Command, Overrides};
+use crate::exit;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+use tautline::assembly::System;
+use tautline::linalg::Ldlt;
+use tautline::model::{self, Axis, Control, MemberKind, Method, Model, NodeDir, StrainMeasure};
+use tautline::observe::Silent;
+use tautline::path::{StopReason, Tracer};
+use tautline::results::{self, CAUTION};
+use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
+use tautline::report;
+
+/// The embedded demo model.
+const DEMO_NAME: &str = "courtyard_net.toml (embedded demo)";
+const DEMO_MODEL: &str = include_str!("../../../models/courtyard_net.toml");
+
+pub enum Failure {
+    /// The input is wrong: exit 2, nothing written.
+    BadInput(String),
+    Internal(anyhow::Error),
+}
+
+impl From<anyhow::Error> for Failure {
+    fn from(e: anyhow::Error) -> Self {
+        Failure::Internal(e)
+    }
+}
+
+pub fn run(cli: Cli) -> Result<u8, Failure> {
+    match cli.command {
+        Command::Check { model } => {
+            let m = load(&model)?;
+            print_summary(&m);
+            Ok(exit::DONE)
+        }
+        Command::Solve { model, out, overrides } => {
+            let mut m = load(&model)?;
+            apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
+            solve(&m, &out, Some(&model))
+        }
+        Command::Demo { out } => {
+            let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
+                .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
+            println!("demo: {}", m.title);
+            solve(&m, &out, None)
+        }
+    }
+}
+
+fn load(path: &Path) -> Result<Model, Failure> {
+    let m = model::load(path).map_err(|e| Failure::BadInput(e.to_string()))?;
+    for w in &m.warnings {
+        eprintln!("warning: {w}");
+    }
+    Ok(m)
+}
+
+fn parse_node_dir(m: &Model, s: &str) -> Result<NodeDir, String> {
+    let (node, dir) = s
+        .rsplit_once('.')
+        .ok_or_else(|| format!("--watch {s}: expected NODE.DIR, e.g. A2.z"))?;
+    let node = m.node_index(node).ok_or_else(|| format!("--watch {s}: no node \"{node}\" in the model"))?;
+    let mut chars = dir.chars();
+    let axis = match (chars.next().and_then(Axis::from_letter), chars.next()) {
+        (Some(a), None) => a,
+        _ => return Err(format!("--watch {s}: direction must be x, y or z")),
+    };
+    Ok(NodeDir { node, axis })
+}
+
+/// Applies the command-line overrides of `[analysis]`, checking each like the
+/// model file's own value.
+fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
+    let len_in = m.units.length.to_si();
+    let a = &mut m.analysis;
+    if let Some(s) = &o.method {
+        a.method = Method::parse(s)
+            .ok_or_else(|| format!("--method {s}: expected one of {}", Method::NAMES.join(", ")))?;
+    }
+    if let Some(s) = &o.control {
+        a.control = Control::parse(s)
+            .ok_or_else(|| format!("--control {s}: expected one of {}", Control::NAMES.join(", ")))?;
+    }
+    if let Some(s) = &o.strain {
+        a.strain = match s.as_str() {
+            "green" => StrainMeasure::Green,
+            "engineering" => StrainMeasure::Engineering,
+            _ => return Err(format!("--strain {s}: expected green or engineering")),
+        };
+    }
+    if let Some(n) = o.steps {
+        if n == 0 {
+            return Err("--steps must be at least 1".into());
+        }
+        a.steps = n;
+    }
+    if let Some(n) = o.max_steps {
+        if n == 0 {
+            return Err("--max-steps must be at least 1".into());
+        }
+        a.max_steps = n;
+    }
+    if let Some(t) = o.tolerance {
+        if !(t > 0.0 && t <= 0.1) {
+            return Err(format!("--tolerance {t}: must be in (0, 0.1]"));
+        }
+        a.tolerance = t;
+    }
+    if let Some(t) = o.target {
+        if !t.is_finite() || t == 0.0 {
+            return Err(format!("--target {t}: must be a finite, non-zero number"));
+        }
+        a.target = if a.control == Control::Displacement { t * len_in } else { t };
+    }
+    if let Some(arc) = o.arc {
+        if !(arc > 0.0 && arc.is_finite()) {
+            return Err(format!("--arc {arc}: must be positive"));
+        }
+        a.arc = Some(arc * len_in);
+    }
+    if !o.watch.is_empty() {
+        let watch = o.watch.iter().map(|w| parse_node_dir(m, w)).collect::<Result<Vec<_>, _>>()?;
+        if m.analysis.point.is_none() {
+            m.analysis.point = watch.first().copied();
+        }
+        m.analysis.watch = watch;
+    }
+    let a = &m.analysis;
+    if a.control == Control::ArcLength {
+        return Err("control = \"arc-length\" is not available in this version; use \"load\" or \"displacement\"".into());
+    }
+    if a.control == Control::Displacement {
+        match a.point {
+            None => return Err("displacement control needs a controlled point: set node and dir in [analysis]".into()),
+            Some(p) if m.nodes[p.node].fixed[p.axis.index()] => {
+                return Err(format!("the controlled point {} is supported; choose a free direction", m.node_dir_label(p)));
+            }
+            _ => {}
+        }
+    }
+    Ok(())
+}
+
+fn print_summary(m: &Model) {
+    let u = m.units;
+    let bars = m.members.iter().filter(|x| x.kind == MemberKind::Bar).count();
+    let cables = m.n_members() - bars;
+    let supported = m.nodes.iter().filter(|n| n.fixed.iter().any(|f| *f)).count();
+    let n_free = 3 * m.n_nodes() - m.n_fixed();
+    let t = m.total_reference_load();
+    println!("model: {} ({})", m.title, m.files[0]);
+    println!("units: force {}, length {}", u.force.name(), u.length.name());
+    println!("nodes: {} ({} supported, {} fixed directions)", m.n_nodes(), supported, m.n_fixed());
+    println!("members: {} ({bars} bars, {cables} cables)", m.n_members());
+    println!("springs: {}", m.springs.len());
+    println!("free DOFs: {n_free}");
+    println!(
+        "loads: {} nodal loads; total reference load [{:.6}, {:.6}, {:.6}] {}",
+        m.loads.len(),
+        u.force_out(t[0]),
+        u.force_out(t[1]),
+        u.force_out(t[2]),
+        u.force.name()
+    );
+    println!("model is valid");
+}
+
+fn prepare_out_dir(out: &Path, model_path: Option<&Path>) -> Result<(), Failure> {
+    if out.exists() && !out.is_dir() {
+        return Err(Failure::BadInput(format!(
+            "{}: the output path exists and is not a folder; choose another -o DIR",
+            out.display()
+        )));
+    }
+    if let Some(mp) = model_path {
+        if mp.canonicalize().ok() == out.canonicalize().ok() {
+            return Err(Failure::BadInput("the output folder may not be the model file".into()));
+        }
+    }
+    std::fs::create_dir_all(out).map_err(|e| {
+        Failure::BadInput(format!("{}: cannot create the output folder: {e}", out.display()))
+    })
+}
+
+fn solve(m: &Model, out: &Path, model_path: Option<&Path>) -> Result<u8, Failure> {
+    let system = System::new(m).map_err(|e| {
+        Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
+    })?;
+    if system.n_free() == 0 {
+        return Err(Failure::BadInput("the model has no free degree of freedom".into()));
+    }
+    prepare_out_dir(out, model_path)?;
+    let started = Instant::now();
+    let a = &m.analysis;
+    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).map_err(|e| Failure::Internal(e.into()))?;
+    let corrector = CorrectorConfig::for_method(a.method, a.tolerance, a.max_iterations);
+    let h = InverseTangent::new(a.method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(&system, m.n_nodes(), h);
+    let mut tracer = Tracer::new(&system, m, corrector);
+    let path = tracer.run(&mut ws, &mut Silent);
+    let seconds = started.elapsed().as_secs_f64();
+    let res = results::build(m, &system, &path, &tracer.wasted, seconds);
+    let members = results::members(m, &system, &path);
+
+    let mut staged = report::Staged::default();
+    let write = |staged: &mut report::Staged, name: &str, text: String| {
+        staged
+            .add(out, name, text.as_bytes())
+            .map_err(|e| Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(name).display())))
+    };
+    write(&mut staged, "results.json", report::results_json(&res))?;
+    write(&mut staged, "path.csv", report::path_csv(&res))?;
+    write(&mut staged, "members.csv", report::members_csv(&members, m.units.force.name(), m.units.length.name()))?;
+    let written: Vec<PathBuf> = staged
+        .commit()
+        .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
+
+    print_run_summary(m, &res);
+    println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
+    println!("{CAUTION}");
+    Ok(match path.stop {
+        s if s.is_complete() => exit::DONE,
+        StopReason::Interrupted => exit::INTERRUPTED,
+        _ => exit::STOPPED,
+    })
+}
+
+fn print_run_summary(m: &Model, r: &results::Results) {
+    let u = m.units;
+    println!(
+        "{} / {} control / {} strain: {} steps",
+        r.analysis.method,
+        r.analysis.control,
+        r.analysis.strain,
+        r.steps.len().saturating_sub(1)
+    );
+    if let Some(last) = r.steps.last() {
+        println!("final load factor {:.6}", last.load_factor);
+        for (w, v) in r.watch.iter().zip(&last.watched) {
+            println!("  {w} = {v:.6e} {}", u.length.name());
+        }
+    }
+    if let Some(cp) = r.critical_points.first() {
+        let p = results_load(m, cp.load_factor);
+        println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load)", cp.kind, cp.load_factor, u.force.name());
+    }
+    if !r.slack_members.is_empty() {
+        let shown: Vec<_> = r.slack_members.iter().take(10).cloned().collect();
+        println!("slack cables at the end: {} ({}{})", r.slack_members.len(), shown.join(", "), if r.slack_members.len() > 10 { ", ..." } else { "" });
+    }
+    println!(
+        "totals: {} iterations, {} factorizations, {} residual evaluations, {} cut-backs, {:.3} s",
+        r.totals.iterations, r.totals.factorizations, r.totals.residual_evaluations, r.totals.cutbacks, r.totals.seconds
+    );
+    println!("equilibrium check: |loads + reactions| / |loads| = {:.2e}", r.equilibrium.relative_imbalance);
+    let status = if r.converged { "done" } else { "stopped before the target" };
+    println!("{status}: {}", r.stop_message);
+}
+
+fn results_load(m: &Model, lambda: f64) -> f64 {
+    let t = m.total_reference_load();
+    m.units.force_out(lambda * (t[0] * t[0] + t[1] * t[1] + t[2] * t[2]).sqrt())
+}

@@ -1,0 +1,364 @@
+//! Plain, serializable results, in the model's units: the only `Serialize`
+//! outputs of the library. Built from a [`Path`], the [`Model`] and its
+//! [`System`]; writers in `report` read nothing else.
+
+use crate::assembly::System;
+use crate::model::{Model, MemberKind};
+use crate::path::{Path, StopReason};
+use crate::solve::Termination;
+use serde::Serialize;
+
+/// The one-line caution every output carries (see SAFETY.md).
+pub const CAUTION: &str = "tautline screens and informs; it checks no design code. \
+Engineering sign-off follows local codes and licensed practice (see SAFETY.md).";
+
+#[derive(Clone, Debug, Serialize)]
+pub struct Results {
+    pub tool: String,
+    pub title: String,
+    pub model_file: String,
+    pub units: UnitsOut,
+    pub caution: String,
+    pub converged: bool,
+    pub stop_reason: String,
+    pub stop_message: String,
+    pub analysis: AnalysisOut,
+    pub watch: Vec<String>,
+    pub steps: Vec<StepOut>,
+    pub critical_points: Vec<CriticalPoint>,
+    pub reactions: Vec<ReactionOut>,
+    pub equilibrium: EquilibriumOut,
+    pub slack_members: Vec<String>,
+    pub mechanism: Option<MechanismOut>,
+    pub totals: Totals,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct UnitsOut {
+    pub force: String,
+    pub length: String,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct AnalysisOut {
+    pub strain: String,
+    pub method: String,
+    pub control: String,
+    pub steps: usize,
+    pub target: f64,
+    pub tolerance: f64,
+    pub point: Option<String>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct StepOut {
+    pub step: usize,
+    pub load_factor: f64,
+    pub iterations: usize,
+    pub factorizations: usize,
+    pub residual_evaluations: usize,
+    pub line_search_trials: usize,
+    /// Relative residual at convergence.
+    pub residual: f64,
+    pub negative_pivots: usize,
+    /// Displacement of the controlled point, model length units.
+    pub point: f64,
+    /// Displacements of the watched DOFs, in `watch` order, model length units.
+    pub watched: Vec<f64>,
+    /// Relative residual before each iteration and after the last.
+    pub residual_history: Vec<f64>,
+    /// Iterations at which the tangent was refactored.
+    pub refactored_at: Vec<usize>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct CriticalPoint {
+    /// "limit" or "bifurcation".
+    pub kind: String,
+    pub load_factor: f64,
+    /// First converged step past the point.
+    pub step: usize,
+    pub negative_pivots_before: usize,
+    pub negative_pivots_after: usize,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct ReactionOut {
+    pub node: String,
+    pub dir: String,
+    /// Force the support (or ground spring) exerts on the structure, model force units.
+    pub value: f64,
+    /// "support" or "spring".
+    pub by: String,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct EquilibriumOut {
+    /// Applied load λ·f_ref summed over the structure, model force units.
+    pub applied: [f64; 3],
+    pub reactions: [f64; 3],
+    /// applied + reactions: zero at equilibrium.
+    pub imbalance: [f64; 3],
+    /// |imbalance| / (|applied| + |reactions|).
+    pub relative_imbalance: f64,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct MechanismOut {
+    pub load_factor: f64,
+    /// "NODE.DIR" entries free to move.
+    pub moving: Vec<String>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct Totals {
+    pub iterations: usize,
+    pub factorizations: usize,
+    pub residual_evaluations: usize,
+    pub cutbacks: usize,
+    /// Work spent in attempts that were cut back, included above.
+    pub wasted_iterations: usize,
+    pub seconds: f64,
+}
+
+/// One member's final state, model units.
+#[derive(Clone, Debug, Serialize)]
+pub struct MemberOut {
+    pub id: String,
+    pub kind: String,
+    pub force: f64,
+    pub strain: f64,
+    pub length: f64,
+    pub utilisation: Option<f64>,
+    pub slack: bool,
+}
+
+fn norm3(v: [f64; 3]) -> f64 {
+    (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt()
+}
+
+/// Describes why the path stopped, in words an engineer can act on.
+pub fn stop_message(model: &Model, path: &Path) -> String {
+    let units = &model.units;
+    let last = path.points.last().map_or(0.0, |p| p.lambda);
+    match path.stop {
+        StopReason::TargetReached => format!("reached the target at load factor {last:.6}"),
+        StopReason::MaxDisplacement => format!("stopped at max_displacement, load factor {last:.6}"),
+        StopReason::MaxSteps => format!(
+            "stopped after max_steps = {} steps at load factor {last:.6}, before the target; raise max_steps or steps",
+            model.analysis.max_steps
+        ),
+        StopReason::Interrupted => format!("interrupted at load factor {last:.6}; converged steps are kept"),
+        StopReason::Mechanism => {
+            let moving = path.mechanism.as_ref().map(|m| {
+                m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect::<Vec<_>>().join(", ")
+            });
+            format!(
+                "the structure is a mechanism at load factor {last:.6}: {} can move without resistance; \
+                 add a support, a bracing member or prestress in the cables there",
+                moving.unwrap_or_else(|| "some node".into())
+            )
+        }
+        StopReason::NoConvergence => {
+            let Some(f) = &path.last_failure else { return "no convergence".into() };
+            let cause = match &f.termination {
+                Termination::SingularTangent { dofs } => {
+                    let d = dofs.first().map(|_| "the tangent became singular (a limit point, or cables going slack)");
+                    d.unwrap_or("the tangent became singular").to_string()
+                }
+                Termination::MaxIterations => "the corrector ran out of iterations".into(),
+                Termination::Diverged => "the iterations diverged".into(),
+                Termination::ConstraintFailed => "the path constraint had no solution".into(),
+                Termination::Converged | Termination::Stopped => "unknown".into(),
+            };
+            let hint = match model.analysis.control {
+                crate::model::Control::Load => {
+                    "if the load has passed a limit point, load control cannot follow it: try control = \"displacement\" or \"arc-length\"; otherwise try more steps"
+                }
+                _ => "try a smaller step (more steps or a smaller arc) or more max_iterations",
+            };
+            format!(
+                "step {} did not converge after {} halvings: {cause} while going to load factor {:.6} \
+                 (relative residual {:.3e}); the last converged load factor is {last:.6} ({:.6e} {} total reference load scaled); {hint}",
+                f.step,
+                model.analysis.max_cutbacks,
+                f.lambda_tried,
+                f.relative_residual,
+                units.force_out(last * norm3(model.total_reference_load())),
+                units.force.name()
+            )
+        }
+    }
+}
+
+/// Critical points seen as changes of the tangent's negative pivot count
+/// between converged steps: a limit point when the load factor turns back
+/// (or the count changes where λ has an extremum), a bifurcation when the
+/// count changes while λ keeps rising.
+pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
+    let pts = &path.points;
+    let mut out = Vec::new();
+    for k in 1..pts.len() {
+        let (a, b) = (&pts[k - 1], &pts[k]);
+        if a.negative_pivots == b.negative_pivots {
+            continue;
+        }
+        let d_before = b.lambda - a.lambda;
+        let d_after = pts.get(k + 1).map(|c| c.lambda - b.lambda);
+        let previous = if k >= 2 { Some(a.lambda - pts[k - 2].lambda) } else { None };
+        let turns = |x: Option<f64>| x.is_some_and(|x| x * d_before < 0.0);
+        let kind = if turns(d_after) || turns(previous) { "limit" } else { "bifurcation" };
+        out.push(CriticalPoint {
+            kind: kind.into(),
+            load_factor: if kind == "limit" { a.lambda.abs().max(b.lambda.abs()) * b.lambda.signum() } else { 0.5 * (a.lambda + b.lambda) },
+            step: b.step,
+            negative_pivots_before: a.negative_pivots,
+            negative_pivots_after: b.negative_pivots,
+        });
+    }
+    out
+}
+
+/// `wasted` is the work of attempts that were cut back; it is added to the totals.
+pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve::StepRecord, seconds: f64) -> Results {
+    let units = model.units;
+    let a = &model.analysis;
+    let len = |v: f64| units.length_out(v);
+    let steps: Vec<StepOut> = path
+        .points
+        .iter()
+        .map(|p| StepOut {
+            step: p.step,
+            load_factor: p.lambda,
+            iterations: p.record.iterations,
+            factorizations: p.record.factorizations,
+            residual_evaluations: p.record.residual_evaluations,
+            line_search_trials: p.record.line_search_trials,
+            residual: p.relative_residual,
+            negative_pivots: p.negative_pivots,
+            point: len(p.point),
+            watched: p.watched.iter().map(|v| len(*v)).collect(),
+            residual_history: p.record.residual_history.clone(),
+            refactored_at: p.record.refactored_at.clone(),
+        })
+        .collect();
+
+    let st = &path.final_state;
+    let mut reactions = Vec::new();
+    let mut react_sum = [0.0; 3];
+    for (node, n) in model.nodes.iter().enumerate() {
+        for ax in 0..3 {
+            if n.fixed[ax] {
+                // Node equilibrium f_ext + R = f_int with no load on a
+                // support: the reaction is the internal force there.
+                let v = st.reactions[3 * node + ax];
+                react_sum[ax] += v;
+                reactions.push(ReactionOut {
+                    node: n.label.clone(),
+                    dir: ["x", "y", "z"][ax].into(),
+                    value: units.force_out(v),
+                    by: "support".into(),
+                });
+            }
+        }
+    }
+    for (dof, f) in system.spring_forces(&st.u) {
+        let nd = system.dofs.owner(dof);
+        react_sum[nd.axis.index()] += f;
+        reactions.push(ReactionOut {
+            node: model.nodes[nd.node].label.clone(),
+            dir: nd.axis.to_string(),
+            value: units.force_out(f),
+            by: "spring".into(),
+        });
+    }
+    let total = model.total_reference_load();
+    let applied = [st.lambda * total[0], st.lambda * total[1], st.lambda * total[2]];
+    let imbalance = [applied[0] + react_sum[0], applied[1] + react_sum[1], applied[2] + react_sum[2]];
+    let denom = norm3(applied) + norm3(react_sum);
+    let equilibrium = EquilibriumOut {
+        applied: applied.map(|v| units.force_out(v)),
+        reactions: react_sum.map(|v| units.force_out(v)),
+        imbalance: imbalance.map(|v| units.force_out(v)),
+        relative_imbalance: if denom > 0.0 { norm3(imbalance) / denom } else { 0.0 },
+    };
+    let members = system.member_results(&st.u);
+    let slack_members = model
+        .members
+        .iter()
+        .zip(&members)
+        .filter(|(_, r)| r.slack)
+        .map(|(m, _)| m.label.clone())
+        .collect();
+    let (iterations, factorizations, residual_evaluations) = path.totals();
+    Results {
+        tool: format!("tautline {}", env!("CARGO_PKG_VERSION")),
+        title: model.title.clone(),
+        model_file: model.files.first().cloned().unwrap_or_default(),
+        units: UnitsOut { force: units.force.name().into(), length: units.length.name().into() },
+        caution: CAUTION.into(),
+        converged: path.stop.is_complete(),
+        stop_reason: path.stop.name().into(),
+        stop_message: stop_message(model, path),
+        analysis: AnalysisOut {
+            strain: match a.strain {
+                crate::model::StrainMeasure::Green => "green".into(),
+                crate::model::StrainMeasure::Engineering => "engineering".into(),
+            },
+            method: a.method.name().into(),
+            control: a.control.name().into(),
+            steps: a.steps,
+            target: if a.control == crate::model::Control::Displacement { len(a.target) } else { a.target },
+            tolerance: a.tolerance,
+            point: a.point.map(|p| model.node_dir_label(p)),
+        },
+        watch: a.watch.iter().map(|w| model.node_dir_label(*w)).collect(),
+        steps,
+        critical_points: critical_points(path),
+        reactions,
+        equilibrium,
+        slack_members,
+        mechanism: path.mechanism.as_ref().map(|m| MechanismOut {
+            load_factor: m.lambda,
+            moving: m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect(),
+        }),
+        totals: Totals {
+            iterations: iterations + wasted.iterations,
+            factorizations: factorizations + wasted.factorizations,
+            residual_evaluations: residual_evaluations + wasted.residual_evaluations,
+            cutbacks: path.n_cutbacks,
+            wasted_iterations: wasted.iterations,
+            seconds,
+        },
+    }
+}
+
+/// Final member states, model units.
+pub fn members(model: &Model, system: &System, path: &Path) -> Vec<MemberOut> {
+    let units = model.units;
+    system
+        .member_results(&path.final_state.u)
+        .iter()
+        .zip(&model.members)
+        .map(|(r, m)| {
+            let sec = &model.sections[m.section];
+            let utilisation = if r.force >= 0.0 {
+                sec.tension_capacity.map(|c| r.force / c)
+            } else {
+                sec.compression_capacity.map(|c| -r.force / c)
+            };
+            MemberOut {
+                id: m.label.clone(),
+                kind: match m.kind {
+                    MemberKind::Bar => "bar".into(),
+                    MemberKind::Cable => "cable".into(),
+                },
+                force: units.force_out(r.force),
+                strain: r.strain,
+                length: units.length_out(r.length),
+                utilisation,
+                slack: r.slack,
+            }
+        })
+        .collect()
+}
