@@ -1,5 +1,2897 @@
-//! ModelFile → Model (to be written).
-use super::{Model, ModelErrors};
+//! ModelFile → Model: resolve labels to indices, convert to SI and check
+//! everything, collecting every problem (up to a cap) before failing.
+//!
+//! TOML entries and CSV rows are first put into the same raw shape
+//! ([`RawNode`], [`RawMember`]) and then go through the same checks, so a row
+//! of `members.csv` is held to exactly the rules of a `[[member]]` table.
+
+mod csv;
+pub(crate) mod suggest;
+
+use std::collections::{HashMap, HashSet};
 use std::path::Path;
-pub fn load(_path: &Path) -> Result<Model, ModelErrors> { todo!() }
-pub fn load_str(_text: &str, _file_name: &str, _base_dir: Option<&Path>) -> Result<Model, ModelErrors> { todo!() }
+
+use toml::Spanned;
+
+use super::file::{
+    AnalysisEntry, FormEntry, LineIndex, LostItems, MemberEntry, ModelFile, NodeEntry, Span,
+    UnitsEntry, lower_first,
+};
+use super::{
+    Analysis, Axis, Control, Diagnostic, ForceUnit, FormSettings, LengthUnit, Member, MemberKind,
+    Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section, Spring,
+    StrainMeasure, Units,
+};
+use csv::{Cell, CsvReader};
+
+/// Past this many errors the rest are mostly consequences of the first ones.
+pub const MAX_DIAGNOSTICS: usize = 50;
+/// Warnings are capped too, so one repeated remark cannot flood the output.
+pub const MAX_WARNINGS: usize = 50;
+/// Largest number of nodes, members, springs or loads a model may have.
+pub const MAX_ITEMS: usize = 20_000_000;
+/// Largest CSV table read into memory.
+const MAX_CSV_BYTES: u64 = 4 << 30;
+/// Members shorter than this fraction of the model's size have zero length.
+const ZERO_LENGTH: f64 = 1e-12;
+
+/// Label → index.
+type LabelMap<'a> = HashMap<&'a str, usize>;
+
+/// Read and check the model file at `path`. CSV tables it names are found
+/// next to it.
+pub fn load(path: &Path) -> Result<Model, ModelErrors> {
+    let name = path.display().to_string();
+    let text = std::fs::read_to_string(path).map_err(|e| {
+        Diagnostic::new(
+            &name,
+            format!(
+                "cannot read the model file: {}",
+                lower_first(&e.to_string())
+            ),
+        )
+        .help("check that the path is right and that the file is readable utf-8 text")
+    })?;
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    load_str(&text, &name, Some(&base))
+}
+
+/// Check a model given as TOML text. `file_name` is used in messages;
+/// `base_dir` is where `nodes_csv` and `members_csv` are looked for (with
+/// `None` naming a CSV table is an error).
+pub fn load_str(
+    text: &str,
+    file_name: &str,
+    base_dir: Option<&Path>,
+) -> Result<Model, ModelErrors> {
+    let toml = Toml {
+        text,
+        index: LineIndex::new(text),
+    };
+    let mut cx = Ctx::new(file_name);
+    let parsed = ModelFile::parse(text);
+    for p in &parsed.problems {
+        let src = p.span.as_ref().map(|s| toml.src(s)).unwrap_or_default();
+        let d = cx.diagnostic(src, p.item.clone(), p.message.clone(), p.help.clone());
+        cx.push_error(src, d);
+    }
+    if parsed.syntax_error {
+        return Err(cx.into_errors());
+    }
+    let model = build(&mut cx, &toml, &parsed.file, &parsed.lost, base_dir);
+    if cx.errors.is_empty() {
+        let mut model = model;
+        model.files = std::mem::take(&mut cx.files);
+        model.warnings = cx.into_warnings();
+        Ok(model)
+    } else {
+        Err(cx.into_errors())
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Places, items and the diagnostic sink
+
+/// Where a value was written: file index, 1-based line and column (0 = not
+/// known).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+struct Src {
+    file: u16,
+    line: u32,
+    col: u32,
+}
+
+impl Src {
+    fn place(self) -> Place {
+        Place {
+            file: self.file,
+            line: self.line,
+        }
+    }
+
+    /// Sort key: file order, with model-wide problems (no line) last.
+    fn order(self) -> (bool, u16, u32, u32) {
+        (self.line == 0, self.file, self.line, self.col)
+    }
+}
+
+fn to_u32(v: usize) -> u32 {
+    u32::try_from(v).unwrap_or(u32::MAX)
+}
+
+/// The TOML text, for turning byte spans into lines and columns.
+struct Toml<'t> {
+    text: &'t str,
+    index: LineIndex,
+}
+
+impl Toml<'_> {
+    fn src(&self, span: &Span) -> Src {
+        let (line, col) = self.index.line_col(self.text, span.start);
+        Src {
+            file: 0,
+            line: to_u32(line),
+            col: to_u32(col),
+        }
+    }
+
+    fn at<T>(&self, v: &Spanned<T>) -> Src {
+        self.src(&v.span())
+    }
+}
+
+/// The thing a diagnostic is about.
+#[derive(Clone, Copy, Debug)]
+enum Item<'a> {
+    /// `node "A2"`
+    Named(&'static str, &'a str),
+    /// `spring 3`
+    Numbered(&'static str, usize),
+    /// `[analysis]`, `header`, …
+    Plain(&'static str),
+    /// The model as a whole.
+    Model,
+}
+
+impl Item<'_> {
+    fn text(self) -> Option<String> {
+        match self {
+            Item::Named(kind, label) => Some(format!("{kind} {label:?}")),
+            Item::Numbered(kind, n) => Some(format!("{kind} {n}")),
+            Item::Plain(s) => Some(s.to_string()),
+            Item::Model => None,
+        }
+    }
+}
+
+struct Ctx {
+    files: Vec<String>,
+    units: Units,
+    errors: Vec<(Src, Diagnostic)>,
+    dropped_errors: usize,
+    warnings: Vec<(Src, Diagnostic)>,
+    dropped_warnings: usize,
+}
+
+impl Ctx {
+    fn new(file_name: &str) -> Ctx {
+        Ctx {
+            files: vec![file_name.to_string()],
+            units: Units::default(),
+            errors: Vec::new(),
+            dropped_errors: 0,
+            warnings: Vec::new(),
+            dropped_warnings: 0,
+        }
+    }
+
+    /// No more errors will be kept: skip costly work such as suggestions.
+    fn full(&self) -> bool {
+        self.errors.len() >= MAX_DIAGNOSTICS
+    }
+
+    fn diagnostic(
+        &self,
+        src: Src,
+        item: Option<String>,
+        message: String,
+        help: Option<String>,
+    ) -> Diagnostic {
+        let file = self
+            .files
+            .get(usize::from(src.file))
+            .cloned()
+            .unwrap_or_default();
+        let mut d = Diagnostic::new(file, message);
+        if src.line > 0 {
+            d = d.at(src.line as usize, (src.col > 0).then_some(src.col as usize));
+        }
+        d.item = item;
+        d.help = help;
+        d
+    }
+
+    fn push_error(&mut self, src: Src, d: Diagnostic) {
+        if self.full() {
+            self.dropped_errors += 1;
+        } else {
+            self.errors.push((src, d));
+        }
+    }
+
+    fn error_with(&mut self, src: Src, item: Item, message: String, help: Option<String>) {
+        if self.full() {
+            self.dropped_errors += 1;
+            return;
+        }
+        let d = self.diagnostic(src, item.text(), message, help);
+        self.errors.push((src, d));
+    }
+
+    fn error(&mut self, src: Src, item: Item, message: impl Into<String>, help: impl Into<String>) {
+        self.error_with(src, item, message.into(), Some(help.into()));
+    }
+
+    fn warn(&mut self, src: Src, item: Item, message: impl Into<String>, help: impl Into<String>) {
+        if self.warnings.len() >= MAX_WARNINGS {
+            self.dropped_warnings += 1;
+            return;
+        }
+        let d = self.diagnostic(src, item.text(), message.into(), Some(help.into()));
+        self.warnings.push((src, d));
+    }
+
+    fn into_errors(self) -> ModelErrors {
+        let mut errors = self.errors;
+        errors.sort_by_key(|(src, _)| src.order());
+        let mut diagnostics: Vec<Diagnostic> = errors.into_iter().map(|(_, d)| d).collect();
+        if self.dropped_errors > 0 {
+            diagnostics.push(
+                Diagnostic::new(
+                    self.files[0].clone(),
+                    format!(
+                        "too many problems: {} more were found and not shown",
+                        self.dropped_errors
+                    ),
+                )
+                .help(format!(
+                    "fix the {MAX_DIAGNOSTICS} problems above and check again"
+                )),
+            );
+        }
+        ModelErrors { diagnostics }
+    }
+
+    fn into_warnings(self) -> Vec<Diagnostic> {
+        let mut warnings = self.warnings;
+        warnings.sort_by_key(|(src, _)| src.order());
+        let mut out: Vec<Diagnostic> = warnings.into_iter().map(|(_, d)| d).collect();
+        if self.dropped_warnings > 0 {
+            out.push(Diagnostic::new(
+                self.files[0].clone(),
+                format!("{} more warnings were not shown", self.dropped_warnings),
+            ));
+        }
+        out
+    }
+}
+
+/// A number as written in messages (`nan`, `inf`, `2.5`).
+fn fmt_num(v: f64) -> String {
+    if v.is_nan() {
+        "nan".into()
+    } else if v.is_infinite() {
+        if v > 0.0 { "inf".into() } else { "-inf".into() }
+    } else {
+        format!("{v}")
+    }
+}
+
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Rule {
+    Finite,
+    Positive,
+    NonNegative,
+}
+
+/// Check one number from the file; true if it may be used. `help` explains
+/// the sign rule.
+fn check_number(
+    cx: &mut Ctx,
+    v: f64,
+    src: Src,
+    item: Item,
+    key: &str,
+    rule: Rule,
+    help: &str,
+) -> bool {
+    if !v.is_finite() {
+        cx.error(
+            src,
+            item,
+            format!("`{key}` must be a finite number, found {}", fmt_num(v)),
+            "nan and inf are valid toml but mean nothing in a model; write a finite number",
+        );
+        return false;
+    }
+    let bad = match rule {
+        Rule::Finite => None,
+        Rule::Positive => (v <= 0.0).then_some("greater than zero"),
+        Rule::NonNegative => (v < 0.0).then_some("zero or more"),
+    };
+    if let Some(want) = bad {
+        cx.error(
+            src,
+            item,
+            format!("`{key}` must be {want}, found {}", fmt_num(v)),
+            help,
+        );
+        return false;
+    }
+    true
+}
+
+/// A count such as `steps`: at least `min`.
+fn check_count(
+    cx: &mut Ctx,
+    t: &Toml,
+    v: &Spanned<i64>,
+    key: &str,
+    min: i64,
+    help: &str,
+) -> Option<usize> {
+    let n = *v.get_ref();
+    if n < min {
+        cx.error(
+            t.at(v),
+            Item::Plain("[analysis]"),
+            format!("`{key}` must be at least {min}, found {n}"),
+            help,
+        );
+        return None;
+    }
+    usize::try_from(n).ok()
+}
+
+fn parse_dir(s: &str) -> Option<Axis> {
+    let mut chars = s.chars();
+    match (chars.next(), chars.next()) {
+        (Some(c), None) => Axis::from_letter(c),
+        _ => None,
+    }
+}
+
+const DIR_HELP: &str = "a direction is one of the letters x, y, z";
+const FIX_HELP: &str =
+    "`fix` takes any of the letters x, y, z, each at most once; \"\" leaves the node free";
+
+/// `"xz"` → supported directions.
+fn parse_fix(s: &str) -> Result<[bool; 3], String> {
+    let mut fixed = [false; 3];
+    for c in s.chars() {
+        let Some(a) = Axis::from_letter(c) else {
+            return Err(format!("invalid letter {c:?} in `fix` {s:?}"));
+        };
+        if fixed[a.index()] {
+            return Err(format!("letter '{a}' appears twice in `fix` {s:?}"));
+        }
+        fixed[a.index()] = true;
+    }
+    Ok(fixed)
+}
+
+// ---------------------------------------------------------------------------
+// The conversion
+
+/// Turn the file into a model, reporting every problem into `cx`. The
+/// result is only meaningful if no error was reported.
+fn build(
+    cx: &mut Ctx,
+    t: &Toml,
+    file: &ModelFile,
+    lost: &LostItems,
+    base_dir: Option<&Path>,
+) -> Model {
+    cx.units = units(cx, t, file.units.as_ref());
+    let title = file
+        .title
+        .as_ref()
+        .map(|s| s.get_ref().clone())
+        .unwrap_or_default();
+
+    let sections: Vec<Section> = file.section.iter().map(|s| section(cx, t, s)).collect();
+
+    let mut nodes = Vec::with_capacity(file.node.len());
+    for n in &file.node {
+        add_node(cx, toml_node(t, n), &mut nodes);
+    }
+    if let Some(name) = &file.nodes_csv
+        && let Some((idx, text)) = read_csv(cx, t, name, "nodes_csv", base_dir)
+    {
+        csv_nodes(cx, idx, &text, &mut nodes);
+    }
+    check_size(cx, nodes.len(), "nodes");
+
+    let lost_nodes: HashSet<&str> = lost.nodes.iter().map(String::as_str).collect();
+    let lost_sections: HashSet<&str> = lost.sections.iter().map(String::as_str).collect();
+    let refs = Refs {
+        nodes: &nodes,
+        node_map: index_labels(
+            cx,
+            nodes.iter().map(|n| (n.label.as_str(), n.place)),
+            "node",
+        ),
+        lost_nodes,
+        sections: &sections,
+        section_map: index_labels(
+            cx,
+            sections.iter().map(|s| (s.name.as_str(), s.place)),
+            "section",
+        ),
+        lost_sections,
+        size: model_size(&nodes),
+    };
+
+    let mut attached = vec![false; nodes.len()];
+    let mut section_used = vec![false; sections.len()];
+    let mut members = Vec::with_capacity(file.member.len());
+    // Entries seen, read or not: "no members" must not follow from errors.
+    let mut member_entries = file.member.len() + lost.members.len();
+    for m in &file.member {
+        let raw = toml_member(t, m);
+        add_member(
+            cx,
+            &raw,
+            &refs,
+            &mut members,
+            &mut attached,
+            &mut section_used,
+        );
+    }
+    if let Some(name) = &file.members_csv
+        && let Some((idx, text)) = read_csv(cx, t, name, "members_csv", base_dir)
+    {
+        member_entries += csv_members(
+            cx,
+            idx,
+            &text,
+            &refs,
+            &mut members,
+            &mut attached,
+            &mut section_used,
+        );
+    }
+    check_size(cx, members.len(), "members");
+    let member_places = members.iter().map(|m: &Member| (m.label.as_str(), m.place));
+    index_labels(cx, member_places, "member");
+
+    let springs = springs(cx, t, file, &refs, &mut attached);
+    let loads = loads(cx, t, file, &refs);
+    let analysis = analysis(cx, t, file.analysis.as_ref(), &refs, &loads);
+    let form = form(cx, t, file.form.as_ref());
+
+    if !lost.structure {
+        model_checks(cx, &refs, member_entries, &attached);
+    }
+    unused_sections(cx, &sections, &section_used);
+    if loads.is_empty() && sections.iter().all(|s| s.weight.is_none_or(|w| w == 0.0)) {
+        cx.warn(
+            Src::default(),
+            Item::Model,
+            "the model has no loads",
+            "add [[load]] tables or a section `weight`, or the analysis has nothing to do",
+        );
+    }
+    drop(refs);
+
+    Model {
+        title,
+        files: Vec::new(),
+        units: cx.units,
+        nodes,
+        sections,
+        members,
+        springs,
+        loads,
+        analysis,
+        form,
+        warnings: Vec::new(),
+    }
+}
+
+fn check_size(cx: &mut Ctx, n: usize, what: &str) {
+    if n > MAX_ITEMS {
+        cx.error(
+            Src::default(),
+            Item::Model,
+            format!("the model has more than {MAX_ITEMS} {what}"),
+            "split the model; larger models are not supported",
+        );
+    }
+}
+
+fn units(cx: &mut Ctx, t: &Toml, entry: Option<&Spanned<UnitsEntry>>) -> Units {
+    let mut u = Units::default();
+    let Some(entry) = entry else { return u };
+    let item = Item::Plain("[units]");
+    if let Some(f) = &entry.get_ref().force {
+        match ForceUnit::parse(f.get_ref()) {
+            Some(v) => u.force = v,
+            None => cx.error(
+                t.at(f),
+                item,
+                format!("unknown force unit {:?}", f.get_ref()),
+                suggest::choice_help(f.get_ref(), &ForceUnit::NAMES),
+            ),
+        }
+    }
+    if let Some(l) = &entry.get_ref().length {
+        match LengthUnit::parse(l.get_ref()) {
+            Some(v) => u.length = v,
+            None => cx.error(
+                t.at(l),
+                item,
+                format!("unknown length unit {:?}", l.get_ref()),
+                suggest::choice_help(l.get_ref(), &LengthUnit::NAMES),
+            ),
+        }
+    }
+    u
+}
+
+fn section(cx: &mut Ctx, t: &Toml, s: &Spanned<super::file::SectionEntry>) -> Section {
+    let e = s.get_ref();
+    let name = e.name.get_ref();
+    let item = Item::Named("section", name);
+    if name.is_empty() {
+        cx.error(
+            t.at(&e.name),
+            item,
+            "section name is empty",
+            "give the section a name, e.g. name = \"strand\"",
+        );
+    }
+    let ea = *e.ea.get_ref();
+    check_number(
+        cx,
+        ea,
+        t.at(&e.ea),
+        item,
+        "EA",
+        Rule::Positive,
+        "EA is the axial rigidity E·A, a force; it must be positive",
+    );
+    let u = cx.units;
+    let mut optional = |v: &Option<Spanned<f64>>, key: &str, rule: Rule, help: &str| {
+        v.as_ref().map(|v| {
+            check_number(cx, *v.get_ref(), t.at(v), item, key, rule, help);
+            *v.get_ref()
+        })
+    };
+    let weight = optional(
+        &e.weight,
+        "weight",
+        Rule::NonNegative,
+        "weight is a force per length acting downwards; write it as a positive number",
+    );
+    let tension = optional(
+        &e.tension_capacity,
+        "tension_capacity",
+        Rule::Positive,
+        "capacities are positive forces; leave the key out for no limit",
+    );
+    let compression = optional(
+        &e.compression_capacity,
+        "compression_capacity",
+        Rule::Positive,
+        "write the compression capacity as a positive force; leave the key out for no limit",
+    );
+    Section {
+        name: name.clone(),
+        ea: u.force_in(ea),
+        weight: weight.map(|w| u.force_per_length_in(w)),
+        tension_capacity: tension.map(|v| u.force_in(v)),
+        compression_capacity: compression.map(|v| u.force_in(v)),
+        place: t.at(s).place(),
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Nodes
+
+/// A node as read from either source, before checks.
+struct RawNode<'a> {
+    label: &'a str,
+    place: Src,
+    /// `None`: the value was missing or unreadable and is already reported.
+    at: [Option<f64>; 3],
+    at_src: [Src; 3],
+    at_keys: [&'static str; 3],
+    fix: Option<(&'a str, Src)>,
+}
+
+fn toml_node<'a>(t: &Toml, n: &'a Spanned<NodeEntry>) -> RawNode<'a> {
+    let e = n.get_ref();
+    let at_src = t.at(&e.at);
+    let at = e.at.get_ref();
+    RawNode {
+        label: e.id.get_ref(),
+        place: t.at(n),
+        at: [Some(at[0]), Some(at[1]), Some(at[2])],
+        at_src: [at_src; 3],
+        at_keys: ["at", "at", "at"],
+        fix: e.fix.as_ref().map(|f| (f.get_ref().as_str(), t.at(f))),
+    }
+}
+
+fn add_node(cx: &mut Ctx, raw: RawNode, nodes: &mut Vec<Node>) {
+    let item = Item::Named("node", raw.label);
+    if raw.label.is_empty() {
+        cx.error(
+            raw.place,
+            item,
+            "node id is empty",
+            "give the node an id, e.g. id = \"A1\"",
+        );
+    }
+    let mut at = [f64::NAN; 3];
+    for (a, slot) in at.iter_mut().enumerate() {
+        if let Some(v) = raw.at[a]
+            && check_number(cx, v, raw.at_src[a], item, raw.at_keys[a], Rule::Finite, "")
+        {
+            *slot = cx.units.length_in(v);
+        }
+    }
+    let mut fixed = [false; 3];
+    if let Some((s, src)) = raw.fix {
+        match parse_fix(s) {
+            Ok(f) => fixed = f,
+            Err(msg) => cx.error(src, item, msg, FIX_HELP),
+        }
+    }
+    nodes.push(Node {
+        label: raw.label.to_string(),
+        at,
+        fixed,
+        place: raw.place.place(),
+    });
+}
+
+/// Map labels to indices, reporting every repeat at the repeat and naming
+/// where the label was first used.
+fn index_labels<'a>(
+    cx: &mut Ctx,
+    items: impl ExactSizeIterator<Item = (&'a str, Place)>,
+    kind: &'static str,
+) -> LabelMap<'a> {
+    let mut map: LabelMap<'a> = HashMap::with_capacity(items.len());
+    let mut firsts: Vec<Place> = Vec::with_capacity(items.len());
+    for (i, (label, place)) in items.enumerate() {
+        firsts.push(place);
+        match map.entry(label) {
+            std::collections::hash_map::Entry::Vacant(v) => {
+                v.insert(i);
+            }
+            std::collections::hash_map::Entry::Occupied(o) => {
+                let first = firsts[*o.get()];
+                let where_first = describe(cx, first);
+                let key = if kind == "section" { "name" } else { "id" };
+                cx.error(
+                    Src {
+                        file: place.file,
+                        line: place.line,
+                        col: 0,
+                    },
+                    Item::Named(kind, label),
+                    format!("duplicate {kind} {key} {label:?}; the first is at {where_first}"),
+                    format!("give each {kind} its own {key}"),
+                );
+            }
+        }
+    }
+    map
+}
+
+fn describe(cx: &Ctx, p: Place) -> String {
+    let file = cx
+        .files
+        .get(usize::from(p.file))
+        .map(String::as_str)
+        .unwrap_or("?");
+    if p.line > 0 {
+        format!("{file}:{}", p.line)
+    } else {
+        file.to_string()
+    }
+}
+
+/// Bounding-box diagonal of the finite node positions, m.
+fn model_size(nodes: &[Node]) -> f64 {
+    let mut lo = [f64::INFINITY; 3];
+    let mut hi = [f64::NEG_INFINITY; 3];
+    for n in nodes.iter().filter(|n| n.at.iter().all(|v| v.is_finite())) {
+        for a in 0..3 {
+            lo[a] = lo[a].min(n.at[a]);
+            hi[a] = hi[a].max(n.at[a]);
+        }
+    }
+    if lo[0] > hi[0] {
+        return 0.0;
+    }
+    (0..3).map(|a| (hi[a] - lo[a]).powi(2)).sum::<f64>().sqrt()
+}
+
+// ---------------------------------------------------------------------------
+// References between items
+
+struct Refs<'m> {
+    nodes: &'m [Node],
+    node_map: LabelMap<'m>,
+    /// Labels of node entries that could not be read (already reported).
+    lost_nodes: HashSet<&'m str>,
+    sections: &'m [Section],
+    section_map: LabelMap<'m>,
+    lost_sections: HashSet<&'m str>,
+    /// Model size, m, for the zero-length test.
+    size: f64,
+}
+
+impl Refs<'_> {
+    /// Resolve a node label; unknown labels are reported with a suggestion.
+    fn node(&self, cx: &mut Ctx, label: &str, src: Src, item: Item, key: &str) -> Option<usize> {
+        if let Some(&i) = self.node_map.get(label) {
+            return Some(i);
+        }
+        if !self.lost_nodes.contains(label) {
+            let hint = if cx.full() {
+                None
+            } else {
+                suggest::did_you_mean(label, self.nodes.iter().map(|n| n.label.as_str()))
+            };
+            let help = hint
+                .unwrap_or_else(|| "define the node in a [[node]] table or the nodes table".into());
+            cx.error(
+                src,
+                item,
+                format!("unknown node {label:?} in `{key}`"),
+                help,
+            );
+        }
+        None
+    }
+
+    fn section(&self, cx: &mut Ctx, name: &str, src: Src, item: Item, key: &str) -> Option<usize> {
+        if let Some(&i) = self.section_map.get(name) {
+            return Some(i);
+        }
+        if !self.lost_sections.contains(name) {
+            let hint = suggest::did_you_mean(name, self.sections.iter().map(|s| s.name.as_str()));
+            let help = hint.unwrap_or_else(|| {
+                if self.sections.is_empty() {
+                    "define it in a [[section]] table".to_string()
+                } else {
+                    format!(
+                        "defined sections: {}",
+                        suggest::list(self.sections.iter().take(20).map(|s| s.name.as_str()))
+                    )
+                }
+            });
+            cx.error(
+                src,
+                item,
+                format!("unknown section {name:?} in `{key}`"),
+                help,
+            );
+        }
+        None
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Members
+
+/// A member as read from either source, before checks.
+struct RawMember<'a> {
+    label: &'a str,
+    place: Src,
+    kind: (&'a str, Src),
+    ends: [(&'a str, Src); 2],
+    end_keys: [&'static str; 2],
+    section: (&'a str, Src),
+    prestress: Option<(f64, Src)>,
+    rest_length: Option<(f64, Src)>,
+    force_density: Option<(f64, Src)>,
+}
+
+fn toml_member<'a>(t: &Toml, m: &'a Spanned<MemberEntry>) -> RawMember<'a> {
+    let e = m.get_ref();
+    let ends = e.ends.get_ref();
+    let opt = |v: &Option<Spanned<f64>>| v.as_ref().map(|v| (*v.get_ref(), t.at(v)));
+    RawMember {
+        label: e.id.get_ref(),
+        place: t.at(m),
+        kind: (e.kind.get_ref(), t.at(&e.kind)),
+        ends: [
+            (ends[0].get_ref(), t.at(&ends[0])),
+            (ends[1].get_ref(), t.at(&ends[1])),
+        ],
+        end_keys: ["ends", "ends"],
+        section: (e.section.get_ref(), t.at(&e.section)),
+        prestress: opt(&e.prestress),
+        rest_length: opt(&e.rest_length),
+        force_density: opt(&e.force_density),
+    }
+}
+
+fn add_member(
+    cx: &mut Ctx,
+    raw: &RawMember,
+    refs: &Refs,
+    members: &mut Vec<Member>,
+    attached: &mut [bool],
+    section_used: &mut [bool],
+) {
+    let item = Item::Named("member", raw.label);
+    if raw.label.is_empty() {
+        cx.error(
+            raw.place,
+            item,
+            "member id is empty",
+            "give the member an id, e.g. id = \"c1\"",
+        );
+    }
+    let kind = match raw.kind.0 {
+        "bar" => Some(MemberKind::Bar),
+        "cable" => Some(MemberKind::Cable),
+        other => {
+            cx.error(
+                raw.kind.1,
+                item,
+                format!("unknown member kind {other:?}"),
+                suggest::choice_help(other, &["bar", "cable"]),
+            );
+            None
+        }
+    };
+    let ends = [0, 1].map(|k| refs.node(cx, raw.ends[k].0, raw.ends[k].1, item, raw.end_keys[k]));
+    // Mark ends as attached even if the member is broken, so its nodes are
+    // not also reported as free-floating.
+    for &i in ends.iter().flatten() {
+        attached[i] = true;
+    }
+    let geometry_ok = match ends {
+        [Some(i), Some(j)] => check_ends(cx, raw, refs, i, j, item),
+        _ => false,
+    };
+    let section = refs.section(cx, raw.section.0, raw.section.1, item, "section");
+    if let Some(s) = section {
+        section_used[s] = true;
+    }
+    let rest = rest_spec(cx, raw, kind, item);
+    let force_density = raw.force_density.and_then(|(v, src)| {
+        if !check_number(cx, v, src, item, "force_density", Rule::Finite, "") {
+            return None;
+        }
+        if kind == Some(MemberKind::Cable) && v < 0.0 {
+            cx.error(
+                src,
+                item,
+                format!(
+                    "a cable cannot carry compression, but `force_density` is {}",
+                    fmt_num(v)
+                ),
+                "use a positive force density, or make the member a bar",
+            );
+        }
+        Some(cx.units.force_per_length_in(v))
+    });
+    if let (Some(kind), [Some(i), Some(j)], Some(section), true) =
+        (kind, ends, section, geometry_ok)
+    {
+        members.push(Member {
+            label: raw.label.to_string(),
+            kind,
+            ends: [i, j],
+            section,
+            rest,
+            force_density,
+            place: raw.place.place(),
+        });
+    }
+}
+
+/// Two different nodes at different places.
+fn check_ends(cx: &mut Ctx, raw: &RawMember, refs: &Refs, i: usize, j: usize, item: Item) -> bool {
+    let (a, b) = (&refs.nodes[i], &refs.nodes[j]);
+    if i == j {
+        cx.error(
+            raw.ends[1].1,
+            item,
+            format!("both ends are node {:?}", a.label),
+            "a member joins two different nodes",
+        );
+        return false;
+    }
+    let len = (0..3)
+        .map(|k| (b.at[k] - a.at[k]).powi(2))
+        .sum::<f64>()
+        .sqrt();
+    // A non-finite length comes from a coordinate already reported.
+    if len.is_finite() && len <= ZERO_LENGTH * refs.size {
+        cx.error(
+            raw.place,
+            item,
+            format!(
+                "member has zero length: nodes {:?} and {:?} are at the same place",
+                a.label, b.label
+            ),
+            "move one of the nodes, or remove the member",
+        );
+        return false;
+    }
+    true
+}
+
+/// `prestress` / `rest_length` → how the unstressed length is given.
+fn rest_spec(cx: &mut Ctx, raw: &RawMember, kind: Option<MemberKind>, item: Item) -> RestSpec {
+    let u = cx.units;
+    match (raw.prestress, raw.rest_length) {
+        (Some(_), Some((_, src))) => {
+            cx.error(
+                src,
+                item,
+                "both `prestress` and `rest_length` are given",
+                "give one: `prestress` is the force in the drawn geometry, `rest_length` the unstressed length",
+            );
+            RestSpec::Geometry
+        }
+        (Some((p, src)), None) => {
+            if !check_number(cx, p, src, item, "prestress", Rule::Finite, "") {
+                return RestSpec::Geometry;
+            }
+            match kind {
+                Some(MemberKind::Cable) if p < 0.0 => cx.error(
+                    src,
+                    item,
+                    format!(
+                        "a cable cannot carry compression, but `prestress` is {}",
+                        fmt_num(p)
+                    ),
+                    "use a positive prestress, or make the member a bar",
+                ),
+                Some(MemberKind::Bar) if p != 0.0 => cx.warn(
+                    src,
+                    item,
+                    format!(
+                        "bar has a prestress of {} {}: it starts loaded in the drawn geometry",
+                        fmt_num(p),
+                        u.force.name()
+                    ),
+                    "remove `prestress` if the bar should start unstressed",
+                ),
+                _ => {}
+            }
+            RestSpec::Prestress(u.force_in(p))
+        }
+        (None, Some((l, src))) => {
+            if check_number(
+                cx,
+                l,
+                src,
+                item,
+                "rest_length",
+                Rule::Positive,
+                "the unstressed length of a member is a positive length",
+            ) {
+                RestSpec::Length(u.length_in(l))
+            } else {
+                RestSpec::Geometry
+            }
+        }
+        (None, None) => RestSpec::Geometry,
+    }
+}
+
+fn unused_sections(cx: &mut Ctx, sections: &[Section], used: &[bool]) {
+    for (s, _) in sections.iter().zip(used).filter(|(_, u)| !**u) {
+        cx.warn(
+            Src {
+                file: s.place.file,
+                line: s.place.line,
+                col: 0,
+            },
+            Item::Named("section", &s.name),
+            "section is not used by any member",
+            "remove it, or check the `section` of your members for a typo",
+        );
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Springs, loads, analysis and form settings
+
+fn springs(
+    cx: &mut Ctx,
+    t: &Toml,
+    file: &ModelFile,
+    refs: &Refs,
+    attached: &mut [bool],
+) -> Vec<Spring> {
+    let mut out = Vec::with_capacity(file.spring.len());
+    for (n, s) in file.spring.iter().enumerate() {
+        let e = s.get_ref();
+        let item = Item::Numbered("spring", n + 1);
+        let node = refs.node(cx, e.node.get_ref(), t.at(&e.node), item, "node");
+        let axis = parse_dir(e.dir.get_ref());
+        if axis.is_none() {
+            cx.error(
+                t.at(&e.dir),
+                item,
+                format!("invalid `dir` {:?}", e.dir.get_ref()),
+                DIR_HELP,
+            );
+        }
+        let k = *e.k.get_ref();
+        let k_ok = check_number(
+            cx,
+            k,
+            t.at(&e.k),
+            item,
+            "k",
+            Rule::Positive,
+            "a spring stiffness is a positive force per length",
+        );
+        if let Some(i) = node {
+            attached[i] = true;
+        }
+        let (Some(node), Some(axis)) = (node, axis) else {
+            continue;
+        };
+        if refs.nodes[node].fixed[axis.index()] {
+            cx.warn(
+                t.at(s),
+                item,
+                format!(
+                    "spring acts on node {:?} in {axis}, which is supported: it has no effect",
+                    refs.nodes[node].label
+                ),
+                "remove the spring or the support",
+            );
+        }
+        if k_ok {
+            out.push(Spring {
+                node,
+                axis,
+                k: cx.units.force_per_length_in(k),
+                place: t.at(s).place(),
+            });
+        }
+    }
+    check_size(cx, out.len(), "springs");
+    out
+}
+
+fn loads(cx: &mut Ctx, t: &Toml, file: &ModelFile, refs: &Refs) -> Vec<NodalLoad> {
+    let mut out = Vec::with_capacity(file.load.len());
+    for (n, l) in file.load.iter().enumerate() {
+        let e = l.get_ref();
+        let item = Item::Numbered("load", n + 1);
+        let node = refs.node(cx, e.node.get_ref(), t.at(&e.node), item, "node");
+        let src = t.at(&e.force);
+        let f = *e.force.get_ref();
+        let finite = f
+            .iter()
+            .all(|&v| check_number(cx, v, src, item, "force", Rule::Finite, ""));
+        let Some(node) = node else { continue };
+        let target = &refs.nodes[node];
+        for a in Axis::ALL {
+            if f[a.index()] != 0.0 && target.fixed[a.index()] {
+                cx.error(
+                    src,
+                    item,
+                    format!(
+                        "load has a {a} component of {} on node {:?}, whose {a} direction is supported",
+                        fmt_num(f[a.index()]),
+                        target.label
+                    ),
+                    "remove the load or the support; a load on a support goes straight into the ground",
+                );
+            }
+        }
+        if finite {
+            let u = cx.units;
+            out.push(NodalLoad {
+                node,
+                force: f.map(|v| u.force_in(v)),
+                place: t.at(l).place(),
+            });
+        }
+    }
+    check_size(cx, out.len(), "loads");
+    out
+}
+
+fn choice<T>(
+    cx: &mut Ctx,
+    t: &Toml,
+    v: &Option<Spanned<String>>,
+    key: &str,
+    names: &[&str],
+    parse: impl Fn(&str) -> Option<T>,
+) -> Option<T> {
+    let v = v.as_ref()?;
+    let parsed = parse(v.get_ref());
+    if parsed.is_none() {
+        cx.error(
+            t.at(v),
+            Item::Plain("[analysis]"),
+            format!("unknown {key} {:?}", v.get_ref()),
+            suggest::choice_help(v.get_ref(), names),
+        );
+    }
+    parsed
+}
+
+fn analysis(
+    cx: &mut Ctx,
+    t: &Toml,
+    entry: Option<&Spanned<AnalysisEntry>>,
+    refs: &Refs,
+    loads: &[NodalLoad],
+) -> Analysis {
+    let mut a = Analysis::default();
+    let empty = AnalysisEntry::default();
+    let (e, header) = match entry {
+        Some(s) => (s.get_ref(), t.at(s)),
+        None => (&empty, Src::default()),
+    };
+    let item = Item::Plain("[analysis]");
+    let u = cx.units;
+    let strain_names = ["green", "engineering"];
+    let strain = choice(
+        cx,
+        t,
+        &e.strain,
+        "strain measure",
+        &strain_names,
+        |s| match s {
+            "green" => Some(StrainMeasure::Green),
+            "engineering" => Some(StrainMeasure::Engineering),
+            _ => None,
+        },
+    );
+    a.strain = strain.unwrap_or(a.strain);
+    a.method =
+        choice(cx, t, &e.method, "method", &Method::NAMES, Method::parse).unwrap_or(a.method);
+    a.control = choice(
+        cx,
+        t,
+        &e.control,
+        "control",
+        &Control::NAMES,
+        Control::parse,
+    )
+    .unwrap_or(a.control);
+
+    let count_help = "write a whole number of at least 1";
+    if let Some(v) = &e.steps {
+        a.steps = check_count(cx, t, v, "steps", 1, count_help).unwrap_or(a.steps);
+    }
+    if let Some(v) = &e.max_steps {
+        a.max_steps = check_count(cx, t, v, "max_steps", 1, count_help).unwrap_or(a.max_steps);
+    }
+    if let Some(v) = &e.max_iterations {
+        a.max_iterations =
+            check_count(cx, t, v, "max_iterations", 1, count_help).unwrap_or(a.max_iterations);
+    }
+    if let Some(v) = &e.max_cutbacks {
+        a.max_cutbacks = check_count(
+            cx,
+            t,
+            v,
+            "max_cutbacks",
+            0,
+            "write a whole number, 0 for no step halving",
+        )
+        .unwrap_or(a.max_cutbacks);
+    }
+    if let Some(v) = &e.target {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "target", Rule::Finite, "") {
+            a.target = if a.control == Control::Displacement {
+                u.length_in(x)
+            } else {
+                x
+            };
+            if x == 0.0 {
+                cx.warn(
+                    t.at(v),
+                    item,
+                    "`target` is 0: the analysis will not move",
+                    "set the load factor or displacement to reach",
+                );
+            }
+        }
+    }
+    if let Some(v) = &e.max_displacement {
+        let x = *v.get_ref();
+        if check_number(
+            cx,
+            x,
+            t.at(v),
+            item,
+            "max_displacement",
+            Rule::Positive,
+            "the displacement limit is a positive length",
+        ) {
+            a.max_displacement = Some(u.length_in(x));
+        }
+    }
+    if let Some(v) = &e.arc {
+        let x = *v.get_ref();
+        if check_number(
+            cx,
+            x,
+            t.at(v),
+            item,
+            "arc",
+            Rule::Positive,
+            "the first arc length is a positive length",
+        ) {
+            a.arc = Some(u.length_in(x));
+        }
+        if a.control != Control::ArcLength {
+            cx.warn(
+                t.at(v),
+                item,
+                "`arc` is only used by arc-length control",
+                "remove it, or set control = \"arc-length\"",
+            );
+        }
+    }
+    if let Some(v) = &e.tolerance {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "tolerance", Rule::Finite, "") {
+            if x > 0.0 && x <= 0.1 {
+                a.tolerance = x;
+            } else {
+                cx.error(
+                    t.at(v),
+                    item,
+                    format!(
+                        "`tolerance` must be above 0 and at most 0.1, found {}",
+                        fmt_num(x)
+                    ),
+                    "it is a relative residual; 1e-9 is a common choice",
+                );
+            }
+        }
+    }
+    let point = control_point(cx, t, e, refs);
+    a.watch = watch_list(cx, t, e, refs);
+    if let (Control::Displacement, None) = (a.control, point) {
+        // Only complain if node/dir were not simply misspelt (already reported).
+        if e.node.is_none() && e.dir.is_none() {
+            let src = e.control.as_ref().map(|c| t.at(c)).unwrap_or(header);
+            cx.error(
+                src,
+                item,
+                "displacement control needs `node` and `dir`",
+                "name the displacement to control, e.g. node = \"A2\" and dir = \"z\"",
+            );
+        }
+    }
+    if let (Control::Displacement, Some(p)) = (a.control, point)
+        && refs.nodes[p.node].fixed[p.axis.index()]
+    {
+        cx.error(
+            e.node.as_ref().map(|n| t.at(n)).unwrap_or(header),
+            item,
+            format!(
+                "cannot control node {:?} in {}: that direction is supported",
+                refs.nodes[p.node].label, p.axis
+            ),
+            "control a free direction, or remove the support",
+        );
+    }
+    if a.watch.is_empty() {
+        a.watch = match point {
+            Some(p) => vec![p],
+            None => largest_load(refs.nodes, loads).into_iter().collect(),
+        };
+    }
+    a.point = point.or_else(|| a.watch.first().copied());
+    a
+}
+
+/// `node` and `dir` of `[analysis]`: both or neither.
+fn control_point(cx: &mut Ctx, t: &Toml, e: &AnalysisEntry, refs: &Refs) -> Option<NodeDir> {
+    let item = Item::Plain("[analysis]");
+    let node = e
+        .node
+        .as_ref()
+        .and_then(|n| refs.node(cx, n.get_ref(), t.at(n), item, "node"));
+    let axis = e.dir.as_ref().and_then(|d| {
+        let axis = parse_dir(d.get_ref());
+        if axis.is_none() {
+            cx.error(
+                t.at(d),
+                item,
+                format!("invalid `dir` {:?}", d.get_ref()),
+                DIR_HELP,
+            );
+        }
+        axis
+    });
+    match (&e.node, &e.dir) {
+        (Some(n), None) => cx.error(
+            t.at(n),
+            item,
+            "`node` is given without `dir`",
+            "add e.g. dir = \"z\", or remove `node`",
+        ),
+        (None, Some(d)) => cx.error(
+            t.at(d),
+            item,
+            "`dir` is given without `node`",
+            "add e.g. node = \"A2\", or remove `dir`",
+        ),
+        _ => {}
+    }
+    Some(NodeDir {
+        node: node?,
+        axis: axis?,
+    })
+}
+
+/// `watch = ["A2.z", …]`.
+fn watch_list(cx: &mut Ctx, t: &Toml, e: &AnalysisEntry, refs: &Refs) -> Vec<NodeDir> {
+    let item = Item::Plain("[analysis]");
+    let Some(list) = &e.watch else {
+        return Vec::new();
+    };
+    let mut out = Vec::with_capacity(list.get_ref().len());
+    for w in list.get_ref() {
+        let text = w.get_ref();
+        let parts = text
+            .rsplit_once('.')
+            .and_then(|(n, d)| Some((n, parse_dir(d)?)));
+        let Some((label, axis)) = parts.filter(|(n, _)| !n.is_empty()) else {
+            cx.error(
+                t.at(w),
+                item,
+                format!("watch entry {text:?} is not of the form NODE.DIR"),
+                "write entries like \"A2.z\": a node id, a dot and one of x, y, z",
+            );
+            continue;
+        };
+        if let Some(node) = refs.node(cx, label, t.at(w), item, "watch") {
+            out.push(NodeDir { node, axis });
+        }
+    }
+    out
+}
+
+/// The free direction with the largest reference load component; the first
+/// in file order wins ties.
+fn largest_load(nodes: &[Node], loads: &[NodalLoad]) -> Option<NodeDir> {
+    let mut best: Option<(f64, NodeDir)> = None;
+    for l in loads {
+        for axis in Axis::ALL {
+            let v = l.force[axis.index()].abs();
+            if v > 0.0 && !nodes[l.node].fixed[axis.index()] && best.is_none_or(|(b, _)| v > b) {
+                best = Some((v, NodeDir { node: l.node, axis }));
+            }
+        }
+    }
+    best.map(|(_, p)| p)
+}
+
+fn form(cx: &mut Ctx, t: &Toml, entry: Option<&Spanned<FormEntry>>) -> FormSettings {
+    let mut f = FormSettings::default();
+    let Some(v) = entry.and_then(|e| e.get_ref().force_density.as_ref()) else {
+        return f;
+    };
+    let x = *v.get_ref();
+    let help = "the default force density is a positive force per length; give compressed members their own";
+    if check_number(
+        cx,
+        x,
+        t.at(v),
+        Item::Plain("[form]"),
+        "force_density",
+        Rule::Positive,
+        help,
+    ) {
+        f.force_density = Some(cx.units.force_per_length_in(x));
+    }
+    f
+}
+
+/// Checks of the model as a whole.
+fn model_checks(cx: &mut Ctx, refs: &Refs, member_entries: usize, attached: &[bool]) {
+    let nodes = refs.nodes;
+    if nodes.is_empty() {
+        cx.error(
+            Src::default(),
+            Item::Model,
+            "the model has no nodes",
+            "add [[node]] tables or a nodes_csv table",
+        );
+    }
+    if member_entries == 0 {
+        cx.error(
+            Src::default(),
+            Item::Model,
+            "the model has no members",
+            "add [[member]] tables or a members_csv table",
+        );
+    }
+    if !nodes.is_empty() && nodes.iter().all(|n| n.fixed == [true; 3]) {
+        cx.error(
+            Src::default(),
+            Item::Model,
+            "every node is supported in x, y and z: nothing can move",
+            "free some directions with `fix`, e.g. fix = \"z\" or fix = \"\"",
+        );
+    }
+    for (n, _) in nodes.iter().zip(attached).filter(|(_, a)| !**a) {
+        let src = Src {
+            file: n.place.file,
+            line: n.place.line,
+            col: 0,
+        };
+        let item = Item::Named("node", &n.label);
+        if n.fixed == [true; 3] {
+            cx.warn(
+                src,
+                item,
+                "node is attached to nothing",
+                "remove it if it is not needed",
+            );
+        } else {
+            cx.error(
+                src,
+                item,
+                "free node has no member or spring attached, so nothing holds it",
+                "connect it with a member or spring, support it with fix = \"xyz\", or remove it",
+            );
+        }
+    }
+}
+
+// ---------------------------------------------------------------------------
+// CSV tables
+
+/// Read the CSV file named by `key`; returns its index in `files` and text.
+fn read_csv(
+    cx: &mut Ctx,
+    t: &Toml,
+    name: &Spanned<String>,
+    key: &'static str,
+    base_dir: Option<&Path>,
+) -> Option<(u16, String)> {
+    let src = t.at(name);
+    let item = Item::Plain(key);
+    let Some(base) = base_dir else {
+        cx.error(
+            src,
+            item,
+            format!("cannot read {:?}: the model was not read from a file, so there is no folder to look in", name.get_ref()),
+            "load the model from a file, or list the items in the toml file itself",
+        );
+        return None;
+    };
+    let path = base.join(name.get_ref());
+    let shown = path.display().to_string();
+    let too_big = std::fs::metadata(&path)
+        .map(|m| m.len() > MAX_CSV_BYTES)
+        .unwrap_or(false);
+    if too_big {
+        cx.error(
+            src,
+            item,
+            format!("{shown:?} is larger than {} GiB", MAX_CSV_BYTES >> 30),
+            "split the model; larger tables are not supported",
+        );
+        return None;
+    }
+    match std::fs::read_to_string(&path) {
+        Ok(text) => {
+            let idx = u16::try_from(cx.files.len()).ok()?;
+            cx.files.push(shown);
+            Some((idx, text))
+        }
+        Err(e) => {
+            cx.error(
+                src,
+                item,
+                format!("cannot read {shown:?}: {}", lower_first(&e.to_string())),
+                "check the name; it is relative to the folder of the model file",
+            );
+            None
+        }
+    }
+}
+
+/// Column names of a CSV table; the first `required` must be present.
+struct Columns {
+    names: &'static [&'static str],
+    required: usize,
+}
+
+const NODE_COLUMNS: Columns = Columns {
+    names: &["id", "x", "y", "z", "fix"],
+    required: 4,
+};
+const MEMBER_COLUMNS: Columns = Columns {
+    names: &[
+        "id",
+        "kind",
+        "end1",
+        "end2",
+        "section",
+        "prestress",
+        "rest_length",
+        "force_density",
+    ],
+    required: 5,
+};
+
+/// Where each named column is in a row, by the header. `None` if the header
+/// is wrong (reported).
+fn read_header(
+    cx: &mut Ctx,
+    file: u16,
+    line: u32,
+    cells: &[Cell],
+    cols: &Columns,
+) -> Option<Vec<Option<usize>>> {
+    let item = Item::Plain("header");
+    let mut at: Vec<Option<usize>> = vec![None; cols.names.len()];
+    let mut ok = true;
+    for (i, cell) in cells.iter().enumerate() {
+        let src = Src {
+            file,
+            line,
+            col: cell.col,
+        };
+        match cols.names.iter().position(|n| *n == cell.text) {
+            Some(k) if at[k].is_some() => {
+                cx.error(
+                    src,
+                    item,
+                    format!("column `{}` appears twice", cell.text),
+                    "keep one of them",
+                );
+                ok = false;
+            }
+            Some(k) => at[k] = Some(i),
+            None => {
+                let help = suggest::did_you_mean(&cell.text, cols.names.iter().copied())
+                    .unwrap_or_else(|| {
+                        format!(
+                            "valid columns: {}",
+                            suggest::list(cols.names.iter().copied())
+                        )
+                    });
+                cx.error(src, item, format!("unknown column `{}`", cell.text), help);
+                ok = false;
+            }
+        }
+    }
+    for (k, name) in cols.names.iter().enumerate().take(cols.required) {
+        if at[k].is_none() {
+            let help = format!(
+                "the header needs the columns {}",
+                suggest::list(cols.names[..cols.required].iter().copied())
+            );
+            cx.error(
+                Src { file, line, col: 0 },
+                item,
+                format!("missing column `{name}`"),
+                help,
+            );
+            ok = false;
+        }
+    }
+    ok.then_some(at)
+}
+
+/// Rows of one CSV table: reads the header, then hands each well-formed
+/// row (right number of cells) to `row`.
+fn each_row<'a>(
+    cx: &mut Ctx,
+    file: u16,
+    text: &'a str,
+    cols: &Columns,
+    mut row: impl FnMut(&mut Ctx, Row<'_, 'a>) -> bool,
+) {
+    let mut reader = CsvReader::new(text);
+    let mut cells: Vec<Cell<'a>> = Vec::with_capacity(cols.names.len());
+    let header = match reader.next_row(&mut cells) {
+        None => {
+            cx.error(
+                Src {
+                    file,
+                    line: 1,
+                    col: 0,
+                },
+                Item::Plain("header"),
+                "the table is empty",
+                format!(
+                    "start it with the header row {}",
+                    cols.names[..cols.required].join(",")
+                ),
+            );
+            return;
+        }
+        Some(Err(e)) => {
+            cx.error(
+                Src {
+                    file,
+                    line: e.line,
+                    col: e.col,
+                },
+                Item::Plain("header"),
+                e.message,
+                "close the quote",
+            );
+            return;
+        }
+        Some(Ok(line)) => read_header(cx, file, line, &cells, cols),
+    };
+    let Some(columns) = header else { return };
+    let width = cells.len();
+    while let Some(next) = reader.next_row(&mut cells) {
+        let line = match next {
+            Ok(line) => line,
+            Err(e) => {
+                cx.error(
+                    Src {
+                        file,
+                        line: e.line,
+                        col: e.col,
+                    },
+                    Item::Plain("row"),
+                    e.message,
+                    "close the quote; a quote inside a quoted cell is written \"\"",
+                );
+                continue;
+            }
+        };
+        if cells.len() != width {
+            cx.error(
+                Src { file, line, col: 0 },
+                Item::Plain("row"),
+                format!("row has {} cells but the header has {width}", cells.len()),
+                "give every row one cell per column; quote cells that contain commas",
+            );
+            continue;
+        }
+        if !row(
+            cx,
+            Row {
+                file,
+                line,
+                cells: &cells,
+                columns: &columns,
+            },
+        ) {
+            return;
+        }
+    }
+}
+
+/// One row with its header mapping.
+struct Row<'r, 'a> {
+    file: u16,
+    line: u32,
+    cells: &'r [Cell<'a>],
+    columns: &'r [Option<usize>],
+}
+
+impl Row<'_, '_> {
+    fn cell(&self, k: usize) -> Option<&Cell<'_>> {
+        self.columns[k]
+            .map(|i| &self.cells[i])
+            .filter(|c| !c.text.is_empty())
+    }
+
+    fn src(&self, k: usize) -> Src {
+        let col = self.columns[k].map_or(0, |i| self.cells[i].col);
+        Src {
+            file: self.file,
+            line: self.line,
+            col,
+        }
+    }
+
+    fn whole(&self) -> Src {
+        Src {
+            file: self.file,
+            line: self.line,
+            col: 0,
+        }
+    }
+
+    fn text(&self, k: usize) -> &str {
+        self.cell(k).map_or("", |c| &c.text)
+    }
+
+    /// A number cell: `None` if empty or not a number (the latter reported).
+    fn number(&self, cx: &mut Ctx, k: usize, name: &str, item: Item) -> Option<f64> {
+        let cell = self.cell(k)?;
+        match cell.text.parse::<f64>() {
+            Ok(v) => Some(v),
+            Err(_) => {
+                cx.error(
+                    self.src(k),
+                    item,
+                    format!("`{name}` is not a number: {:?}", cell.text),
+                    "write a decimal number such as 2.5 or -1e-3",
+                );
+                None
+            }
+        }
+    }
+}
+
+fn csv_nodes(cx: &mut Ctx, file: u16, text: &str, nodes: &mut Vec<Node>) {
+    each_row(cx, file, text, &NODE_COLUMNS, |cx, row| {
+        if nodes.len() >= MAX_ITEMS {
+            cx.error(
+                row.whole(),
+                Item::Plain("row"),
+                format!("the model has more than {MAX_ITEMS} nodes"),
+                "split the model; larger models are not supported",
+            );
+            return false;
+        }
+        let label = row.text(0);
+        if label.is_empty() {
+            cx.error(
+                row.src(0),
+                Item::Plain("node"),
+                "node id is empty",
+                "give every node an id in the `id` column",
+            );
+            return true;
+        }
+        let item = Item::Named("node", label);
+        let mut at = [None; 3];
+        for (a, name) in ["x", "y", "z"].into_iter().enumerate() {
+            at[a] = row.number(cx, a + 1, name, item);
+            if row.cell(a + 1).is_none() {
+                cx.error(
+                    row.src(a + 1),
+                    item,
+                    format!("missing `{name}` coordinate"),
+                    "every node needs x, y and z",
+                );
+            }
+        }
+        let raw = RawNode {
+            label,
+            place: row.whole(),
+            at,
+            at_src: [row.src(1), row.src(2), row.src(3)],
+            at_keys: ["x", "y", "z"],
+            fix: row.cell(4).map(|c| (&*c.text, row.src(4))),
+        };
+        add_node(cx, raw, nodes);
+        true
+    });
+}
+
+fn csv_members(
+    cx: &mut Ctx,
+    file: u16,
+    text: &str,
+    refs: &Refs,
+    members: &mut Vec<Member>,
+    attached: &mut [bool],
+    section_used: &mut [bool],
+) -> usize {
+    let mut rows = 0;
+    each_row(cx, file, text, &MEMBER_COLUMNS, |cx, row| {
+        rows += 1;
+        if members.len() >= MAX_ITEMS {
+            cx.error(
+                row.whole(),
+                Item::Plain("row"),
+                format!("the model has more than {MAX_ITEMS} members"),
+                "split the model; larger models are not supported",
+            );
+            return false;
+        }
+        let label = row.text(0);
+        if label.is_empty() {
+            cx.error(
+                row.src(0),
+                Item::Plain("member"),
+                "member id is empty",
+                "give every member an id in the `id` column",
+            );
+            return true;
+        }
+        let item = Item::Named("member", label);
+        let mut complete = true;
+        for (k, name) in MEMBER_COLUMNS
+            .names
+            .iter()
+            .enumerate()
+            .take(MEMBER_COLUMNS.required)
+            .skip(1)
+        {
+            if row.cell(k).is_none() {
+                cx.error(
+                    row.src(k),
+                    item,
+                    format!("missing `{name}`"),
+                    format!("fill in the `{name}` column"),
+                );
+                complete = false;
+            }
+        }
+        if !complete {
+            return true;
+        }
+        let opt = |cx: &mut Ctx, k: usize| {
+            row.number(cx, k, MEMBER_COLUMNS.names[k], item)
+                .map(|v| (v, row.src(k)))
+        };
+        let raw = RawMember {
+            label,
+            place: row.whole(),
+            kind: (row.text(1), row.src(1)),
+            ends: [(row.text(2), row.src(2)), (row.text(3), row.src(3))],
+            end_keys: ["end1", "end2"],
+            section: (row.text(4), row.src(4)),
+            prestress: opt(cx, 5),
+            rest_length: opt(cx, 6),
+            force_density: opt(cx, 7),
+        };
+        add_member(cx, &raw, refs, members, attached, section_used);
+        true
+    });
+    rows
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::path::PathBuf;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+
+    /// A small valid model the error tests add to.
+    const BASE: &str = r#"title = "base"
+[[section]]
+name = "strand"
+EA = 1000.0
+[[node]]
+id = "A"
+at = [0, 0, 0]
+fix = "xyz"
+[[node]]
+id = "B"
+at = [1, 0, 0]
+fix = "yz"
+[[member]]
+id = "m1"
+kind = "bar"
+ends = ["A", "B"]
+section = "strand"
+[[load]]
+node = "B"
+force = [1, 0, 0]
+"#;
+
+    fn errors(text: &str) -> Vec<Diagnostic> {
+        match load_str(text, "m.toml", None) {
+            Ok(_) => panic!("model should be rejected:\n{text}"),
+            Err(e) => e.diagnostics,
+        }
+    }
+
+    fn ok(text: &str) -> Model {
+        match load_str(text, "m.toml", None) {
+            Ok(m) => m,
+            Err(e) => panic!("model should load:\n{e}"),
+        }
+    }
+
+    /// 1-based line of the first occurrence of `needle`.
+    fn line_of(text: &str, needle: &str) -> usize {
+        let at = text
+            .find(needle)
+            .unwrap_or_else(|| panic!("{needle:?} not in text"));
+        text[..at].matches('\n').count() + 1
+    }
+
+    /// Find the diagnostic at `file:line` whose text mentions `item` and
+    /// `words`; fail with every diagnostic shown.
+    fn expect(ds: &[Diagnostic], file: &str, line: usize, item: &str, words: &str) -> Diagnostic {
+        let place = format!("{file}:{line}");
+        let found = ds.iter().find(|d| {
+            let s = d.to_string();
+            (s.starts_with(&format!("{place}:")) || s.starts_with(&format!("{place}: ")))
+                && s.contains(item)
+                && s.contains(words)
+        });
+        match found {
+            Some(d) => d.clone(),
+            None => panic!(
+                "no diagnostic at {place} with {item:?} and {words:?}; got:\n{}",
+                ds.iter()
+                    .map(|d| d.to_string())
+                    .collect::<Vec<_>>()
+                    .join("\n")
+            ),
+        }
+    }
+
+    fn with(extra: &str) -> String {
+        format!("{BASE}{extra}")
+    }
+
+    fn temp_dir() -> PathBuf {
+        static N: AtomicUsize = AtomicUsize::new(0);
+        let dir = std::env::temp_dir().join(format!(
+            "tautline-model-{}-{}",
+            std::process::id(),
+            N.fetch_add(1, Ordering::Relaxed)
+        ));
+        std::fs::create_dir_all(&dir).unwrap();
+        dir
+    }
+
+    // -- good models ------------------------------------------------------
+
+    #[test]
+    fn base_model_loads_with_defaults() {
+        let m = ok(BASE);
+        assert_eq!(m.title, "base");
+        assert_eq!(m.files, vec!["m.toml".to_string()]);
+        assert_eq!(m.n_nodes(), 2);
+        assert_eq!(m.members[0].ends, [0, 1]);
+        assert_eq!(m.members[0].rest, RestSpec::Geometry);
+        assert_eq!(m.nodes[1].fixed, [false, true, true]);
+        assert_eq!(
+            m.nodes[1].place,
+            Place {
+                file: 0,
+                line: line_of(BASE, "id = \"B\"") as u32 - 1
+            }
+        );
+        let a = &m.analysis;
+        let d = Analysis::default();
+        assert_eq!(
+            (a.steps, a.max_steps, a.max_iterations, a.max_cutbacks),
+            (d.steps, d.max_steps, d.max_iterations, d.max_cutbacks)
+        );
+        assert_eq!(a.method, Method::Newton);
+        // No watch given: the largest free load component is watched.
+        assert_eq!(
+            a.watch,
+            vec![NodeDir {
+                node: 1,
+                axis: Axis::X
+            }]
+        );
+        assert_eq!(
+            a.point,
+            Some(NodeDir {
+                node: 1,
+                axis: Axis::X
+            })
+        );
+        assert!(m.warnings.is_empty(), "{:?}", m.warnings);
+    }
+
+    #[test]
+    fn units_are_converted_to_si() {
+        let text = r#"
+[units]
+force = "kN"
+length = "cm"
+[[section]]
+name = "s"
+EA = 2.0
+weight = 0.5
+tension_capacity = 3.0
+compression_capacity = 4.0
+[[node]]
+id = "A"
+at = [0, 0, 0]
+fix = "xyz"
+[[node]]
+id = "B"
+at = [100, 0, 50]
+[[member]]
+id = "c"
+kind = "cable"
+ends = ["A", "B"]
+section = "s"
+rest_length = 110.0
+force_density = 2.0
+[[member]]
+id = "d"
+kind = "cable"
+ends = ["B", "A"]
+section = "s"
+prestress = 1.5
+[[spring]]
+node = "B"
+dir = "y"
+k = 3.0
+[[load]]
+node = "B"
+force = [0, 0, -2]
+[analysis]
+control = "displacement"
+node = "B"
+dir = "z"
+target = -20.0
+max_displacement = 30.0
+[form]
+force_density = 4.0
+"#;
+        let m = ok(text);
+        let close = |a: f64, b: f64| approx::assert_relative_eq!(a, b, max_relative = 1e-12);
+        close(m.nodes[1].at[0], 1.0);
+        close(m.nodes[1].at[2], 0.5);
+        let s = &m.sections[0];
+        close(s.ea, 2000.0);
+        close(s.weight.unwrap(), 0.5e3 / 0.01);
+        close(s.tension_capacity.unwrap(), 3000.0);
+        close(s.compression_capacity.unwrap(), 4000.0);
+        match m.members[0].rest {
+            RestSpec::Length(l) => close(l, 1.1),
+            other => panic!("{other:?}"),
+        }
+        close(m.members[0].force_density.unwrap(), 2.0e3 / 0.01);
+        match m.members[1].rest {
+            RestSpec::Prestress(p) => close(p, 1500.0),
+            other => panic!("{other:?}"),
+        }
+        close(m.springs[0].k, 3.0e3 / 0.01);
+        close(m.loads[0].force[2], -2000.0);
+        close(m.analysis.target, -0.2);
+        close(m.analysis.max_displacement.unwrap(), 0.3);
+        close(m.form.force_density.unwrap(), 4.0e3 / 0.01);
+        let p = NodeDir {
+            node: 1,
+            axis: Axis::Z,
+        };
+        assert_eq!(m.analysis.point, Some(p));
+        assert_eq!(m.analysis.watch, vec![p]);
+        assert_eq!(
+            m.units,
+            Units {
+                force: ForceUnit::KN,
+                length: LengthUnit::Cm
+            }
+        );
+    }
+
+    #[test]
+    fn analysis_settings_are_read() {
+        let m = ok(&with(
+            r#"[analysis]
+strain = "engineering"
+method = "bfgs"
+control = "arc-length"
+steps = 5
+target = 2.5
+arc = 0.2
+max_steps = 90
+tolerance = 1e-6
+max_iterations = 12
+max_cutbacks = 0
+watch = ["B.x", "A.z"]
+"#,
+        ));
+        let a = &m.analysis;
+        assert_eq!(a.strain, StrainMeasure::Engineering);
+        assert_eq!(a.method, Method::Bfgs);
+        assert_eq!(a.control, Control::ArcLength);
+        assert_eq!(
+            (a.steps, a.max_steps, a.max_iterations, a.max_cutbacks),
+            (5, 90, 12, 0)
+        );
+        assert_eq!((a.target, a.arc, a.tolerance), (2.5, Some(0.2), 1e-6));
+        assert_eq!(a.watch.len(), 2);
+        assert_eq!(
+            a.point,
+            Some(NodeDir {
+                node: 1,
+                axis: Axis::X
+            })
+        );
+    }
+
+    #[test]
+    fn csv_tables_are_appended_and_checked_like_toml() {
+        let dir = temp_dir();
+        std::fs::write(
+            dir.join("nodes.csv"),
+            "# generated\nz, id ,x,y,fix\n\n0,\"C\",2,0,yz\n0, D ,3,0,\n",
+        )
+        .unwrap();
+        std::fs::write(
+            dir.join("members.csv"),
+            "id,end1,end2,kind,section,prestress,rest_length,force_density\n\
+             m2,B,C,cable,strand,5,,\n\"m,3\",C,D,bar,strand,,2.5,\n",
+        )
+        .unwrap();
+        let text = format!("nodes_csv = \"nodes.csv\"\nmembers_csv = \"members.csv\"\n{BASE}");
+        let m = load_str(&text, "m.toml", Some(&dir)).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(m.files.len(), 3);
+        assert!(m.files[1].ends_with("nodes.csv"));
+        let labels: Vec<&str> = m.nodes.iter().map(|n| n.label.as_str()).collect();
+        assert_eq!(labels, ["A", "B", "C", "D"]);
+        assert_eq!(m.nodes[2].place, Place { file: 1, line: 4 });
+        assert_eq!(m.nodes[3].fixed, [false; 3]);
+        assert_eq!(m.members.len(), 3);
+        assert_eq!(m.members[1].rest, RestSpec::Prestress(5.0));
+        assert_eq!(m.members[2].label, "m,3");
+        assert_eq!(m.members[2].ends, [2, 3]);
+        assert_eq!(m.members[2].rest, RestSpec::Length(2.5));
+        assert_eq!(m.members[2].place, Place { file: 2, line: 3 });
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn load_reads_a_file_and_its_tables() {
+        let dir = temp_dir();
+        std::fs::write(dir.join("n.csv"), "id,x,y,z\nC,2,0,0\n").unwrap();
+        let text = BASE.replace(
+            "[[node]]\nid = \"A\"",
+            "nodes_csv = \"n.csv\"\n[[node]]\nid = \"A\"",
+        );
+        // nodes_csv must come before the first table.
+        let text = format!(
+            "nodes_csv = \"n.csv\"\n{}",
+            text.replace("nodes_csv = \"n.csv\"\n[[node]]", "[[node]]")
+        );
+        let text = text.replace("[[load]]", "[[member]]\nid = \"m2\"\nkind = \"bar\"\nends = [\"B\", \"C\"]\nsection = \"strand\"\n[[load]]");
+        let path = dir.join("model.toml");
+        std::fs::write(&path, &text).unwrap();
+        let m = load(&path).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(m.files[0], path.display().to_string());
+        assert_eq!(m.n_nodes(), 3);
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn unreadable_file_is_named() {
+        let e = load(Path::new("/no/such/dir/model.toml")).unwrap_err();
+        assert_eq!(e.diagnostics.len(), 1);
+        assert!(e.to_string().contains("/no/such/dir/model.toml"), "{e}");
+        assert!(e.to_string().contains("cannot read"), "{e}");
+    }
+
+    #[test]
+    fn warnings_for_unloaded_model_and_prestressed_bar() {
+        let text = BASE.replace("[[load]]\nnode = \"B\"\nforce = [1, 0, 0]\n", "");
+        let text = text.replace(
+            "section = \"strand\"\n",
+            "section = \"strand\"\nprestress = 2.0\n",
+        );
+        let m = ok(&text);
+        let all = m
+            .warnings
+            .iter()
+            .map(|w| w.to_string())
+            .collect::<Vec<_>>()
+            .join("\n");
+        assert!(all.contains("no loads"), "{all}");
+        let line = line_of(&text, "prestress = 2.0");
+        assert!(
+            all.contains(&format!("m.toml:{line}:"))
+                && all.contains("member \"m1\": bar has a prestress"),
+            "{all}"
+        );
+        assert!(m.analysis.watch.is_empty());
+    }
+
+    // -- reading errors ---------------------------------------------------
+
+    #[test]
+    fn toml_syntax_error_has_line_and_column() {
+        let text = with("[[node]]\nid = \"C\nat = [0, 0, 0]\n");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "id = \"C"),
+            "",
+            "invalid toml",
+        );
+        assert!(d.column.is_some());
+    }
+
+    #[test]
+    fn wrong_type_names_the_key_and_item() {
+        let text = with("[[node]]\nid = \"C\"\nat = [0, 0, \"x\"]\n");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"x\""),
+            "node \"C\"",
+            "`at`: wrong type",
+        );
+        assert!(d.help.unwrap().contains("at = ["));
+    }
+
+    #[test]
+    fn missing_key_is_reported_at_the_entry() {
+        let text = with("[[member]]\nid = \"m9\"\nkind = \"bar\"\nends = [\"A\", \"B\"]\n");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "[[member]]\nid = \"m9\""),
+            "member \"m9\"",
+            "missing required key `section`",
+        );
+        assert!(d.help.unwrap().contains("section = "));
+    }
+
+    #[test]
+    fn unknown_key_suggests_the_nearest() {
+        let text = with("[analysis]\ntolerence = 1e-6\nwibble = 3\n");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "tolerence"),
+            "[analysis]",
+            "unknown key `tolerence`",
+        );
+        assert_eq!(d.help.as_deref(), Some("did you mean \"tolerance\"?"));
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "wibble"),
+            "[analysis]",
+            "unknown key `wibble`",
+        );
+        assert!(d.help.unwrap().contains("valid keys here: strain, method"));
+    }
+
+    #[test]
+    fn top_level_key_after_a_table_is_explained() {
+        let text = with("nodes_csv = \"n.csv\"\n");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "nodes_csv"),
+            "load 1",
+            "unknown key `nodes_csv`",
+        );
+        assert!(d.help.unwrap().contains("top-level key"));
+    }
+
+    #[test]
+    fn errors_in_separate_entries_are_all_reported() {
+        let text = with(
+            "[[node]]\nid = \"C\"\nat = [0, 0]\n[[node]]\nid = \"D\"\nat = [0, 0, 1]\nfxi = \"\"\n[[member]]\nid = \"m2\"\nkind = \"bar\"\nends = [\"C\", \"D\"]\nsection = \"strand\"\n",
+        );
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "at = [0, 0]"),
+            "node \"C\"",
+            "invalid length 2",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "fxi"),
+            "node \"D\"",
+            "did you mean \"fix\"?",
+        );
+        // The member refers to nodes that could not be read: no extra noise.
+        assert_eq!(ds.len(), 2, "{ds:?}");
+    }
+
+    // -- references -------------------------------------------------------
+
+    #[test]
+    fn unknown_nodes_everywhere_suggest_a_near_id() {
+        let text = with(
+            "[[member]]\nid = \"m2\"\nkind = \"bar\"\nends = [\"A\", \"Bx\"]\nsection = \"strand\"\n\
+             [[spring]]\nnode = \"Q\"\ndir = \"x\"\nk = 1.0\n\
+             [[load]]\nnode = \"R\"\nforce = [1, 0, 0]\n\
+             [analysis]\nnode = \"S\"\ndir = \"x\"\nwatch = [\"T.x\"]\n",
+        );
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"Bx\""),
+            "member \"m2\"",
+            "unknown node \"Bx\" in `ends`",
+        );
+        assert_eq!(d.help.as_deref(), Some("did you mean \"B\"?"));
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"Q\""),
+            "spring 1",
+            "unknown node \"Q\"",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"R\""),
+            "load 2",
+            "unknown node \"R\"",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"S\""),
+            "[analysis]",
+            "unknown node \"S\" in `node`",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"T.x\""),
+            "[analysis]",
+            "unknown node \"T\" in `watch`",
+        );
+    }
+
+    #[test]
+    fn unknown_section_suggests_a_near_name() {
+        let text = BASE.replace("section = \"strand\"", "section = \"strnad\"");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "strnad"),
+            "member \"m1\"",
+            "unknown section \"strnad\"",
+        );
+        assert_eq!(d.help.as_deref(), Some("did you mean \"strand\"?"));
+    }
+
+    #[test]
+    fn duplicates_point_at_the_second_and_name_the_first() {
+        let text = with(
+            "[[section]]\nname = \"strand\"\nEA = 5.0\n\
+             [[node]]\nid = \"B\"\nat = [2, 0, 0]\n\
+             [[member]]\nid = \"m1\"\nkind = \"bar\"\nends = [\"A\", \"B\"]\nsection = \"strand\"\n",
+        );
+        let ds = errors(&text);
+        let first_sec = line_of(&text, "[[section]]");
+        let second_sec = line_of(&text, "[[section]]\nname = \"strand\"\nEA = 5.0");
+        let d = expect(
+            &ds,
+            "m.toml",
+            second_sec,
+            "section \"strand\"",
+            "duplicate section name",
+        );
+        assert!(d.message.contains(&format!("m.toml:{first_sec}")), "{d}");
+        let second_node = line_of(&text, "[[node]]\nid = \"B\"\nat = [2");
+        let d = expect(
+            &ds,
+            "m.toml",
+            second_node,
+            "node \"B\"",
+            "duplicate node id",
+        );
+        assert!(
+            d.message
+                .contains(&format!("m.toml:{}", line_of(&text, "id = \"B\"") - 1)),
+            "{d}"
+        );
+        let last_member = text.rfind("[[member]]").unwrap();
+        let line = text[..last_member].matches('\n').count() + 1;
+        expect(&ds, "m.toml", line, "member \"m1\"", "duplicate member id");
+    }
+
+    // -- members ----------------------------------------------------------
+
+    #[test]
+    fn member_on_one_node_and_zero_length_member() {
+        let text = with(
+            "[[node]]\nid = \"C\"\nat = [1, 0, 0]\n\
+             [[member]]\nid = \"same\"\nkind = \"bar\"\nends = [\"B\", \"B\"]\nsection = \"strand\"\n\
+             [[member]]\nid = \"short\"\nkind = \"bar\"\nends = [\"B\", \"C\"]\nsection = \"strand\"\n",
+        );
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "[\"B\", \"B\"]"),
+            "member \"same\"",
+            "both ends are node \"B\"",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "id = \"short\"") - 1,
+            "member \"short\"",
+            "zero length",
+        );
+    }
+
+    #[test]
+    fn bad_numbers_in_sections_members_and_springs() {
+        let text = with(
+            "[[section]]\nname = \"bad\"\nEA = -1.0\nweight = -0.1\ntension_capacity = 0.0\ncompression_capacity = nan\n\
+             [[section]]\nname = \"inf\"\nEA = inf\n\
+             [[member]]\nid = \"both\"\nkind = \"bar\"\nends = [\"A\", \"B\"]\nsection = \"bad\"\nprestress = 1.0\nrest_length = 2.0\n\
+             [[member]]\nid = \"slack\"\nkind = \"cable\"\nends = [\"A\", \"B\"]\nsection = \"inf\"\nprestress = -3.0\n\
+             [[member]]\nid = \"short\"\nkind = \"cable\"\nends = [\"A\", \"B\"]\nsection = \"strand\"\nrest_length = 0.0\n\
+             [[spring]]\nnode = \"B\"\ndir = \"x\"\nk = 0.0\n",
+        );
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "EA = -1.0"),
+            "section \"bad\"",
+            "`EA` must be greater than zero",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "EA = inf"),
+            "section \"inf\"",
+            "`EA` must be a finite number, found inf",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "weight = -0.1"),
+            "section \"bad\"",
+            "`weight` must be zero or more",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "tension_capacity"),
+            "section \"bad\"",
+            "`tension_capacity` must be greater than zero",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "compression_capacity"),
+            "section \"bad\"",
+            "found nan",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "rest_length = 2.0"),
+            "member \"both\"",
+            "both `prestress` and `rest_length`",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "prestress = -3.0"),
+            "member \"slack\"",
+            "a cable cannot carry compression",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "rest_length = 0.0"),
+            "member \"short\"",
+            "`rest_length` must be greater than zero",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "k = 0.0"),
+            "spring 1",
+            "`k` must be greater than zero",
+        );
+    }
+
+    #[test]
+    fn nan_coordinates_and_loads_are_rejected() {
+        let text = with(
+            "[[node]]\nid = \"C\"\nat = [0, nan, 0]\n[[load]]\nnode = \"B\"\nforce = [-inf, 0, 0]\n",
+        );
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "nan"),
+            "node \"C\"",
+            "`at` must be a finite number",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "-inf"),
+            "load 2",
+            "`force` must be a finite number",
+        );
+    }
+
+    // -- names and letters ------------------------------------------------
+
+    #[test]
+    fn invalid_fix_dir_and_kind() {
+        let text = with(
+            "[[node]]\nid = \"C\"\nat = [0, 0, 1]\nfix = \"xw\"\n\
+             [[node]]\nid = \"D\"\nat = [0, 0, 2]\nfix = \"zz\"\n\
+             [[spring]]\nnode = \"C\"\ndir = \"up\"\nk = 1.0\n\
+             [[member]]\nid = \"m2\"\nkind = \"rope\"\nends = [\"A\", \"B\"]\nsection = \"strand\"\n",
+        );
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"xw\""),
+            "node \"C\"",
+            "invalid letter 'w'",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"zz\""),
+            "node \"D\"",
+            "appears twice",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"up\""),
+            "spring 1",
+            "invalid `dir` \"up\"",
+        );
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"rope\""),
+            "member \"m2\"",
+            "unknown member kind",
+        );
+        assert!(d.help.unwrap().contains("bar, cable"));
+    }
+
+    #[test]
+    fn invalid_names_list_the_valid_ones() {
+        let text = format!(
+            "[units]\nforce = \"kn\"\nlength = \"yd\"\n{}",
+            with("[analysis]\nstrain = \"log\"\nmethod = \"newtn\"\ncontrol = \"force\"\n")
+                .replace("title = \"base\"\n", "")
+        );
+        let ds = errors(&text);
+        let d = expect(&ds, "m.toml", 2, "[units]", "unknown force unit \"kn\"");
+        assert!(d.help.unwrap().starts_with("did you mean \"kN\"?"));
+        let d = expect(&ds, "m.toml", 3, "[units]", "unknown length unit \"yd\"");
+        assert!(d.help.unwrap().contains("m, cm, mm, ft, in"));
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"log\""),
+            "[analysis]",
+            "unknown strain measure",
+        );
+        assert!(d.help.unwrap().contains("green, engineering"));
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"newtn\""),
+            "[analysis]",
+            "unknown method",
+        );
+        assert!(d.help.unwrap().starts_with("did you mean \"newton\"?"));
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "\"force\""),
+            "[analysis]",
+            "unknown control",
+        );
+        assert!(d.help.unwrap().contains("load, displacement, arc-length"));
+    }
+
+    #[test]
+    fn load_on_a_support_is_an_error() {
+        let text = BASE.replace("force = [1, 0, 0]", "force = [1, 0, -2]");
+        let ds = errors(&text);
+        let d = expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "force = [1, 0, -2]"),
+            "load 1",
+            "z component of -2 on node \"B\"",
+        );
+        assert!(d.help.unwrap().contains("remove the load or the support"));
+    }
+
+    // -- analysis ---------------------------------------------------------
+
+    #[test]
+    fn bad_analysis_numbers() {
+        let text = with(
+            "[analysis]\nsteps = 0\nmax_steps = -2\ntolerance = 0.5\nmax_iterations = 0\ntarget = nan\nwatch = [\"Bz\", \"B.q\"]\n",
+        );
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "steps = 0"),
+            "[analysis]",
+            "`steps` must be at least 1",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "max_steps"),
+            "[analysis]",
+            "`max_steps` must be at least 1",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "tolerance"),
+            "[analysis]",
+            "`tolerance` must be above 0",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "max_iterations"),
+            "[analysis]",
+            "`max_iterations` must be at least 1",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "target"),
+            "[analysis]",
+            "`target` must be a finite number",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "watch"),
+            "[analysis]",
+            "\"Bz\" is not of the form NODE.DIR",
+        );
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "watch"),
+            "[analysis]",
+            "\"B.q\" is not of the form NODE.DIR",
+        );
+    }
+
+    #[test]
+    fn control_point_rules() {
+        let text = with("[analysis]\nnode = \"B\"\n");
+        expect(
+            &errors(&text),
+            "m.toml",
+            line_of(&text, "[analysis]") + 1,
+            "[analysis]",
+            "`node` is given without `dir`",
+        );
+        let text = with("[analysis]\ndir = \"x\"\n");
+        expect(
+            &errors(&text),
+            "m.toml",
+            line_of(&text, "dir = \"x\""),
+            "[analysis]",
+            "`dir` is given without `node`",
+        );
+        let text = with("[analysis]\ncontrol = \"displacement\"\n");
+        expect(
+            &errors(&text),
+            "m.toml",
+            line_of(&text, "control"),
+            "[analysis]",
+            "displacement control needs `node` and `dir`",
+        );
+        let text = with("[analysis]\ncontrol = \"displacement\"\nnode = \"B\"\ndir = \"z\"\n");
+        expect(
+            &errors(&text),
+            "m.toml",
+            line_of(&text, "[analysis]") + 2,
+            "[analysis]",
+            "that direction is supported",
+        );
+        let text = with("[analysis]\ncontrol = \"arc-length\"\narc = -0.1\n");
+        expect(
+            &errors(&text),
+            "m.toml",
+            line_of(&text, "arc = -0.1"),
+            "[analysis]",
+            "`arc` must be greater than zero",
+        );
+    }
+
+    // -- the model as a whole ---------------------------------------------
+
+    #[test]
+    fn model_wide_problems() {
+        let text = BASE
+            .replace("fix = \"yz\"", "fix = \"zyx\"")
+            .replace("[[load]]\nnode = \"B\"\nforce = [1, 0, 0]\n", "");
+        let ds = errors(&text);
+        assert!(
+            ds.iter()
+                .any(|d| d.message.contains("nothing can move") && d.line.is_none()),
+            "{ds:?}"
+        );
+
+        let text = "[[node]]\nid = \"A\"\nat = [0, 0, 0]\n";
+        let ds = errors(text);
+        assert!(
+            ds.iter().any(|d| d.message == "the model has no members"),
+            "{ds:?}"
+        );
+
+        let text = with("[[node]]\nid = \"lonely\"\nat = [5, 5, 5]\nfix = \"z\"\n");
+        let ds = errors(&text);
+        expect(
+            &ds,
+            "m.toml",
+            line_of(&text, "id = \"lonely\"") - 1,
+            "node \"lonely\"",
+            "free node has no member or spring",
+        );
+    }
+
+    #[test]
+    fn diagnostics_are_capped() {
+        let mut text = BASE.to_string();
+        for i in 0..80 {
+            text.push_str(&format!(
+                "[[load]]\nnode = \"nope{i}\"\nforce = [1, 0, 0]\n"
+            ));
+        }
+        let ds = errors(&text);
+        assert_eq!(ds.len(), MAX_DIAGNOSTICS + 1);
+        assert!(
+            ds.last().unwrap().message.contains("30 more"),
+            "{:?}",
+            ds.last()
+        );
+        // Sorted in file order.
+        assert!(
+            ds[..MAX_DIAGNOSTICS]
+                .windows(2)
+                .all(|w| w[0].line <= w[1].line)
+        );
+    }
+
+    // -- csv --------------------------------------------------------------
+
+    #[test]
+    fn csv_without_a_folder_is_an_error() {
+        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
+        let ds = errors(&text);
+        expect(&ds, "m.toml", 1, "nodes_csv", "not read from a file");
+    }
+
+    #[test]
+    fn csv_header_problems_name_the_file_and_line_1() {
+        let dir = temp_dir();
+        std::fs::write(dir.join("n.csv"), "id,x,y,zz,fixed\nC,1,1,1,\n").unwrap();
+        std::fs::write(dir.join("m.csv"), "id,kind,end1,section\n").unwrap();
+        let text = format!("nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n{BASE}");
+        let ds = load_str(&text, "m.toml", Some(&dir))
+            .unwrap_err()
+            .diagnostics;
+        let nodes = dir.join("n.csv").display().to_string();
+        let members = dir.join("m.csv").display().to_string();
+        let d = expect(&ds, &nodes, 1, "header", "unknown column `zz`");
+        assert_eq!(d.help.as_deref(), Some("did you mean \"z\"?"));
+        let d = expect(&ds, &nodes, 1, "header", "unknown column `fixed`");
+        assert_eq!(d.help.as_deref(), Some("did you mean \"fix\"?"));
+        expect(&ds, &nodes, 1, "header", "missing column `z`");
+        expect(&ds, &members, 1, "header", "missing column `end2`");
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn csv_row_problems_name_the_file_and_line() {
+        let dir = temp_dir();
+        std::fs::write(
+            dir.join("n.csv"),
+            "id,x,y,z,fix\nC,1,0,0,q\nD,abc,0,0,\nB,3,0,0,\nE,1,0\n\"F,1,0,0,\nG,,0,0,\nH,4,0,0,\n",
+        )
+        .unwrap();
+        std::fs::write(
+            dir.join("m.csv"),
+            "id,kind,end1,end2,section,prestress\nm1,bar,A,C,strand,\nm5,bar,A,Cq,strand,\nm6,bar,A,H,,\nm7,cable,A,H,strand,-1\n",
+        )
+        .unwrap();
+        let text = format!("nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n{BASE}");
+        let ds = load_str(&text, "m.toml", Some(&dir))
+            .unwrap_err()
+            .diagnostics;
+        let n = dir.join("n.csv").display().to_string();
+        let m = dir.join("m.csv").display().to_string();
+        expect(&ds, &n, 2, "node \"C\"", "invalid letter 'q'");
+        expect(&ds, &n, 3, "node \"D\"", "`x` is not a number: \"abc\"");
+        let d = expect(&ds, &n, 4, "node \"B\"", "duplicate node id");
+        assert!(d.message.contains("m.toml:"), "{d}");
+        expect(&ds, &n, 5, "row", "row has 3 cells but the header has 5");
+        expect(&ds, &n, 6, "row", "no closing quote");
+        expect(&ds, &n, 7, "node \"G\"", "missing `x` coordinate");
+        let d = expect(&ds, &m, 2, "member \"m1\"", "duplicate member id");
+        assert!(d.message.contains("m.toml:"), "{d}");
+        let d = expect(&ds, &m, 3, "member \"m5\"", "unknown node \"Cq\" in `end2`");
+        assert_eq!(d.help.as_deref(), Some("did you mean \"C\"?"));
+        assert_eq!(d.column, Some(10));
+        expect(&ds, &m, 4, "member \"m6\"", "missing `section`");
+        expect(
+            &ds,
+            &m,
+            5,
+            "member \"m7\"",
+            "a cable cannot carry compression",
+        );
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn no_panic_on_truncated_or_mangled_input() {
+        let full = with(
+            "[[spring]]\nnode = \"B\"\ndir = \"x\"\nk = 2.0\n[analysis]\ncontrol = \"arc-length\"\n\
+             arc = 0.1\nwatch = [\"B.x\"]\n[form]\nforce_density = 1.0\n",
+        );
+        for (i, _) in full.char_indices() {
+            let _ = load_str(&full[..i], "m.toml", None);
+            let mangled: String = full
+                .chars()
+                .enumerate()
+                .map(|(k, c)| {
+                    if k == i {
+                        ['"', '[', '=', '\n', 'µ', ','][k % 6]
+                    } else {
+                        c
+                    }
+                })
+                .collect();
+            let _ = load_str(&mangled, "m.toml", None);
+        }
+        let deep = format!("a = {}{}", "[".repeat(200), "]".repeat(200));
+        assert!(load_str(&deep, "m.toml", None).is_err());
+        assert!(load_str("", "m.toml", None).is_err());
+        assert!(load_str("\u{feff}\0\u{7}", "m.toml", None).is_err());
+    }
+
+    #[test]
+    fn large_csv_tables_read_quickly() {
+        let dir = temp_dir();
+        let n = 200_000;
+        let mut nodes = String::from("id,x,y,z,fix\nA0,0,0,0,xyz\n");
+        let mut members = String::from("id,kind,end1,end2,section\n");
+        for i in 1..n {
+            nodes.push_str(&format!("A{i},{i},0.5,0,\n"));
+            members.push_str(&format!("c{i},cable,A{},A{i},s\n", i - 1));
+        }
+        std::fs::write(dir.join("n.csv"), nodes).unwrap();
+        std::fs::write(dir.join("m.csv"), members).unwrap();
+        let text = "nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n[[section]]\nname = \"s\"\nEA = 1.0\n[[load]]\nnode = \"A1\"\nforce = [0, 0, -1]\n";
+        let start = std::time::Instant::now();
+        let m = load_str(text, "m.toml", Some(&dir)).unwrap_or_else(|e| panic!("{e}"));
+        let took = start.elapsed();
+        assert_eq!((m.n_nodes(), m.n_members()), (n, n - 1));
+        assert_eq!(m.members[n - 2].ends, [n - 2, n - 1]);
+        assert!(took.as_secs_f64() < 5.0, "took {took:?}");
+        std::fs::remove_dir_all(&dir).ok();
+    }
+}
