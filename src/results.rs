@@ -162,9 +162,12 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
         StopReason::NoConvergence => {
             let Some(f) = &path.last_failure else { return "no convergence".into() };
             let cause = match &f.termination {
-                Termination::SingularTangent { dofs } => {
-                    let d = dofs.first().map(|_| "the tangent became singular (a limit point, or cables going slack)");
-                    d.unwrap_or("the tangent became singular").to_string()
+                Termination::SingularTangent { .. } => {
+                    let dirs: Vec<String> = f.zero_pivot_dirs.iter().map(|nd| model.node_dir_label(*nd)).collect();
+                    format!(
+                        "the tangent became singular: {} can move without resistance (a mechanism, cables gone slack, or a limit point)",
+                        if dirs.is_empty() { "some node".to_string() } else { dirs.join(", ") }
+                    )
                 }
                 Termination::MaxIterations => "the corrector ran out of iterations".into(),
                 Termination::Diverged => "the iterations diverged".into(),

@@ -98,6 +98,8 @@ pub struct Failure {
     pub lambda_tried: f64,
     pub termination: Termination,
     pub relative_residual: f64,
+    /// Node directions with zero pivots, when the tangent was singular.
+    pub zero_pivot_dirs: Vec<NodeDir>,
 }
 
 impl Path {
@@ -214,7 +216,13 @@ impl<'a> Tracer<'a> {
             let failed = term != Termination::Converged
                 || solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some();
             if failed {
-                let failure = Failure { step: 0, lambda_tried: 0.0, termination: term, relative_residual: state.relative_residual };
+                let failure = Failure {
+                    step: 0,
+                    lambda_tried: 0.0,
+                    termination: term,
+                    relative_residual: state.relative_residual,
+                    zero_pivot_dirs: Vec::new(),
+                };
                 add_records(&mut self.wasted, &rec0);
                 restore(&mut state, start_u, 0.0);
                 return Path {
@@ -261,6 +269,7 @@ impl<'a> Tracer<'a> {
                         lambda_tried: state.lambda,
                         termination: Termination::ConstraintFailed,
                         relative_residual: state.relative_residual,
+                        zero_pivot_dirs: Vec::new(),
                     });
                     break StopReason::NoConvergence;
                 }
@@ -324,11 +333,16 @@ impl<'a> Tracer<'a> {
                 }
                 other => {
                     add_records(&mut self.wasted, &record);
+                    let zero_pivot_dirs = match &other {
+                        Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
+                        _ => Vec::new(),
+                    };
                     let failure = Failure {
                         step,
                         lambda_tried: state.lambda,
                         termination: other.clone(),
                         relative_residual: state.relative_residual,
+                        zero_pivot_dirs,
                     };
                     restore(&mut state, start_u, start_lambda);
                     // Back to the last converged state and its tangent.

@@ -1,0 +1,1 @@
+//! The command-line contract: exit codes, files written, messages.

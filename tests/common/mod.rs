@@ -1,0 +1,54 @@
+//! Shared helpers: load a model from text, trace its path, read results.
+#![allow(dead_code)]
+
+use tautline::assembly::System;
+use tautline::linalg::Ldlt;
+use tautline::model::{self, Method, Model};
+use tautline::observe::Silent;
+use tautline::path::{Path, Tracer};
+use tautline::solve::{CorrectorConfig, InverseTangent, StepRecord, Workspace};
+
+pub struct Run {
+    pub model: Model,
+    pub system: System,
+    pub path: Path,
+    pub wasted: StepRecord,
+}
+
+/// Loads a model from TOML text; panics with the diagnostics if invalid.
+pub fn model(text: &str) -> Model {
+    match model::load_str(text, "test.toml", None) {
+        Ok(m) => m,
+        Err(e) => panic!("test model is invalid:\n{e}"),
+    }
+}
+
+/// Traces the path of a model with the given corrector.
+pub fn trace(m: Model, method: Method) -> Run {
+    let mut m = m;
+    m.analysis.method = method;
+    let system = System::new(&m).expect("system builds");
+    let a = &m.analysis;
+    let corrector = CorrectorConfig::for_method(method, a.tolerance, a.max_iterations);
+    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).expect("symbolic analysis");
+    let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(&system, m.n_nodes(), h);
+    let mut tracer = Tracer::new(&system, &m, corrector);
+    let path = tracer.run(&mut ws, &mut Silent);
+    let wasted = tracer.wasted.clone();
+    Run { model: m.clone(), system, path, wasted }
+}
+
+pub fn solve_text(text: &str) -> Run {
+    let m = model(text);
+    let method = m.analysis.method;
+    trace(m, method)
+}
+
+/// Relative difference with a floor, so values near zero compare absolutely.
+pub fn rel_err(actual: f64, expected: f64, floor: f64) -> f64 {
+    (actual - expected).abs() / expected.abs().max(floor)
+}
+
+pub const ALL_METHODS: [Method; 5] =
+    [Method::Newton, Method::ModifiedNewton, Method::Broyden, Method::BroydenBad, Method::Bfgs];

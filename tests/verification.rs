@@ -1,0 +1,326 @@
+//! The main job checked against closed forms from outside the project.
+//! Each test names its source, the quantity compared and why the tolerance.
+
+use crate::common::*;
+use tautline::model::Method;
+use tautline::path::StopReason;
+
+/// Two-bar arch of VERIFICATION case 1: half-span b = 5 m, rise h = 1 m,
+/// EA = 1280 MN, crown load P_ref (N) in −z, crown held out of plane.
+fn arch_model(strain: &str, control: &str, p_ref: f64, steps: usize, target: f64) -> String {
+    format!(
+        r#"
+title = "two-bar arch"
+[[section]]
+name = "s"
+EA = 1.28e9
+[[node]]
+id = "L"
+at = [-5.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "R"
+at = [5.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [0.0, 0.0, 1.0]
+fix = "y"
+[[member]]
+id = "left"
+kind = "bar"
+ends = ["L", "C"]
+section = "s"
+[[member]]
+id = "right"
+kind = "bar"
+ends = ["C", "R"]
+section = "s"
+[[load]]
+node = "C"
+force = [0.0, 0.0, {neg_p:?}]
+[analysis]
+strain = "{strain}"
+control = "{control}"
+steps = {steps}
+target = {target:?}
+node = "C"
+dir = "z"
+max_steps = 400
+tolerance = 1e-13
+watch = ["C.z"]
+"#,
+        neg_p = -p_ref
+    )
+}
+
+const EA: f64 = 1.28e9;
+const B: f64 = 5.0;
+const H: f64 = 1.0;
+
+/// Crown load P(w) of the two-bar arch for a crown deflection w (down positive).
+/// Engineering strain, N = EA (l − l₀)/l₀: P = 2EA (l₀ − l)/l₀ · z/l.
+/// Green-Lagrange, S = E·E_GL on the reference area: P = EA z (h² − z²)/l₀³.
+/// Both from equilibrium of the deformed crown (z = h − w, l = √(b² + z²));
+/// Z. P. Bažant and L. Cedolin, *Stability of Structures* (1991), §4.4.
+fn arch_load(w: f64, green: bool) -> f64 {
+    let z = H - w;
+    let l0 = (B * B + H * H).sqrt();
+    if green {
+        EA * z * (H * H - z * z) / l0.powi(3)
+    } else {
+        let l = (B * B + z * z).sqrt();
+        2.0 * EA * (l0 - l) / l0 * z / l
+    }
+}
+
+/// Limit load: engineering, P_lim = 2EA sin³θ_c with cos θ_c = (cos α)^(1/3)
+/// (Bažant & Cedolin 1991, eq. 4.4.5); Green-Lagrange, P_lim = 2EA h³/(3√3 l₀³)
+/// at z = h/√3 (derived from dP/dz = 0 of the relation above).
+fn arch_limit(green: bool) -> (f64, f64) {
+    let l0 = (B * B + H * H).sqrt();
+    if green {
+        (2.0 * EA * H.powi(3) / (3.0 * 3f64.sqrt() * l0.powi(3)), H - H / 3f64.sqrt())
+    } else {
+        let cos_a = B / l0;
+        let cos_c = cos_a.cbrt();
+        let sin_c = (1.0 - cos_c * cos_c).sqrt();
+        // At the limit the bar angle θ_c gives z = b·tan θ_c.
+        (2.0 * EA * sin_c.powi(3), H - B * sin_c / cos_c)
+    }
+}
+
+/// Crown deflection for a load below the limit, by bisection on [0, w_lim].
+fn arch_deflection(p: f64, green: bool) -> f64 {
+    let (_, w_lim) = arch_limit(green);
+    let (mut lo, mut hi) = (0.0, w_lim);
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if arch_load(mid, green) < p { lo = mid } else { hi = mid }
+    }
+    0.5 * (lo + hi)
+}
+
+/// The closed-form limit point reproduces the published rounded figures of
+/// VERIFICATION case 1 (3790 kN at about 426.4 mm, engineering strain): a
+/// check that the reference formula used below is the published one.
+#[test]
+fn arch_closed_form_matches_published_figures() {
+    let (p, w) = arch_limit(false);
+    assert!((p / 1e3 - 3790.0).abs() < 1.0, "P_lim = {p}");
+    assert!((w * 1e3 - 426.4).abs() < 0.05, "w_lim = {w}");
+}
+
+/// Load control to 90 % of the limit load, both strain measures, every
+/// corrector: the crown deflection at every step equals the closed form
+/// within 1e-8 relative (solver tolerance 1e-13, no discretisation error).
+#[test]
+fn arch_load_control_follows_closed_form() {
+    for green in [true, false] {
+        let (p_lim, _) = arch_limit(green);
+        let strain = if green { "green" } else { "engineering" };
+        for method in ALL_METHODS {
+            let m = model(&arch_model(strain, "load", 1.0e6, 9, 0.9 * p_lim / 1.0e6));
+            let run = trace(m, method);
+            assert_eq!(run.path.stop, StopReason::TargetReached, "{strain} {method:?}");
+            assert_eq!(run.path.points.len(), 10);
+            for pt in &run.path.points[1..] {
+                let w_tool = -pt.point;
+                let w_ref = arch_deflection(pt.lambda * 1.0e6, green);
+                let e = rel_err(w_tool, w_ref, 1e-12);
+                assert!(e < 1e-8, "{strain} {method:?} λ={}: w = {w_tool}, closed form {w_ref}, rel {e:e}", pt.lambda);
+            }
+        }
+    }
+}
+
+/// Displacement control (Batoz & Dhatt 1979) drives the crown through the
+/// limit point and past inversion: every converged point satisfies the closed
+/// form within 1e-8 relative of the limit load, the tangent has one negative
+/// pivot exactly between the two limit points, and the Green-Lagrange path is
+/// antisymmetric, P(w) = −P(2h − w), with P = 0 at w = h (derived).
+#[test]
+fn arch_displacement_control_passes_the_limit_point() {
+    for green in [true, false] {
+        let strain = if green { "green" } else { "engineering" };
+        let run = solve_text(&arch_model(strain, "displacement", 1.0e6, 44, -2.2));
+        assert_eq!(run.path.stop, StopReason::TargetReached);
+        let (p_lim, w_lim) = arch_limit(green);
+        let l0 = (B * B + H * H).sqrt();
+        for pt in &run.path.points {
+            let w = -pt.point;
+            let p_ref = arch_load(w, green);
+            let e = (pt.lambda * 1.0e6 - p_ref).abs() / p_lim;
+            assert!(e < 1e-8, "{strain} w={w}: λ·P = {}, closed form {p_ref}", pt.lambda * 1.0e6);
+            // Unstable between the limit points: w_lim < w < 2h − w_lim.
+            let inside = w > w_lim + 1e-9 && w < 2.0 * H - w_lim - 1e-9;
+            let outside = w < w_lim - 1e-9 || w > 2.0 * H - w_lim + 1e-9;
+            if inside {
+                assert_eq!(pt.negative_pivots, 1, "{strain} w={w}");
+            } else if outside {
+                assert_eq!(pt.negative_pivots, 0, "{strain} w={w}");
+            }
+        }
+        if green {
+            let _ = l0;
+            assert!(arch_load(H, true).abs() < 1e-6);
+            assert!((arch_load(0.3, true) + arch_load(2.0 * H - 0.3, true)).abs() < 1e-6 * p_lim);
+        }
+        let kinds: Vec<_> = tautline::results::critical_points(&run.path).into_iter().map(|c| c.kind).collect();
+        assert_eq!(kinds, ["limit", "limit"], "{strain}");
+    }
+}
+
+/// Pretensioned straight cable with a midspan point load, engineering strain:
+/// P = 2·EA(l_c − L_r)/L_r · w/l_c with l_c = √(l² + w²) and L_r the rest length
+/// of each half (VERIFICATION case 4, derived from equilibrium of the loaded
+/// node; cubic-type relation in w). Worked numbers l = 5 m, EA = 1e6 N,
+/// pretension 1e4 N, P = 1000 N give w ≈ 0.226726 m and a cable force
+/// ≈ 11037.84 N (computed from that closed form: a cross-check, not a
+/// literature value). Several load levels; 1e-8 relative.
+#[test]
+fn pretensioned_cable_midspan_load() {
+    let text = r#"
+[[section]]
+name = "rope"
+EA = 1.0e6
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [5.0, 0.0, 0.0]
+fix = "y"
+[[node]]
+id = "B"
+at = [10.0, 0.0, 0.0]
+fix = "xyz"
+[[member]]
+id = "a"
+kind = "cable"
+ends = ["A", "M"]
+section = "rope"
+prestress = 1.0e4
+[[member]]
+id = "b"
+kind = "cable"
+ends = ["M", "B"]
+section = "rope"
+prestress = 1.0e4
+[[load]]
+node = "M"
+force = [0.0, 0.0, -1000.0]
+[analysis]
+strain = "engineering"
+steps = 4
+target = 1.0
+node = "M"
+dir = "z"
+tolerance = 1e-13
+"#;
+    let (l, ea, t) = (5.0f64, 1.0e6, 1.0e4);
+    let lr = l * ea / (ea + t);
+    let load = |w: f64| {
+        let lc = (l * l + w * w).sqrt();
+        2.0 * ea * (lc - lr) / lr * w / lc
+    };
+    let deflection = |p: f64| {
+        let (mut lo, mut hi) = (0.0, 5.0);
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if load(mid) < p { lo = mid } else { hi = mid }
+        }
+        0.5 * (lo + hi)
+    };
+    let w1 = deflection(1000.0);
+    assert!((w1 - 0.226726).abs() < 1e-6, "closed form w = {w1}");
+    for method in ALL_METHODS {
+        let run = trace(model(text), method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        for pt in &run.path.points[1..] {
+            let w = -pt.point;
+            let e = rel_err(w, deflection(pt.lambda * 1000.0), 1e-12);
+            assert!(e < 1e-8, "{method:?} λ = {}: w = {w}, rel {e:e}", pt.lambda);
+        }
+        let forces = run.system.member_results(&run.path.final_state.u);
+        let lc = (l * l + w1 * w1).sqrt();
+        let n_ref = ea * (lc - lr) / lr;
+        assert!((n_ref - 11037.84).abs() < 0.01);
+        for f in forces {
+            assert!(rel_err(f.force, n_ref, 1.0) < 1e-8, "{method:?}: {} vs {n_ref}", f.force);
+        }
+    }
+}
+
+/// A statically determinate plane truss under a small load: member forces
+/// equal the method-of-joints values (any statics text, e.g. R. C. Hibbeler,
+/// *Engineering Mechanics: Statics*, ch. 6 "method of joints"). Nodes
+/// A(0,0) pinned, B(3,0), C(6,0) on a roller, D(3,4); load P down at B.
+/// Joints B and D give BD = P, AD = DC = −5P/8; joint A gives AB = BC = 3P/8.
+/// P = 1 N with EA = 1e9 N keeps strains near 1e-9, so geometric
+/// nonlinearity changes the forces by far less than the 1e-6 tolerance.
+#[test]
+fn determinate_truss_method_of_joints() {
+    let text = r#"
+[[section]]
+name = "s"
+EA = 1.0e9
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "B"
+at = [3.0, 0.0, 0.0]
+fix = "y"
+[[node]]
+id = "C"
+at = [6.0, 0.0, 0.0]
+fix = "yz"
+[[node]]
+id = "D"
+at = [3.0, 0.0, 4.0]
+fix = "y"
+[[member]]
+id = "AB"
+kind = "bar"
+ends = ["A", "B"]
+section = "s"
+[[member]]
+id = "BC"
+kind = "bar"
+ends = ["B", "C"]
+section = "s"
+[[member]]
+id = "AD"
+kind = "bar"
+ends = ["A", "D"]
+section = "s"
+[[member]]
+id = "DC"
+kind = "bar"
+ends = ["D", "C"]
+section = "s"
+[[member]]
+id = "BD"
+kind = "bar"
+ends = ["B", "D"]
+section = "s"
+[[load]]
+node = "B"
+force = [0.0, 0.0, -1.0]
+[analysis]
+steps = 1
+tolerance = 1e-12
+"#;
+    let run = solve_text(text);
+    assert_eq!(run.path.stop, StopReason::TargetReached);
+    let expected = [("AB", 3.0 / 8.0), ("BC", 3.0 / 8.0), ("AD", -5.0 / 8.0), ("DC", -5.0 / 8.0), ("BD", 1.0)];
+    let forces = run.system.member_results(&run.path.final_state.u);
+    for (id, f_ref) in expected {
+        let m = run.model.members.iter().position(|m| m.label == id).unwrap();
+        let e = rel_err(forces[m].force, f_ref, 1.0);
+        assert!(e < 1e-6, "{id}: {} vs {f_ref}", forces[m].force);
+    }
+}
