@@ -5,4 +5,5 @@
 mod common;
 mod cli;
 mod properties;
+mod quasi_newton;
 mod verification;

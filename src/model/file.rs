@@ -112,6 +112,11 @@ pub struct AnalysisEntry {
     pub max_iterations: Option<Spanned<i64>>,
     pub max_cutbacks: Option<Spanned<i64>>,
     pub watch: Option<Spanned<Vec<Spanned<String>>>>,
+    pub refactor_after: Option<Spanned<i64>>,
+    pub refactor_each_step: Option<Spanned<bool>>,
+    pub stall_ratio: Option<Spanned<f64>>,
+    pub line_search: Option<Spanned<i64>>,
+    pub displacement_tolerance: Option<Spanned<f64>>,
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -245,6 +250,11 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("max_iterations", "max_iterations = 30"),
         key("max_cutbacks", "max_cutbacks = 6"),
         key("watch", "watch = [\"A2.z\"]"),
+        key("refactor_after", "refactor_after = 20"),
+        key("refactor_each_step", "refactor_each_step = true"),
+        key("stall_ratio", "stall_ratio = 0.9"),
+        key("line_search", "line_search = 5"),
+        key("displacement_tolerance", "displacement_tolerance = 1e-6"),
     ],
 };
 

@@ -243,6 +243,17 @@ pub struct Analysis {
     pub max_cutbacks: usize,
     /// Columns of path.csv.
     pub watch: Vec<NodeDir>,
+    /// Refactor after this many stored quasi-Newton updates.
+    pub refactor_after: usize,
+    /// Refactor at the start of every step.
+    pub refactor_each_step: bool,
+    /// Refactor when the residual norm falls by less than this ratio in an iteration.
+    pub stall_ratio: f64,
+    /// Line-search trials beyond the full step; None: the method's default
+    /// (5 for the quasi-Newton correctors, 0 for Newton).
+    pub line_search: Option<usize>,
+    /// Optional displacement-increment criterion: ‖δu‖ ≤ this·‖Δu‖.
+    pub displacement_tolerance: Option<f64>,
 }
 
 impl Default for Analysis {
@@ -261,6 +272,11 @@ impl Default for Analysis {
             max_iterations: 30,
             max_cutbacks: 6,
             watch: Vec::new(),
+            refactor_after: 20,
+            refactor_each_step: true,
+            stall_ratio: 0.9,
+            line_search: None,
+            displacement_tolerance: None,
         }
     }
 }

@@ -1195,6 +1195,32 @@ fn analysis(
         )
         .unwrap_or(a.max_cutbacks);
     }
+    if let Some(v) = &e.refactor_after {
+        a.refactor_after = check_count(cx, t, v, "refactor_after", 1, "write the number of quasi-Newton updates kept before refactoring, at least 1")
+            .unwrap_or(a.refactor_after);
+    }
+    if let Some(v) = &e.refactor_each_step {
+        a.refactor_each_step = *v.get_ref();
+    }
+    if let Some(v) = &e.line_search {
+        a.line_search = check_count(cx, t, v, "line_search", 0, "write the number of line-search trials, 0 to switch it off");
+    }
+    if let Some(v) = &e.stall_ratio {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "stall_ratio", Rule::Positive, "a ratio between 0 and 1, e.g. 0.9") {
+            if x > 1.0 {
+                cx.error(t.at(v), item, format!("`stall_ratio` must be at most 1, found {}", fmt_num(x)), "a ratio between 0 and 1, e.g. 0.9");
+            } else {
+                a.stall_ratio = x;
+            }
+        }
+    }
+    if let Some(v) = &e.displacement_tolerance {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "displacement_tolerance", Rule::Positive, "a small positive ratio, e.g. 1e-6") {
+            a.displacement_tolerance = Some(x);
+        }
+    }
     if let Some(v) = &e.target {
         let x = *v.get_ref();
         if check_number(cx, x, t.at(v), item, "target", Rule::Finite, "") {

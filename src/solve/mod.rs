@@ -76,6 +76,21 @@ pub struct CorrectorConfig {
 }
 
 impl CorrectorConfig {
+    /// The corrector settings of a model's `[analysis]` table.
+    pub fn from_analysis(a: &crate::model::Analysis) -> Self {
+        let mut c = CorrectorConfig::for_method(a.method, a.tolerance, a.max_iterations);
+        c.refactor = RefactorPolicy {
+            at_step_start: a.refactor_each_step,
+            max_updates: a.refactor_after,
+            stall_ratio: a.stall_ratio,
+        };
+        if let Some(trials) = a.line_search {
+            c.line_search.max_trials = trials;
+        }
+        c.displacement_tolerance = a.displacement_tolerance;
+        c
+    }
+
     /// Defaults for a method: line search on for the quasi-Newton correctors,
     /// off for Newton (whose full step is already well scaled near a solution).
     pub fn for_method(method: Method, tolerance: f64, max_iterations: usize) -> Self {

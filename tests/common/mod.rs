@@ -29,7 +29,7 @@ pub fn trace(m: Model, method: Method) -> Run {
     m.analysis.method = method;
     let system = System::new(&m).expect("system builds");
     let a = &m.analysis;
-    let corrector = CorrectorConfig::for_method(method, a.tolerance, a.max_iterations);
+    let corrector = CorrectorConfig::from_analysis(a);
     let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).expect("symbolic analysis");
     let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
     let mut ws = Workspace::new(&system, m.n_nodes(), h);

@@ -196,7 +196,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>) -> Result<u8, Failure
     let started = Instant::now();
     let a = &m.analysis;
     let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).map_err(|e| Failure::Internal(e.into()))?;
-    let corrector = CorrectorConfig::for_method(a.method, a.tolerance, a.max_iterations);
+    let corrector = CorrectorConfig::from_analysis(a);
     let h = InverseTangent::new(a.method, ldlt, corrector.refactor.max_updates);
     let mut ws = Workspace::new(&system, m.n_nodes(), h);
     let mut tracer = Tracer::new(&system, m, corrector);

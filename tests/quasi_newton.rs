@@ -1,0 +1,175 @@
+//! Facts about the quasi-Newton correctors, checked on the tool's own
+//! corrector loop and inverse-tangent updates.
+
+use crate::common::*;
+use tautline::assembly::Pattern;
+use tautline::linalg::Ldlt;
+use tautline::model::Method;
+use tautline::path::StopReason;
+use tautline::solve::InverseTangent;
+
+const CABLE: &str = r#"
+[[section]]
+name = "rope"
+EA = 1.0e6
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [5.0, 0.0, 0.0]
+fix = "y"
+[[node]]
+id = "B"
+at = [10.0, 0.0, 0.0]
+fix = "xyz"
+[[member]]
+id = "a"
+kind = "cable"
+ends = ["A", "M"]
+section = "rope"
+prestress = 1.0e4
+[[member]]
+id = "b"
+kind = "cable"
+ends = ["M", "B"]
+section = "rope"
+prestress = 1.0e4
+[[load]]
+node = "M"
+force = [0.0, 0.0, -1000.0]
+[analysis]
+strain = "engineering"
+steps = 1
+node = "M"
+dir = "z"
+tolerance = 1e-14
+max_iterations = 300
+"#;
+
+/// Ratios of successive residual norms of the single load step of the
+/// pretensioned cable (midspan load from rest, 2 unknowns), full steps, no
+/// refactorization within the step.
+fn residual_ratios(method: Method) -> Vec<f64> {
+    let mut m = model(CABLE);
+    m.analysis.line_search = Some(0);
+    m.analysis.stall_ratio = 1.0e9;
+    m.analysis.refactor_after = 1000;
+    let run = trace(m, method);
+    assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+    let h = &run.path.points[1].record.residual_history;
+    h.windows(2).filter(|w| w[0] > 0.0 && w[1] > 0.0).map(|w| w[1] / w[0]).collect()
+}
+
+/// Broyden's method converges q-superlinearly (C. G. Broyden, J. E. Dennis and
+/// J. J. Moré, "On the local and superlinear convergence of quasi-Newton
+/// methods", IMA J. Appl. Math. 12, 1973): the ratio of successive residuals
+/// (proportional to the errors near a regular solution) falls below 0.1 near
+/// the solution, while modified Newton, with the same first tangent, keeps a
+/// fixed linear rate above 0.05 (the contraction of I − K₀⁻¹K*).
+#[test]
+fn broyden_is_superlinear_modified_newton_linear() {
+    let broyden = residual_ratios(Method::Broyden);
+    let last = *broyden.last().unwrap();
+    assert!(last < 0.1, "Broyden ratios {broyden:?}");
+    let bfgs = residual_ratios(Method::Bfgs);
+    assert!(*bfgs.last().unwrap() < 0.1, "BFGS ratios {bfgs:?}");
+    let mn = residual_ratios(Method::ModifiedNewton);
+    assert!(mn.len() > broyden.len(), "modified Newton {} vs Broyden {} iterations", mn.len(), broyden.len());
+    // Skip the first ratios (far from the solution) and the very last (round-off).
+    let tail = &mn[2..mn.len() - 1];
+    assert!(tail.iter().all(|r| *r > 0.05 && *r < 1.0), "modified Newton ratios {mn:?}");
+}
+
+/// Dense symmetric matrix as a full upper-triangle pattern.
+fn dense(a: &[Vec<f64>]) -> (Pattern, Vec<f64>) {
+    let n = a.len();
+    let (mut col_ptr, mut row_idx, mut vals, mut diag_slot) = (vec![0], vec![], vec![], vec![]);
+    for c in 0..n {
+        for (r, row) in a.iter().enumerate().take(c + 1) {
+            if r == c {
+                diag_slot.push(row_idx.len());
+            }
+            row_idx.push(r);
+            vals.push(row[c]);
+        }
+        col_ptr.push(row_idx.len());
+    }
+    (Pattern { n, col_ptr, row_idx, member_slots: vec![], diag_slot }, vals)
+}
+
+/// On a linear n×n system, Broyden's good method terminates in at most 2n
+/// steps (D. M. Gay, "Some convergence properties of Broyden's method", SIAM
+/// J. Numer. Anal. 16, 1979). n = 4, a symmetric positive definite A, and a
+/// deliberately wrong K₀ (diagonal, scaled): the residual is zero to
+/// round-off by iteration 2n, and not yet after one iteration.
+#[test]
+fn broyden_good_terminates_within_2n_on_linear_system() {
+    let a = vec![
+        vec![4.0, 1.0, 0.5, 0.0],
+        vec![1.0, 3.0, 0.2, 0.3],
+        vec![0.5, 0.2, 5.0, 1.0],
+        vec![0.0, 0.3, 1.0, 2.0],
+    ];
+    let n = a.len();
+    let b = [1.0, -2.0, 0.5, 3.0];
+    let k0: Vec<Vec<f64>> = (0..n).map(|i| (0..n).map(|j| if i == j { 1.7 * a[i][i] } else { 0.0 }).collect()).collect();
+    let (p0, v0) = dense(&k0);
+    let mut ldlt = Ldlt::new(&p0, faer::Par::Seq).unwrap();
+    ldlt.factorize(&p0, &v0);
+    let mut h = InverseTangent::new(Method::Broyden, ldlt, 100);
+    let matvec = |x: &[f64]| -> Vec<f64> { (0..n).map(|i| (0..n).map(|j| a[i][j] * x[j]).sum()).collect() };
+    let mut x = vec![0.0; n];
+    let resid = |x: &[f64]| -> Vec<f64> { matvec(x).iter().zip(&b).map(|(ax, bi)| ax - bi).collect() };
+    let norm = |v: &[f64]| v.iter().map(|x| x * x).sum::<f64>().sqrt();
+    let r0 = norm(&resid(&x));
+    let mut history = vec![];
+    for _ in 0..2 * n {
+        let r = resid(&x);
+        let mut s: Vec<f64> = r.iter().map(|v| -v).collect();
+        h.apply(&mut s);
+        for (xi, si) in x.iter_mut().zip(&s) {
+            *xi += si;
+        }
+        let y = matvec(&s);
+        history.push(norm(&resid(&x)) / r0);
+        if history.last().unwrap() < &1e-13 {
+            break;
+        }
+        h.update(&s, &y);
+    }
+    assert!(history[0] > 1e-3, "one step should not solve it: {history:?}");
+    assert!(*history.last().unwrap() < 1e-12, "not solved within 2n = {}: {history:?}", 2 * n);
+}
+
+/// Two-bar arch (engineering strain, EA = 1280 MN, b = 5 m, h = 1 m) loaded
+/// in one step from rest to 90 % of its limit load: the tangent at rest is a
+/// stale K₀ for the softened solution. With the divergence guard (stall ratio
+/// 0.5), modified
+/// Newton refactors within the step and converges; with the guard off it
+/// cannot converge in the allowed iterations (common practice, no source).
+#[test]
+fn divergence_guard_refactors_a_stale_tangent() {
+    let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/models/roof_arch.toml")).unwrap();
+    let base = |guard: bool| {
+        let mut m = tautline::model::load_str(&text, "roof_arch.toml", None).unwrap();
+        let a = &mut m.analysis;
+        a.control = tautline::model::Control::Load;
+        a.steps = 1;
+        a.target = 0.9 * 3.7894625; // λ: reference load is 1000 kN
+        a.max_cutbacks = 0;
+        a.max_iterations = 40;
+        // Modified Newton contracts here by about 0.7 per iteration: a guard
+        // asking for a fall to half each iteration refactors.
+        a.stall_ratio = if guard { 0.5 } else { 1.0e9 };
+        a.refactor_after = 1000;
+        trace(m, Method::ModifiedNewton)
+    };
+    let guarded = base(true);
+    assert_eq!(guarded.path.stop, StopReason::TargetReached);
+    let rec = &guarded.path.points[1].record;
+    assert!(rec.refactored_at.iter().any(|&i| i > 0), "no refactorization within the step: {:?}", rec.refactored_at);
+    let unguarded = base(false);
+    assert_eq!(unguarded.path.stop, StopReason::NoConvergence);
+}
