@@ -1,1 +1,653 @@
 //! The command-line contract: exit codes, files written, messages.
+//!
+//! Every test runs the built `tautline` binary in its own scratch folder under
+//! the system temp dir, removed when the test ends.
+
+use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+// ---------------------------------------------------------------------------
+// Helpers
+
+const BIN: &str = env!("CARGO_BIN_EXE_tautline");
+
+/// A scratch folder, unique per test and process, removed on drop.
+struct Scratch {
+    dir: PathBuf,
+}
+
+impl Scratch {
+    fn new(name: &str) -> Scratch {
+        static COUNTER: AtomicUsize = AtomicUsize::new(0);
+        let n = COUNTER.fetch_add(1, Ordering::Relaxed);
+        let dir = std::env::temp_dir().join(format!("tautline-cli-{name}-{}-{n}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).expect("create scratch folder");
+        Scratch { dir }
+    }
+
+    fn path(&self, rel: &str) -> PathBuf {
+        self.dir.join(rel)
+    }
+
+    /// Writes `text` to `rel` in the folder and returns its path.
+    fn write(&self, rel: &str, text: &str) -> PathBuf {
+        let p = self.path(rel);
+        std::fs::write(&p, text).expect("write scratch file");
+        p
+    }
+}
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.dir);
+    }
+}
+
+/// What one run of the binary did.
+struct Run {
+    code: i32,
+    stdout: String,
+    stderr: String,
+}
+
+impl std::fmt::Display for Run {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "exit {}\n--- stdout\n{}--- stderr\n{}", self.code, self.stdout, self.stderr)
+    }
+}
+
+fn tautline(args: &[&str]) -> Run {
+    let out = Command::new(BIN).args(args).output().expect("run tautline");
+    Run {
+        // Killed by a signal: no code, never a valid one.
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+    }
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().expect("scratch paths are utf-8")
+}
+
+/// `tautline solve MODEL -o OUT EXTRA...`
+fn solve(model: &Path, out: &Path, extra: &[&str]) -> Run {
+    let mut args = vec!["solve", s(model), "-o", s(out)];
+    args.extend_from_slice(extra);
+    tautline(&args)
+}
+
+/// `text` with `from` replaced by `to`; panics if `from` is absent, so a
+/// stale edit cannot silently test the unedited model.
+fn edit(text: &str, from: &str, to: &str) -> String {
+    assert!(text.contains(from), "edit target {from:?} not in the model");
+    text.replacen(from, to, 1)
+}
+
+/// 1-based line of the first line containing `needle`.
+fn line_of(text: &str, needle: &str) -> usize {
+    text.lines()
+        .position(|l| l.contains(needle))
+        .unwrap_or_else(|| panic!("{needle:?} not in the text"))
+        + 1
+}
+
+/// 1-based line of the `n`-th (0-based) line containing `needle`.
+fn nth_line_of(text: &str, needle: &str, n: usize) -> usize {
+    text.lines()
+        .enumerate()
+        .filter(|(_, l)| l.contains(needle))
+        .nth(n)
+        .unwrap_or_else(|| panic!("{needle:?} occurs fewer than {} times", n + 1))
+        .0
+        + 1
+}
+
+/// Whether `stderr` has `FILE:LINE` followed by `:` (the column, or the
+/// separator before the item).
+fn has_place(stderr: &str, file: &Path, line: usize) -> bool {
+    let place = format!("{}:{line}:", file.display());
+    stderr.contains(&place)
+}
+
+fn json(path: &Path) -> Value {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: not json: {e}", path.display()))
+}
+
+/// Header cells and data rows of a small CSV file (no quoted cells).
+fn csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    let mut lines = text.lines().map(|l| l.split(',').map(str::to_string).collect::<Vec<_>>());
+    let header = lines.next().unwrap_or_else(|| panic!("{}: empty", path.display()));
+    (header, lines.collect())
+}
+
+fn num(cell: &str) -> f64 {
+    cell.parse().unwrap_or_else(|_| panic!("not a number: {cell:?}"))
+}
+
+fn rel_diff(a: f64, b: f64) -> f64 {
+    (a - b).abs() / a.abs().max(b.abs()).max(1e-300)
+}
+
+/// A straight, pretensioned cable of two segments between fixed ends, with
+/// a vertical load at midspan. N and m.
+const CABLE: &str = r#"title = "two-segment cable"
+
+[[section]]
+name = "strand"
+EA = 1.0e5
+
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+
+[[node]]
+id = "M"
+at = [1.0, 0.0, 0.0]
+
+[[node]]
+id = "B"
+at = [2.0, 0.0, 0.0]
+fix = "xyz"
+
+[[member]]
+id = "c1"
+kind = "cable"
+ends = ["A", "M"]
+section = "strand"
+prestress = 100.0
+
+[[member]]
+id = "c2"
+kind = "cable"
+ends = ["M", "B"]
+section = "strand"
+prestress = 100.0
+
+[[load]]
+node = "M"
+force = [0.0, 0.0, -10.0]
+
+[analysis]
+steps = 4
+tolerance = 1e-12
+watch = ["M.z"]
+"#;
+
+/// Runs `solve` (and, for problems in the file, `check`) on a bad model
+/// written as `model.toml`, and checks the bad-input contract: exit 2, every
+/// `wants` text in stderr, no panic, no output folder. Returns the model path
+/// and the stderr of `solve`.
+fn bad_model(scratch: &Scratch, text: &str, extra: &[&str], wants: &[&str]) -> (PathBuf, String) {
+    let model = scratch.write("model.toml", text);
+    let out = scratch.path("out");
+    let r = solve(&model, &out, extra);
+    assert_bad_input(&r, &out, wants);
+    if extra.is_empty() {
+        let c = tautline(&["check", s(&model)]);
+        assert_eq!(c.code, 2, "check:\n{c}");
+        for w in wants {
+            assert!(c.stderr.contains(w), "check stderr lacks {w:?}:\n{c}");
+        }
+    }
+    (model, r.stderr)
+}
+
+fn assert_bad_input(r: &Run, out: &Path, wants: &[&str]) {
+    assert_eq!(r.code, 2, "expected exit 2 (bad input):\n{r}");
+    for w in wants {
+        assert!(r.stderr.contains(w), "stderr lacks {w:?}:\n{r}");
+    }
+    assert!(!r.stderr.contains("panicked"), "{r}");
+    assert!(!out.exists(), "bad input must write nothing, but {} exists:\n{r}", out.display());
+}
+
+/// The example models shipped in `models/`.
+fn example_models() -> Vec<PathBuf> {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("models");
+    let mut v: Vec<PathBuf> = std::fs::read_dir(&dir)
+        .expect("models folder")
+        .map(|e| e.expect("dir entry").path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .collect();
+    v.sort();
+    assert!(!v.is_empty(), "no models/*.toml");
+    v
+}
+
+/// Entries of `[[table]]` in a model file, plus the data rows of the CSV
+/// table named by `csv_key` if the model has one.
+fn count_entries(model: &Path, table: &str, csv_key: &str) -> usize {
+    let text = std::fs::read_to_string(model).unwrap();
+    let header = format!("[[{table}]]");
+    let mut n = text.lines().filter(|l| l.trim() == header).count();
+    let csv_name = text.lines().find_map(|l| {
+        let (k, v) = l.split_once('=')?;
+        (k.trim() == csv_key).then(|| v.trim().trim_matches('"').to_string())
+    });
+    if let Some(name) = csv_name {
+        let t = std::fs::read_to_string(model.parent().unwrap().join(name)).unwrap();
+        let rows = t.lines().filter(|l| !l.trim().is_empty() && !l.trim_start().starts_with('#'));
+        n += rows.count().saturating_sub(1);
+    }
+    n
+}
+
+fn assert_caution_last(r: &Run) {
+    let last = r.stdout.trim_end().lines().last().unwrap_or("");
+    assert!(last.contains("SAFETY.md"), "stdout must end with the caution line:\n{r}");
+}
+
+// ---------------------------------------------------------------------------
+// Bad input: exit 2, a located message, nothing written
+
+#[test]
+fn toml_syntax_error_is_located() {
+    let sc = Scratch::new("syntax");
+    let text = edit(CABLE, "at = [1.0, 0.0, 0.0]", "at = [1.0, 0.0 0.0]");
+    let (model, err) = bad_model(&sc, &text, &[], &["invalid toml"]);
+    // A syntax error names no item (the parser cannot know one); the line
+    // is the place to fix.
+    assert!(has_place(&err, &model, line_of(&text, "0.0 0.0]")), "{err}");
+}
+
+#[test]
+fn unknown_key_suggests_the_meant_one() {
+    let sc = Scratch::new("unknown-key");
+    let text = edit(CABLE, "at = [1.0, 0.0, 0.0]\n", "at = [1.0, 0.0, 0.0]\nfxi = \"y\"\n");
+    let (model, err) = bad_model(&sc, &text, &[], &["node \"M\"", "unknown key `fxi`", "did you mean \"fix\"?"]);
+    assert!(has_place(&err, &model, line_of(&text, "fxi")), "{err}");
+}
+
+#[test]
+fn unknown_node_in_a_member() {
+    let sc = Scratch::new("unknown-node");
+    let text = edit(CABLE, "ends = [\"M\", \"B\"]", "ends = [\"M\", \"Q\"]");
+    let (model, err) = bad_model(&sc, &text, &[], &["member \"c2\"", "unknown node \"Q\""]);
+    assert!(has_place(&err, &model, line_of(&text, "\"Q\"")), "{err}");
+}
+
+#[test]
+fn unknown_section() {
+    let sc = Scratch::new("unknown-section");
+    let text = edit(
+        CABLE,
+        "ends = [\"A\", \"M\"]\nsection = \"strand\"",
+        "ends = [\"A\", \"M\"]\nsection = \"strnad\"",
+    );
+    let (model, err) = bad_model(&sc, &text, &[], &["member \"c1\"", "unknown section \"strnad\""]);
+    assert!(has_place(&err, &model, line_of(&text, "strnad")), "{err}");
+    assert!(err.contains("did you mean \"strand\"?"), "{err}");
+}
+
+#[test]
+fn duplicate_node_id() {
+    let sc = Scratch::new("duplicate-node");
+    let text = edit(
+        CABLE,
+        "[[member]]",
+        "[[node]]\nid = \"M\"\nat = [1.0, 1.0, 0.0]\nfix = \"xyz\"\n\n[[member]]",
+    );
+    let (model, err) = bad_model(&sc, &text, &[], &["node \"M\"", "duplicate node id \"M\""]);
+    // The repeat is reported at its own entry (its header or its id line)...
+    let id_line = nth_line_of(&text, "id = \"M\"", 1);
+    assert!(has_place(&err, &model, id_line - 1) || has_place(&err, &model, id_line), "{err}");
+    // ...and names where the first one is.
+    let first = nth_line_of(&text, "id = \"M\"", 0);
+    let first_place = [first - 1, first].map(|l| format!("{}:{l}", model.display()));
+    assert!(first_place.iter().any(|p| err.contains(&format!("the first is at {p}"))), "{err}");
+}
+
+#[test]
+fn zero_length_member() {
+    let sc = Scratch::new("zero-length");
+    let text = edit(CABLE, "at = [2.0, 0.0, 0.0]", "at = [1.0, 0.0, 0.0]");
+    let (model, err) = bad_model(&sc, &text, &[], &["member \"c2\"", "zero length"]);
+    let id_line = line_of(&text, "id = \"c2\"");
+    assert!(has_place(&err, &model, id_line - 1) || has_place(&err, &model, id_line), "{err}");
+}
+
+#[test]
+fn non_positive_ea() {
+    let sc = Scratch::new("ea");
+    for ea in ["0.0", "-2.0e4"] {
+        let text = edit(CABLE, "EA = 1.0e5", &format!("EA = {ea}"));
+        let (model, err) = bad_model(&sc, &text, &[], &["section \"strand\"", "`EA` must be greater than zero"]);
+        assert!(has_place(&err, &model, line_of(&text, "EA =")), "{err}");
+    }
+}
+
+#[test]
+fn nan_value() {
+    let sc = Scratch::new("nan");
+    let text = edit(CABLE, "at = [1.0, 0.0, 0.0]", "at = [1.0, nan, 0.0]");
+    let (model, err) = bad_model(&sc, &text, &[], &["node \"M\"", "finite", "nan"]);
+    assert!(has_place(&err, &model, line_of(&text, "nan")), "{err}");
+}
+
+#[test]
+fn load_on_a_fixed_direction() {
+    let sc = Scratch::new("load-fixed");
+    let text = edit(CABLE, "[[load]]\nnode = \"M\"", "[[load]]\nnode = \"A\"");
+    let (model, err) = bad_model(&sc, &text, &[], &["load 1", "node \"A\"", "supported"]);
+    assert!(has_place(&err, &model, line_of(&text, "force = [0.0, 0.0, -10.0]")), "{err}");
+}
+
+#[test]
+fn model_without_a_free_dof() {
+    let sc = Scratch::new("no-free-dof");
+    let text = edit(CABLE, "at = [1.0, 0.0, 0.0]\n", "at = [1.0, 0.0, 0.0]\nfix = \"xyz\"\n");
+    let text = edit(&text, "[[load]]\nnode = \"M\"\nforce = [0.0, 0.0, -10.0]\n", "");
+    let (model, err) = bad_model(&sc, &text, &[], &["nothing can move"]);
+    // A model-wide problem: no one line or item is at fault, but the file is named.
+    assert!(err.contains(&format!("{}: ", model.display())), "{err}");
+}
+
+#[test]
+fn invalid_method_option() {
+    let sc = Scratch::new("method");
+    let (_, err) = bad_model(&sc, CABLE, &["--method", "newtn"], &["--method newtn", "newton", "bfgs"]);
+    assert!(!err.contains("error: model.toml"), "the model itself is fine:\n{err}");
+}
+
+#[test]
+fn bad_watch_option() {
+    let sc = Scratch::new("watch");
+    bad_model(&sc, CABLE, &["--watch", "M.q"], &["--watch M.q", "x, y or z"]);
+    bad_model(&sc, CABLE, &["--watch", "Q.z"], &["--watch Q.z", "no node \"Q\""]);
+    bad_model(&sc, CABLE, &["--watch", "Mz"], &["--watch Mz", "NODE.DIR"]);
+}
+
+#[test]
+fn missing_model_file() {
+    let sc = Scratch::new("missing");
+    let model = sc.path("no-such-model.toml");
+    let out = sc.path("out");
+    let r = solve(&model, &out, &[]);
+    assert_bad_input(&r, &out, &[s(&model), "cannot read the model file"]);
+    let c = tautline(&["check", s(&model)]);
+    assert_eq!(c.code, 2, "{c}");
+    assert!(c.stderr.contains(s(&model)), "{c}");
+}
+
+#[test]
+fn csv_table_with_an_unknown_column() {
+    let sc = Scratch::new("csv-column");
+    let nodes = sc.write("nodes.csv", "id,x,y,z,fixx\nD,3.0,0.0,0.0,xyz\n");
+    let text = format!("nodes_csv = \"nodes.csv\"\n{CABLE}");
+    let (_, err) = bad_model(&sc, &text, &[], &["header", "unknown column `fixx`", "did you mean \"fix\"?"]);
+    assert!(has_place(&err, &nodes, 1), "{err}");
+}
+
+// ---------------------------------------------------------------------------
+// check and solve on the example models
+
+#[test]
+fn check_reports_the_counts_of_every_example() {
+    for model in example_models() {
+        let r = tautline(&["check", s(&model)]);
+        assert_eq!(r.code, 0, "{}:\n{r}", model.display());
+        let nodes = count_entries(&model, "node", "nodes_csv");
+        let members = count_entries(&model, "member", "members_csv");
+        assert!(nodes > 0 && members > 0, "{}", model.display());
+        assert!(r.stdout.contains(&format!("nodes: {nodes} (")), "{}: want {nodes} nodes:\n{r}", model.display());
+        assert!(r.stdout.contains(&format!("members: {members} (")), "{}: want {members} members:\n{r}", model.display());
+        assert!(r.stdout.contains("model is valid"), "{r}");
+    }
+}
+
+/// The parts of results.json, path.csv and members.csv every finished run has.
+fn assert_outputs(out: &Path, n_members: usize) -> Value {
+    for f in ["results.json", "path.csv", "members.csv"] {
+        assert!(out.join(f).is_file(), "{} missing", out.join(f).display());
+    }
+    let res = json(&out.join("results.json"));
+    let steps = res["steps"].as_array().expect("steps is an array");
+    assert!(!steps.is_empty());
+    for st in steps {
+        for key in ["load_factor", "iterations", "factorizations", "residual", "negative_pivots", "point"] {
+            assert!(st[key].is_number(), "step lacks numeric {key}: {st}");
+        }
+    }
+    for key in ["iterations", "factorizations", "seconds"] {
+        assert!(res["totals"][key].is_number(), "totals lack {key}: {}", res["totals"]);
+    }
+
+    let (header, rows) = csv(&out.join("path.csv"));
+    assert_eq!(header[..2], ["step", "load_factor"]);
+    let watch: Vec<String> = res["watch"].as_array().unwrap().iter().map(|w| w.as_str().unwrap().to_string()).collect();
+    assert_eq!(header[2..], watch[..], "path.csv columns follow results.json watch");
+    assert_eq!(rows.len(), steps.len(), "one path.csv row per step");
+    for (row, st) in rows.iter().zip(steps) {
+        assert_eq!(row.len(), header.len());
+        assert_eq!(num(&row[0]), st["step"].as_f64().unwrap());
+        // serde_json's default float parser may be off by an ulp or so.
+        let (a, b) = (num(&row[1]), st["load_factor"].as_f64().unwrap());
+        assert!(a == b || rel_diff(a, b) < 1e-15, "path.csv {a} and results.json {b} agree");
+    }
+
+    let (mheader, mrows) = csv(&out.join("members.csv"));
+    assert_eq!(mheader[0], "id");
+    assert_eq!(mrows.len(), n_members, "one members.csv row per member");
+    res
+}
+
+#[test]
+fn solve_finishes_every_example() {
+    let sc = Scratch::new("solve-examples");
+    for (k, model) in example_models().iter().enumerate() {
+        let out = sc.path(&format!("out{k}"));
+        let r = solve(model, &out, &[]);
+        assert_eq!(r.code, 0, "{}:\n{r}", model.display());
+        let res = assert_outputs(&out, count_entries(model, "member", "members_csv"));
+        assert_eq!(res["converged"], true, "{}", model.display());
+        assert_eq!(res["stop_reason"], "target_reached", "{}", model.display());
+        assert!(r.stdout.contains("done: reached the target"), "{r}");
+        assert_caution_last(&r);
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Overrides
+
+#[test]
+fn method_and_steps_overrides_are_used() {
+    let sc = Scratch::new("overrides");
+    let model = sc.write("cable.toml", CABLE);
+    let newton = sc.path("newton");
+    let r = solve(&model, &newton, &[]);
+    assert_eq!(r.code, 0, "{r}");
+    let base = json(&newton.join("results.json"));
+    assert_eq!(base["analysis"]["method"], "newton");
+    assert_eq!(base["steps"].as_array().unwrap().len(), 5, "4 steps and step 0");
+
+    let bfgs = sc.path("bfgs");
+    let r = solve(&model, &bfgs, &["--method", "bfgs", "--steps", "5"]);
+    assert_eq!(r.code, 0, "{r}");
+    let res = assert_outputs(&bfgs, 2);
+    assert_eq!(res["analysis"]["method"], "bfgs");
+    assert_eq!(res["analysis"]["steps"], 5);
+    let steps = res["steps"].as_array().unwrap();
+    assert_eq!(steps.len(), 6, "5 steps and step 0");
+    assert_eq!(steps.last().unwrap()["load_factor"].as_f64().unwrap(), 1.0);
+    assert!(r.stdout.contains("bfgs / load control"), "{r}");
+    // The same equilibrium, found another way.
+    let z = |v: &Value| v["steps"].as_array().unwrap().last().unwrap()["watched"][0].as_f64().unwrap();
+    assert!(z(&base) < 0.0);
+    assert!(rel_diff(z(&res), z(&base)) < 1e-8, "bfgs {} vs newton {}", z(&res), z(&base));
+}
+
+#[test]
+fn watch_override_replaces_the_path_columns() {
+    let sc = Scratch::new("watch-override");
+    let model = sc.write("cable.toml", CABLE);
+    let out = sc.path("out");
+    let r = solve(&model, &out, &["--watch", "M.x", "--watch", "M.z"]);
+    assert_eq!(r.code, 0, "{r}");
+    let res = assert_outputs(&out, 2);
+    let (header, rows) = csv(&out.join("path.csv"));
+    assert_eq!(header, ["step", "load_factor", "M.x", "M.z"]);
+    assert_eq!(res["watch"], serde_json::json!(["M.x", "M.z"]));
+    let last = rows.last().unwrap();
+    // A downward load pulls the midspan node down, and by symmetry not sideways.
+    assert!(num(&last[3]) < 0.0, "{last:?}");
+    assert!(num(&last[2]).abs() < 1e-9 * num(&last[3]).abs(), "{last:?}");
+}
+
+// ---------------------------------------------------------------------------
+// Stopped before the target: exit 3, what was found is written
+
+#[test]
+fn load_control_past_the_limit_point_stops_with_exit_3() {
+    let sc = Scratch::new("limit");
+    let model = Path::new(env!("CARGO_MANIFEST_DIR")).join("models/roof_arch.toml");
+    let out = sc.path("out");
+    let r = solve(&model, &out, &["--control", "load", "--target", "10"]);
+    assert_eq!(r.code, 3, "{r}");
+    assert!(r.stdout.contains("stopped before the target"), "{r}");
+    assert_caution_last(&r);
+    let res = assert_outputs(&out, 2);
+    assert_eq!(res["converged"], false);
+    assert_eq!(
+        res["stop_reason"], "no_convergence",
+        "the limit load (about 3.79) cannot be passed under load control: {}",
+        res["stop_message"]
+    );
+    let steps = res["steps"].as_array().unwrap();
+    assert!(steps.len() > 1, "the converged steps before the limit are kept");
+    let lambdas: Vec<f64> = steps.iter().map(|st| st["load_factor"].as_f64().unwrap()).collect();
+    assert!(lambdas.windows(2).all(|w| w[1] > w[0]), "every load-control step raises the load: {lambdas:?}");
+    let last = *lambdas.last().unwrap();
+    assert!(last > 3.0 && last < 3.8, "last converged load factor {last}");
+}
+
+#[test]
+fn max_steps_reached_stops_with_exit_3() {
+    let sc = Scratch::new("max-steps");
+    let model = sc.write("cable.toml", CABLE);
+    let out = sc.path("out");
+    let r = solve(&model, &out, &["--max-steps", "2"]);
+    assert_eq!(r.code, 3, "{r}");
+    assert!(r.stdout.contains("stopped before the target"), "{r}");
+    let res = assert_outputs(&out, 2);
+    assert_eq!(res["converged"], false);
+    assert_eq!(res["stop_reason"], "max_steps");
+    let (_, rows) = csv(&out.join("path.csv"));
+    assert_eq!(rows.len(), 3, "steps 0, 1 and 2");
+    assert_eq!(num(&rows[2][1]), 0.5);
+}
+
+// ---------------------------------------------------------------------------
+// demo
+
+#[test]
+fn demo_writes_its_files() {
+    let sc = Scratch::new("demo");
+    let out = sc.path("demo-out");
+    let r = tautline(&["demo", "-o", s(&out)]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stdout.starts_with("demo: "), "{r}");
+    assert_caution_last(&r);
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("models/courtyard_net.toml");
+    let res = assert_outputs(&out, count_entries(&demo, "member", "members_csv"));
+    assert_eq!(res["converged"], true);
+    assert_eq!(res["stop_reason"], "target_reached");
+}
+
+// ---------------------------------------------------------------------------
+// Units
+
+/// The cable of [`CABLE`] written in kN and mm.
+const CABLE_KN_MM: &str = r#"title = "two-segment cable, kN and mm"
+
+[units]
+force = "kN"
+length = "mm"
+
+[[section]]
+name = "strand"
+EA = 100.0
+
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+
+[[node]]
+id = "M"
+at = [1000.0, 0.0, 0.0]
+
+[[node]]
+id = "B"
+at = [2000.0, 0.0, 0.0]
+fix = "xyz"
+
+[[member]]
+id = "c1"
+kind = "cable"
+ends = ["A", "M"]
+section = "strand"
+prestress = 0.1
+
+[[member]]
+id = "c2"
+kind = "cable"
+ends = ["M", "B"]
+section = "strand"
+prestress = 0.1
+
+[[load]]
+node = "M"
+force = [0.0, 0.0, -0.01]
+
+[analysis]
+steps = 4
+tolerance = 1e-12
+watch = ["M.z"]
+"#;
+
+#[test]
+fn displacements_are_written_in_model_units() {
+    let sc = Scratch::new("units");
+    let si = sc.write("si.toml", CABLE);
+    let mm = sc.write("mm.toml", CABLE_KN_MM);
+    let (out_si, out_mm) = (sc.path("out-si"), sc.path("out-mm"));
+    for (model, out) in [(&si, &out_si), (&mm, &out_mm)] {
+        let r = solve(model, out, &[]);
+        assert_eq!(r.code, 0, "{r}");
+        assert_outputs(out, 2);
+    }
+    let (h_si, rows_si) = csv(&out_si.join("path.csv"));
+    let (h_mm, rows_mm) = csv(&out_mm.join("path.csv"));
+    assert_eq!(h_si, h_mm);
+    assert_eq!(rows_si.len(), rows_mm.len());
+    for (a, b) in rows_si.iter().zip(&rows_mm) {
+        assert_eq!(num(&a[1]), num(&b[1]), "same load factors");
+        let (z_m, z_mm) = (num(&a[2]), num(&b[2]));
+        if z_m == 0.0 {
+            assert_eq!(z_mm, 0.0);
+        } else {
+            assert!(rel_diff(z_mm, 1000.0 * z_m) < 1e-9, "{z_mm} mm vs {z_m} m");
+        }
+    }
+    let z_last = num(&rows_si.last().unwrap()[2]);
+    assert!(z_last < -1e-3, "the load moves the midspan visibly: {z_last} m");
+
+    // Member forces in kN are 1/1000 of those in N; lengths in mm 1000×.
+    let (mh_si, m_si) = csv(&out_si.join("members.csv"));
+    let (mh_mm, m_mm) = csv(&out_mm.join("members.csv"));
+    let col = |h: &[String], name: &str| h.iter().position(|c| c == name).unwrap_or_else(|| panic!("no {name} in {h:?}"));
+    let (f_si, l_si) = (col(&mh_si, "force_N"), col(&mh_si, "length_m"));
+    let (f_mm, l_mm) = (col(&mh_mm, "force_kN"), col(&mh_mm, "length_mm"));
+    for (a, b) in m_si.iter().zip(&m_mm) {
+        assert_eq!(a[0], b[0]);
+        assert!(rel_diff(num(&b[f_mm]), 1e-3 * num(&a[f_si])) < 1e-9, "{a:?} vs {b:?}");
+        assert!(rel_diff(num(&b[l_mm]), 1e3 * num(&a[l_si])) < 1e-9, "{a:?} vs {b:?}");
+    }
+}
