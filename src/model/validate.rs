@@ -1195,6 +1195,14 @@ fn analysis(
         )
         .unwrap_or(a.max_cutbacks);
     }
+    let variants = ["cylindrical", "normal-plane"];
+    if let Some(normal) = choice(cx, t, &e.arc_variant, "arc_variant", &variants, |s| match s {
+        "cylindrical" => Some(false),
+        "normal-plane" => Some(true),
+        _ => None,
+    }) {
+        a.arc_variant_normal_plane = normal;
+    }
     if let Some(v) = &e.refactor_after {
         a.refactor_after = check_count(cx, t, v, "refactor_after", 1, "write the number of quasi-Newton updates kept before refactoring, at least 1")
             .unwrap_or(a.refactor_after);

@@ -16,7 +16,7 @@ use crate::assembly::System;
 use crate::model::{Control, Model, NodeDir};
 use crate::observe::{Control as Answer, Observer, StepEvent};
 use crate::solve::{self, CorrectorConfig, FixedLoad, State, StepRecord, Termination, Workspace};
-use constraints::PrescribedDisplacement;
+use constraints::{Cylindrical, NormalPlane, PrescribedDisplacement};
 
 /// Why the path ended.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -181,6 +181,35 @@ impl<'a> Tracer<'a> {
         }
     }
 
+    /// After an arc-length step carried λ across the target, finds the
+    /// equilibrium at λ = target on the same branch: start from the linear
+    /// interpolation between the two states, correct under load control. If
+    /// that fails, the crossing state is kept.
+    #[allow(clippy::too_many_arguments)]
+    fn land_on_target(
+        &self,
+        ws: &mut Workspace,
+        state: &mut State,
+        start_u: &[f64],
+        start_lambda: f64,
+        target: f64,
+        step: usize,
+        record: &mut StepRecord,
+        observer: &mut dyn Observer,
+    ) {
+        let t = (target - start_lambda) / (state.lambda - start_lambda);
+        let mut trial = state.clone();
+        for (u, u0) in trial.u.iter_mut().zip(start_u) {
+            *u = u0 + t * (*u - u0);
+        }
+        trial.lambda = target;
+        let (term, rec) = solve::drive(self.system, ws, &mut trial, start_u, start_lambda, &FixedLoad, &self.corrector, step, observer);
+        add_records(record, &rec);
+        if term == Termination::Converged {
+            *state = trial;
+        }
+    }
+
     /// Runs the analysis of the model's `[analysis]` table.
     pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> Path {
         let a = self.model.analysis.clone();
@@ -239,12 +268,8 @@ impl<'a> Tracer<'a> {
         let neg0 = ws.h.inertia.negative;
         points.push(self.make_point(&state, 0, rec0, neg0));
 
-        let displacement_control = a.control == Control::Displacement;
-        let nominal = a.target / a.steps.max(1) as f64;
-        let mut increment = nominal;
-        let mut successes_since_cut = 0;
-        let mut cuts_this_step = 0;
-        let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
+        let mut stepper = Stepper::new(&a, sys, ws);
+        let mut last_increment: Vec<f64> = Vec::new();
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -252,44 +277,84 @@ impl<'a> Tracer<'a> {
             }
             let start_u = state.u.clone();
             let start_lambda = state.lambda;
-            let progress = if displacement_control { self.displacement_of(&state.u, a.point.unwrap()) } else { state.lambda };
-            // Do not step past the target.
-            let remaining = a.target - progress;
-            let inc = if increment.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { increment };
+            let progress = match a.control {
+                Control::Displacement => self.displacement_of(&state.u, a.point.expect("validated")),
+                _ => state.lambda,
+            };
 
-            let (term, record) = if displacement_control {
-                let dof = control_dof.expect("validated: the controlled point is free");
-                // Predictor along the tangent: δu_f = K⁻¹ f_ref scaled so the
-                // controlled DOF moves by the increment.
-                let mut du_f = sys.f_ref.clone();
-                ws.h.apply(&mut du_f);
-                if du_f[dof].abs() < 1e-300 || !du_f[dof].is_finite() {
-                    last_failure = Some(Failure {
-                        step,
-                        lambda_tried: state.lambda,
-                        termination: Termination::ConstraintFailed,
-                        relative_residual: state.relative_residual,
-                        zero_pivot_dirs: Vec::new(),
-                    });
-                    break StopReason::NoConvergence;
+            let (term, record) = match a.control {
+                Control::Load => {
+                    // Do not step past the target.
+                    let remaining = a.target - progress;
+                    let inc = if stepper.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { stepper.size };
+                    state.lambda += inc;
+                    solve::drive(sys, ws, &mut state, &start_u, start_lambda, &FixedLoad, &self.corrector, step, observer)
                 }
-                let dl = inc / du_f[dof];
-                for (u, d) in state.u.iter_mut().zip(&du_f) {
-                    *u += dl * d;
+                Control::Displacement => {
+                    let dof = stepper.control_dof.expect("validated: the controlled point is free");
+                    let remaining = a.target - progress;
+                    let inc = if stepper.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { stepper.size };
+                    // Predictor along the tangent: δu_f = K⁻¹ f_ref scaled so the
+                    // controlled DOF moves by the increment.
+                    let du_f = tangent_direction(sys, ws);
+                    let dl = inc / du_f[dof];
+                    if !dl.is_finite() {
+                        (Termination::ConstraintFailed, StepRecord::default())
+                    } else {
+                        for (u, d) in state.u.iter_mut().zip(&du_f) {
+                            *u += dl * d;
+                        }
+                        state.lambda += dl;
+                        let c = PrescribedDisplacement { dof };
+                        solve::drive(sys, ws, &mut state, &start_u, start_lambda, &c, &self.corrector, step, observer)
+                    }
                 }
-                state.lambda += dl;
-                let c = PrescribedDisplacement { dof };
-                solve::drive(sys, ws, &mut state, &start_u, start_lambda, &c, &self.corrector, step, observer)
-            } else {
-                state.lambda += inc;
-                solve::drive(sys, ws, &mut state, &start_u, start_lambda, &FixedLoad, &self.corrector, step, observer)
+                Control::ArcLength => {
+                    // Predictor along the tangent with ‖Δu‖ = Δl; its sign follows
+                    // the previous increment (positive work along the path), or
+                    // the target's sign on the first step.
+                    let du_f = tangent_direction(sys, ws);
+                    let norm = dot(&du_f, &du_f).sqrt();
+                    let sign = if last_increment.is_empty() {
+                        a.target.signum()
+                    } else {
+                        let d = dot(&du_f, &last_increment);
+                        if d == 0.0 { a.target.signum() } else { d.signum() }
+                    };
+                    let dl = sign * stepper.size / norm;
+                    if !dl.is_finite() {
+                        (Termination::ConstraintFailed, StepRecord::default())
+                    } else {
+                        for (u, d) in state.u.iter_mut().zip(&du_f) {
+                            *u += dl * d;
+                        }
+                        state.lambda += dl;
+                        let arc = stepper.size;
+                        let (t, r) = if stepper.normal_plane {
+                            solve::drive(sys, ws, &mut state, &start_u, start_lambda, &NormalPlane, &self.corrector, step, observer)
+                        } else {
+                            let c = Cylindrical { arc };
+                            solve::drive(sys, ws, &mut state, &start_u, start_lambda, &c, &self.corrector, step, observer)
+                        };
+                        (t, r)
+                    }
+                }
             };
 
             match term {
                 Termination::Converged => {
+                    let mut record = record;
+                    let iterations = record.iterations;
+                    // Arc-length: λ first reaching the target ends the path on
+                    // it: a load-control corrector from the crossing state.
+                    let crossed = a.control == Control::ArcLength
+                        && (start_lambda - a.target) * (state.lambda - a.target) <= 0.0
+                        && state.lambda != start_lambda;
+                    if crossed {
+                        self.land_on_target(ws, &mut state, &start_u, start_lambda, a.target, step, &mut record, observer);
+                    }
                     // The tangent at the converged state: its inertia, and the
                     // step-start factor of the next step.
-                    let mut record = record;
                     let singular = solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
                     let neg = ws.h.inertia.negative;
                     ws.fresh = !singular;
@@ -302,12 +367,8 @@ impl<'a> Tracer<'a> {
                         negative_pivots: neg,
                     };
                     points.push(point);
-                    cuts_this_step = 0;
-                    successes_since_cut += 1;
-                    if successes_since_cut >= 2 && increment.abs() < nominal.abs() {
-                        increment *= 2.0;
-                        successes_since_cut = 0;
-                    }
+                    last_increment = state.u.iter().zip(&start_u).map(|(a, b)| a - b).collect();
+                    stepper.converged(iterations);
                     if singular {
                         let moving = find_mechanism(sys, ws, &state);
                         mechanism = Some(Mechanism { moving, lambda: state.lambda });
@@ -316,8 +377,11 @@ impl<'a> Tracer<'a> {
                     if observer.on_step(&ev) == Answer::Stop {
                         break 'path StopReason::Interrupted;
                     }
-                    let progress = if displacement_control { ev.point_displacement } else { state.lambda };
-                    if (progress - a.target).abs() <= 1e-12 * a.target.abs().max(1e-300) {
+                    let progress = match a.control {
+                        Control::Displacement => ev.point_displacement,
+                        _ => state.lambda,
+                    };
+                    if crossed || (progress - a.target).abs() <= 1e-12 * a.target.abs().max(1e-300) {
                         break 'path StopReason::TargetReached;
                     }
                     if let (Some(max_d), Some(p)) = (a.max_displacement, a.point) {
@@ -350,18 +414,96 @@ impl<'a> Tracer<'a> {
                     let singular = solve::refactor_at(sys, ws, &mut state, &mut rec).is_some();
                     add_records(&mut self.wasted, &rec);
                     ws.fresh = !singular;
-                    if cuts_this_step >= a.max_cutbacks || singular {
+                    if singular || !stepper.cut_back() {
                         last_failure = Some(failure);
                         break StopReason::NoConvergence;
                     }
-                    cuts_this_step += 1;
                     n_cutbacks += 1;
-                    successes_since_cut = 0;
-                    increment *= 0.5;
                 }
             }
         };
         Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks }
+    }
+}
+
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// δu_f = K⁻¹·f_ref with the current factor: the tangent direction of the path.
+fn tangent_direction(sys: &System, ws: &mut Workspace) -> Vec<f64> {
+    let mut du_f = sys.f_ref.clone();
+    ws.h.apply(&mut du_f);
+    du_f
+}
+
+/// Iterations a step should take; the next step length is scaled by the
+/// square root of desired over actual (Crisfield 1981), within bounds.
+pub const DESIRED_ITERATIONS: f64 = 4.0;
+
+/// The size of the next step (a load increment, a displacement increment or
+/// an arc length) and its adaptation.
+struct Stepper {
+    /// Current step size.
+    size: f64,
+    /// Smallest size allowed: the nominal size halved `max_cutbacks` times.
+    min_size: f64,
+    /// Largest size allowed.
+    max_size: f64,
+    adaptive: bool,
+    successes_since_cut: usize,
+    nominal: f64,
+    control_dof: Option<usize>,
+    normal_plane: bool,
+}
+
+impl Stepper {
+    fn new(a: &crate::model::Analysis, sys: &System, ws: &mut Workspace) -> Stepper {
+        let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
+        let nominal = match a.control {
+            Control::Load | Control::Displacement => a.target / a.steps.max(1) as f64,
+            Control::ArcLength => a.arc.unwrap_or_else(|| {
+                // No arc given: the displacement of the first load increment
+                // along the tangent.
+                let du_f = tangent_direction(sys, ws);
+                (a.target / a.steps.max(1) as f64).abs() * dot(&du_f, &du_f).sqrt()
+            }),
+        };
+        let cut = 0.5f64.powi(a.max_cutbacks as i32);
+        Stepper {
+            size: nominal,
+            min_size: nominal.abs() * cut * (1.0 - 1e-12),
+            max_size: if a.control == Control::ArcLength { 2.0 * nominal.abs() } else { nominal.abs() },
+            adaptive: a.control == Control::ArcLength,
+            successes_since_cut: 0,
+            nominal,
+            control_dof,
+            normal_plane: a.arc_variant_normal_plane,
+        }
+    }
+
+    /// Halves the step; false when it would fall below the smallest size.
+    fn cut_back(&mut self) -> bool {
+        self.successes_since_cut = 0;
+        let next = 0.5 * self.size;
+        if next.abs() < self.min_size {
+            return false;
+        }
+        self.size = next;
+        true
+    }
+
+    fn converged(&mut self, iterations: usize) {
+        self.successes_since_cut += 1;
+        if self.adaptive {
+            let ratio = (DESIRED_ITERATIONS / iterations.max(1) as f64).sqrt().clamp(0.5, 2.0);
+            let next = (self.size * ratio).abs().clamp(self.min_size, self.max_size);
+            self.size = next * self.size.signum();
+        } else if self.successes_since_cut >= 2 && self.size.abs() < self.nominal.abs() {
+            // Regrow a halved step after two good steps.
+            self.size = (2.0 * self.size).abs().min(self.nominal.abs()) * self.nominal.signum();
+            self.successes_since_cut = 0;
+        }
     }
 }
 

@@ -129,9 +129,6 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
         m.analysis.watch = watch;
     }
     let a = &m.analysis;
-    if a.control == Control::ArcLength {
-        return Err("control = \"arc-length\" is not available in this version; use \"load\" or \"displacement\"".into());
-    }
     if a.control == Control::Displacement {
         match a.point {
             None => return Err("displacement control needs a controlled point: set node and dir in [analysis]".into()),
