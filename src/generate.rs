@@ -1507,19 +1507,6 @@ mod tests {
         }
     }
 
-    /// Timing of a 500k-node net; run with `--ignored --nocapture`.
-    #[test]
-    #[ignore]
-    fn half_a_million_nodes() {
-        let o = small_net(708, 708);
-        let t0 = std::time::Instant::now();
-        let g = saddle_net(&o, "big").unwrap();
-        let dt = t0.elapsed();
-        let bytes = g.toml.len() + g.csv.iter().map(|c| c.1.len()).sum::<usize>();
-        println!("{} nodes: {dt:?}, {} MB", 708 * 708, bytes / 1_000_000);
-        assert_eq!(g.csv[0].1.lines().count(), 1 + 708 * 708);
-    }
-
     // -- numbers ------------------------------------------------------------
 
     #[test]

@@ -11,8 +11,8 @@
 //! (two applications of the same operator). H is the factorized tangent for
 //! Newton, the step's first tangent for modified Newton, and that factor plus
 //! secant updates for Broyden and BFGS ([`inverse`]). A [`RefactorPolicy`]
-//! says when the tangent is refactored. A backtracking line search on ‖r‖
-//! guards the quasi-Newton steps.
+//! says when the tangent is refactored. An energy line search guards the
+//! quasi-Newton steps.
 //!
 //! Convergence is a result, not an error: [`drive`] returns a
 //! [`Termination`]; only a broken invariant panics.
@@ -48,18 +48,21 @@ impl Default for RefactorPolicy {
     }
 }
 
-/// Backtracking line search on the residual norm.
+/// Energy line search: along the correction δu, make the residual nearly
+/// orthogonal to it.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct LineSearch {
     /// Trials beyond the full step; 0 switches the search off.
     pub max_trials: usize,
-    /// Accept α when ‖r(α)‖ ≤ (1 − c·α)·‖r(0)‖.
-    pub sufficient_decrease: f64,
+    /// Accept α when |δu·r(α)| ≤ ratio·|δu·r(0)|.
+    pub energy_ratio: f64,
 }
 
 impl LineSearch {
-    pub const OFF: LineSearch = LineSearch { max_trials: 0, sufficient_decrease: 1e-4 };
-    pub const DEFAULT: LineSearch = LineSearch { max_trials: 5, sufficient_decrease: 1e-4 };
+    pub const OFF: LineSearch = LineSearch { max_trials: 0, energy_ratio: 0.8 };
+    /// Matthies & Strang (1979) accept a ratio of 0.5; 0.8 asks for a trial
+    /// only where the full step clearly over- or undershoots.
+    pub const DEFAULT: LineSearch = LineSearch { max_trials: 5, energy_ratio: 0.8 };
 }
 
 /// Settings of one corrector.
@@ -218,6 +221,20 @@ fn relative(system: &System, norms: crate::assembly::system::ResidualNorms) -> f
     norms.residual / scale
 }
 
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// Residual at u + α·δu, λ + α·δλ into the workspace's trial buffers;
+/// returns the relative residual.
+fn trial_residual(system: &System, ws: &mut Workspace, state: &State, alpha: f64, dl: f64) -> f64 {
+    for ((t, u), d) in ws.trial_u.iter_mut().zip(&state.u).zip(&ws.du_r) {
+        *t = u + alpha * d;
+    }
+    let norms = system.residual(&ws.trial_u, state.lambda + alpha * dl, &mut ws.trial_r, &mut ws.trial_reactions);
+    relative(system, norms)
+}
+
 /// Evaluates residual and tangent at `state` and factorizes; returns the
 /// zero-pivot DOFs if the tangent is singular.
 pub fn refactor_at(system: &System, ws: &mut Workspace, state: &mut State, rec: &mut StepRecord) -> Option<Vec<usize>> {
@@ -290,39 +307,51 @@ pub fn drive(
         }
         // ws.du_r now holds the full correction δu.
 
-        // Line search on ‖r‖ along (δu, δλ).
-        let r0 = state.relative_residual;
+        // Energy line search along (δu, δλ): find α with the residual
+        // orthogonal to the direction, g(α) = δu·r(u + α·δu) ≈ 0, accepting
+        // |g(α)| ≤ η·|g(0)| (Matthies & Strang 1979; Crisfield 1991, §9.3).
+        // The full step is tried first; secant steps on g follow, bounded,
+        // and the trial with the smallest |g| is kept. Where g(0) ≥ 0 the
+        // direction does not lower the energy (an unstable state) and the
+        // full step is taken.
+        ws.r_prev.copy_from_slice(&state.r);
+        let g0 = dot(&ws.du_r, &state.r);
         let mut alpha = 1.0;
         let mut trials = 0;
-        let mut best: Option<(f64, f64)> = None;
-        ws.r_prev.copy_from_slice(&state.r);
+        let mut best: Option<(f64, f64, f64)> = None; // (α, |g|, relative residual)
+        let mut prev = (0.0, g0);
         loop {
-            for ((t, u), d) in ws.trial_u.iter_mut().zip(&state.u).zip(&ws.du_r) {
-                *t = u + alpha * d;
-            }
-            let lambda_t = state.lambda + alpha * dl;
-            let norms = system.residual(&ws.trial_u, lambda_t, &mut ws.trial_r, &mut ws.trial_reactions);
+            let rel = trial_residual(system, ws, state, alpha, dl);
             rec.residual_evaluations += 1;
-            let rel = relative(system, norms);
-            if best.is_none_or(|(_, b)| rel < b) {
-                best = Some((alpha, rel));
+            let g = dot(&ws.du_r, &ws.trial_r);
+            if rel.is_finite() && best.is_none_or(|(_, bg, _)| g.abs() < bg) {
+                best = Some((alpha, g.abs(), rel));
             }
-            let accept = rel.is_finite() && rel <= (1.0 - config.line_search.sufficient_decrease * alpha) * r0;
-            if accept || trials >= config.line_search.max_trials || r0 <= config.tolerance {
+            let searching = config.line_search.max_trials > 0 && g0 < 0.0 && state.relative_residual > config.tolerance;
+            let good = rel.is_finite() && g.abs() <= config.line_search.energy_ratio * g0.abs();
+            if !searching || good || trials >= config.line_search.max_trials {
+                if !rel.is_finite() && best.is_none() && alpha > 1e-3 && trials < 8 {
+                    // Overflow: shorten until the residual is finite.
+                    alpha *= 0.25;
+                    trials += 1;
+                    continue;
+                }
                 break;
             }
             trials += 1;
-            // Halve; a residual that grew a lot suggests a shorter step still.
-            alpha *= if rel > 4.0 * r0 { 0.25 } else { 0.5 };
+            // Secant on g through the last two trials, kept in [0.1, 2].
+            let (a0, ga) = prev;
+            let next = if (g - ga).abs() > 0.0 { alpha - g * (alpha - a0) / (g - ga) } else { 0.5 * alpha };
+            prev = (alpha, g);
+            alpha = if next.is_finite() { next.clamp(0.1, 2.0) } else { 0.5 * alpha };
         }
         rec.line_search_trials += trials;
-        let (alpha_best, rel_best) = best.expect("at least one trial");
+        let Some((alpha_best, _, rel_best)) = best else {
+            return (Termination::Diverged, rec);
+        };
         if alpha_best != alpha {
             alpha = alpha_best;
-            for ((t, u), d) in ws.trial_u.iter_mut().zip(&state.u).zip(&ws.du_r) {
-                *t = u + alpha * d;
-            }
-            system.residual(&ws.trial_u, state.lambda + alpha * dl, &mut ws.trial_r, &mut ws.trial_reactions);
+            trial_residual(system, ws, state, alpha, dl);
             rec.residual_evaluations += 1;
         }
         // Accept the step.
@@ -381,7 +410,7 @@ pub fn drive(
             rec.residual_history.push(state.relative_residual);
             return (Termination::Converged, rec);
         }
-        if state.relative_residual > 1e8 * r0.max(1.0) {
+        if state.relative_residual > 1e8 * rec.residual_history[0].max(1.0) {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Diverged, rec);
         }

@@ -27,6 +27,15 @@ pub enum Command {
         #[command(flatten)]
         overrides: Overrides,
     },
+    /// Write a parametric model file (saddle cable net or shallow lattice dome)
+    Generate {
+        #[command(subcommand)]
+        what: Generate,
+    },
+    /// Compare the correctors on generated saddle nets (wall time, factorizations, memory)
+    Bench(BenchArgs),
+    #[command(hide = true)]
+    BenchRun(BenchRunArgs),
     /// Solve the embedded demo model (a prestressed saddle net under snow)
     Demo {
         /// Output folder
@@ -65,4 +74,102 @@ pub struct Overrides {
     /// Watched displacement NODE.DIR (repeatable; replaces the model's watch list)
     #[arg(long = "watch", value_name = "NODE.DIR")]
     pub watch: Vec<String>,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Generate {
+    /// A pretensioned hyperbolic-paraboloid cable net; edge nodes fixed (or on springs),
+    /// a downward reference load on every free node, watching the centre node's z
+    Net {
+        /// Nodes along x
+        #[arg(long)]
+        nx: usize,
+        /// Nodes along y
+        #[arg(long)]
+        ny: usize,
+        /// Plan size along x, m
+        #[arg(long, default_value_t = 20.0)]
+        span_x: f64,
+        /// Plan size along y, m
+        #[arg(long, default_value_t = 20.0)]
+        span_y: f64,
+        /// Saddle height parameter, m
+        #[arg(long, default_value_t = 2.0)]
+        rise: f64,
+        /// Cable force density of the prestress, N/m
+        #[arg(long, default_value_t = 2000.0)]
+        force_density: f64,
+        /// Cable axial rigidity EA, N
+        #[arg(long, default_value_t = 2.0e7)]
+        ea: f64,
+        /// Downward reference load per free node, N
+        #[arg(long, default_value_t = 500.0, allow_negative_numbers = true)]
+        load: f64,
+        /// Hold the edge nodes by springs of this stiffness (N/m) instead of supports
+        #[arg(long, value_name = "K")]
+        elastic_edge: Option<f64>,
+        /// Write node and member tables to CSV files above this many nodes
+        #[arg(long, default_value_t = 2000)]
+        csv_threshold: usize,
+        /// Model file to write (CSV tables go beside it)
+        #[arg(short = 'o', long = "out", value_name = "FILE")]
+        out: PathBuf,
+    },
+    /// A shallow lattice dome of triangulated bars with a crown load, watching the crown's z
+    Dome {
+        /// Rings of nodes around the crown
+        #[arg(long)]
+        rings: usize,
+        /// Nodes per ring
+        #[arg(long)]
+        sectors: usize,
+        /// Plan radius, m
+        #[arg(long, default_value_t = 10.0)]
+        radius: f64,
+        /// Crown height above the supported ring, m
+        #[arg(long, default_value_t = 1.0)]
+        rise: f64,
+        /// Bar axial rigidity EA, N
+        #[arg(long, default_value_t = 1.0e8)]
+        ea: f64,
+        /// Downward reference load at the crown, N
+        #[arg(long, default_value_t = 1000.0, allow_negative_numbers = true)]
+        crown_load: f64,
+        /// Write node and member tables to CSV files above this many nodes
+        #[arg(long, default_value_t = 2000)]
+        csv_threshold: usize,
+        /// Model file to write (CSV tables go beside it)
+        #[arg(short = 'o', long = "out", value_name = "FILE")]
+        out: PathBuf,
+    },
+}
+
+#[derive(Args, Debug, Clone)]
+pub struct BenchArgs {
+    /// Approximate free DOF counts of the nets to run
+    #[arg(long, value_delimiter = ',', default_values_t = vec![10_000usize, 100_000, 300_000])]
+    pub dofs: Vec<usize>,
+    /// Correctors to compare
+    #[arg(long, value_delimiter = ',', default_values_t = vec!["newton".to_string(), "modified-newton".into(), "broyden".into(), "bfgs".into()])]
+    pub methods: Vec<String>,
+    /// Load steps of each path
+    #[arg(long, default_value_t = 10)]
+    pub steps: usize,
+    /// Relative residual tolerance
+    #[arg(long, default_value_t = 1e-8)]
+    pub tolerance: f64,
+    /// Reference load as a pressure on the plan, N/m² (each free node carries
+    /// its tributary area); 60 N/m² changes cable forces by well over 50 %
+    /// without slackening any cable of the default net
+    #[arg(long, default_value_t = 60.0)]
+    pub pressure: f64,
+}
+
+#[derive(Args, Debug, Clone)]
+pub struct BenchRunArgs {
+    pub model: PathBuf,
+    pub method: String,
+    pub steps: usize,
+    pub tolerance: f64,
+    pub u_out: PathBuf,
 }

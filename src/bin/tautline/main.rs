@@ -2,6 +2,7 @@
 //! → exit code. It knows nothing of mechanics.
 
 mod args;
+mod bench;
 mod run;
 
 use clap::Parser;

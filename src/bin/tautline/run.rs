@@ -1,6 +1,6 @@
 //! Resolved run settings and the calls into the library.
 
-use crate::args::{Cli, Command, Overrides};
+use crate::args::{Cli, Command, Generate, Overrides};
 use crate::exit;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
@@ -41,6 +41,9 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
             solve(&m, &out, Some(&model))
         }
+        Command::Generate { what } => generate(what),
+        Command::Bench(a) => crate::bench::bench(&a),
+        Command::BenchRun(a) => crate::bench::bench_run(&a),
         Command::Demo { out } => {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
@@ -260,4 +263,46 @@ fn print_run_summary(m: &Model, r: &results::Results) {
 fn results_load(m: &Model, lambda: f64) -> f64 {
     let t = m.total_reference_load();
     m.units.force_out(lambda * (t[0] * t[0] + t[1] * t[1] + t[2] * t[2]).sqrt())
+}
+
+fn generate(what: Generate) -> Result<u8, Failure> {
+    use tautline::generate::{DomeOptions, NetEdge, NetOptions, lattice_dome, saddle_net};
+    let (generated, out) = match what {
+        Generate::Net { nx, ny, span_x, span_y, rise, force_density, ea, load, elastic_edge, csv_threshold, out } => {
+            let edge = elastic_edge.map_or(NetEdge::Fixed, |k| NetEdge::Elastic { k });
+            let o = NetOptions { nx, ny, span_x, span_y, rise, force_density, ea, load, edge, csv_threshold };
+            (saddle_net(&o, &stem_of(&out)?), out)
+        }
+        Generate::Dome { rings, sectors, radius, rise, ea, crown_load, csv_threshold, out } => {
+            let o = DomeOptions { rings, sectors, radius, rise, ea, crown_load, csv_threshold };
+            (lattice_dome(&o, &stem_of(&out)?), out)
+        }
+    };
+    let g = generated.map_err(|e| Failure::BadInput(format!("generate: {e}")))?;
+    let dir = match out.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    if !dir.is_dir() {
+        return Err(Failure::BadInput(format!("{}: no such folder; create it first", dir.display())));
+    }
+    let file_name = out.file_name().map(|f| f.to_string_lossy().to_string()).unwrap_or_default();
+    let mut staged = report::Staged::default();
+    let io = |e: std::io::Error| Failure::Internal(anyhow::anyhow!("writing into {}: {e}", dir.display()));
+    staged.add(&dir, &file_name, g.toml.as_bytes()).map_err(io)?;
+    for (name, text) in &g.csv {
+        staged.add(&dir, name, text.as_bytes()).map_err(io)?;
+    }
+    let written = staged.commit().map_err(io)?;
+    println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
+    Ok(exit::DONE)
+}
+
+/// The file stem that names a generated model's CSV tables.
+fn stem_of(out: &Path) -> Result<String, Failure> {
+    let stem = out.file_stem().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+    if stem.is_empty() {
+        return Err(Failure::BadInput(format!("{}: give a file name to write, e.g. net.toml", out.display())));
+    }
+    Ok(stem)
 }

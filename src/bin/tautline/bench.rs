@@ -1,0 +1,185 @@
+//! `tautline bench`: the correctors compared on generated saddle nets.
+//!
+//! Each run is a child process (`tautline bench-run`), so its peak memory
+//! (VmHWM) is its own. The figures printed are wall time, numeric
+//! factorizations, corrector iterations, residual evaluations, peak memory,
+//! the time of one factorization of the initial tangent and the path's time
+//! as a multiple of it, the largest change of a cable force along the path,
+//! and the largest difference of the final displacements from Newton's.
+
+use crate::args::{BenchArgs, BenchRunArgs};
+use crate::run::Failure;
+use std::io::Write;
+use std::path::Path;
+use std::time::Instant;
+use tautline::assembly::System;
+use tautline::generate::{NetOptions, saddle_net};
+use tautline::linalg::Ldlt;
+use tautline::model::{self, Method};
+use tautline::observe::Silent;
+use tautline::path::Tracer;
+use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
+
+/// Peak resident memory of this process, bytes (Linux; 0 elsewhere).
+fn peak_memory() -> u64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|s| {
+            s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| {
+                l.split_whitespace().nth(1).and_then(|kb| kb.parse::<u64>().ok())
+            })
+        })
+        .map_or(0, |kb| kb * 1024)
+}
+
+/// One run, printed as one line of `key=value` pairs for the parent.
+pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
+    let mut m = model::load(&a.model).map_err(|e| Failure::BadInput(e.to_string()))?;
+    let method = Method::parse(&a.method).ok_or_else(|| Failure::BadInput(format!("unknown method {}", a.method)))?;
+    m.analysis.method = method;
+    m.analysis.steps = a.steps;
+    m.analysis.tolerance = a.tolerance;
+    m.analysis.max_steps = 10 * a.steps;
+    let system = System::new(&m).map_err(|e| Failure::BadInput(e.message))?;
+    let t_sym = Instant::now();
+    let ldlt = Ldlt::new(&system.pattern, faer::Par::rayon(0)).map_err(|e| Failure::Internal(e.into()))?;
+    let symbolic_s = t_sym.elapsed().as_secs_f64();
+    // One numeric factorization of the initial tangent, timed alone.
+    let mut ldlt = ldlt;
+    let mut k = system.new_tangent_values();
+    let u0 = vec![0.0; system.n_free()];
+    let mut r = vec![0.0; system.n_free()];
+    let mut react = vec![0.0; 3 * m.n_nodes()];
+    system.residual_and_tangent(&u0, 0.0, &mut r, &mut react, &mut k);
+    let t_fac = Instant::now();
+    ldlt.factorize(&system.pattern, &k);
+    let factor_s = t_fac.elapsed().as_secs_f64();
+    ldlt.n_factorizations = 0;
+    let f0: Vec<f64> = system.member_results(&u0).iter().map(|r| r.force).collect();
+
+    let corrector = CorrectorConfig::from_analysis(&m.analysis);
+    let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(&system, m.n_nodes(), h);
+    let t0 = Instant::now();
+    let mut tracer = Tracer::new(&system, &m, corrector);
+    let path = tracer.run(&mut ws, &mut Silent);
+    let seconds = t0.elapsed().as_secs_f64();
+    let (iters, facs, evals) = path.totals();
+    let w = &tracer.wasted;
+    let f1 = system.member_results(&path.final_state.u);
+    let max_change = f0
+        .iter()
+        .zip(&f1)
+        .filter(|(a, _)| **a > 0.0)
+        .map(|(a, b)| (b.force - a).abs() / a)
+        .fold(0.0, f64::max);
+    let bytes: Vec<u8> = path.final_state.u.iter().flat_map(|v| v.to_le_bytes()).collect();
+    std::fs::write(&a.u_out, bytes).map_err(|e| Failure::Internal(e.into()))?;
+    println!(
+        "dofs={} nnz={} factor_nnz={} stop={} seconds={seconds:.3} symbolic={symbolic_s:.3} factor={factor_s:.3} \
+         iterations={} factorizations={} evaluations={} max_force_change={max_change:.3} peak={}",
+        system.n_free(),
+        system.pattern.nnz(),
+        ws.h.ldlt.factor_nnz(),
+        path.stop.name(),
+        iters + w.iterations,
+        facs + w.factorizations,
+        evals + w.residual_evaluations,
+        peak_memory()
+    );
+    Ok(0)
+}
+
+fn field<'a>(line: &'a str, key: &str) -> &'a str {
+    line.split_whitespace()
+        .find_map(|kv| kv.strip_prefix(key).and_then(|r| r.strip_prefix('=')))
+        .unwrap_or("?")
+}
+
+fn read_u(path: &Path) -> Vec<f64> {
+    std::fs::read(path)
+        .unwrap_or_default()
+        .chunks_exact(8)
+        .map(|c| f64::from_le_bytes(c.try_into().expect("8 bytes")))
+        .collect()
+}
+
+pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
+    for m in &a.methods {
+        if Method::parse(m).is_none() {
+            return Err(Failure::BadInput(format!("--methods: unknown method {m}; expected {}", Method::NAMES.join(", "))));
+        }
+    }
+    let exe = std::env::current_exe().map_err(|e| Failure::Internal(e.into()))?;
+    let dir = std::env::temp_dir().join(format!("tautline-bench-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).map_err(|e| Failure::Internal(e.into()))?;
+    println!(
+        "{:>8} {:>16} {:>9} {:>6} {:>6} {:>6} {:>8} {:>8} {:>7} {:>9} {:>9}",
+        "DOF", "method", "time s", "facts", "iters", "evals", "peak MB", "1 fac s", "×fac", "ΔN max", "Δu/|u|"
+    );
+    for &target in &a.dofs {
+        // 3 free DOFs per interior node of an n × n net with fixed edges.
+        let n = ((target as f64 / 3.0).sqrt().round() as usize + 2).max(3);
+        let base = NetOptions::default();
+        let spacing = base.span_x / (n - 1) as f64;
+        let load = a.pressure * spacing * spacing;
+        let opts = NetOptions { nx: n, ny: n, load, csv_threshold: 0, ..base };
+        let g = saddle_net(&opts, "bench").map_err(Failure::BadInput)?;
+        let model_path = dir.join("bench.toml");
+        std::fs::write(&model_path, &g.toml).map_err(|e| Failure::Internal(e.into()))?;
+        for (name, text) in &g.csv {
+            std::fs::write(dir.join(name), text).map_err(|e| Failure::Internal(e.into()))?;
+        }
+        let mut reference: Option<Vec<f64>> = None;
+        for method in &a.methods {
+            let u_out = dir.join(format!("u-{method}.bin"));
+            let out = std::process::Command::new(&exe)
+                .arg("bench-run")
+                .arg(&model_path)
+                .arg(method)
+                .arg(a.steps.to_string())
+                .arg(a.tolerance.to_string())
+                .arg(&u_out)
+                .output()
+                .map_err(|e| Failure::Internal(e.into()))?;
+            let line = String::from_utf8_lossy(&out.stdout).to_string();
+            if !out.status.success() {
+                println!("{target:>8} {method:>16} failed: {}", String::from_utf8_lossy(&out.stderr).trim());
+                continue;
+            }
+            let u = read_u(&u_out);
+            let diff = match &reference {
+                None => {
+                    reference = Some(u);
+                    "ref".to_string()
+                }
+                Some(r) => {
+                    let scale = r.iter().map(|v| v.abs()).fold(0.0, f64::max);
+                    let d = r.iter().zip(&u).map(|(a, b)| (a - b).abs()).fold(0.0, f64::max);
+                    format!("{:.1e}", d / scale)
+                }
+            };
+            let secs: f64 = field(&line, "seconds").parse().unwrap_or(f64::NAN);
+            let fac: f64 = field(&line, "factor").parse().unwrap_or(f64::NAN);
+            let peak: f64 = field(&line, "peak").parse::<f64>().unwrap_or(0.0) / 1e6;
+            println!(
+                "{:>8} {:>16} {:>9.2} {:>6} {:>6} {:>6} {:>8.0} {:>8.3} {:>7.1} {:>9} {:>9}{}",
+                field(&line, "dofs"),
+                method,
+                secs,
+                field(&line, "factorizations"),
+                field(&line, "iterations"),
+                field(&line, "evaluations"),
+                peak,
+                fac,
+                secs / fac,
+                field(&line, "max_force_change"),
+                diff,
+                if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }
+            );
+            let _ = std::io::stdout().flush();
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    Ok(0)
+}
