@@ -651,3 +651,54 @@ fn displacements_are_written_in_model_units() {
         assert!(rel_diff(num(&b[l_mm]), 1e3 * num(&a[l_si])) < 1e-9, "{a:?} vs {b:?}");
     }
 }
+
+// -- generators --------------------------------------------------------------
+
+/// `generate net` writes a model that `check` accepts and that every corrector
+/// solves to the same centre deflection; above the CSV threshold the tables
+/// go to CSV files beside the TOML.
+#[test]
+fn generated_net_solves_with_every_method() {
+    let sc = Scratch::new("gen-net");
+    let model = sc.path("net.toml");
+    let r = tautline(&["generate", "net", "--nx", "7", "--ny", "6", "--load", "300", "--csv-threshold", "10", "-o", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(sc.path("net_nodes.csv").exists() && sc.path("net_members.csv").exists());
+    let r = tautline(&["check", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stdout.contains("nodes: 42"), "{r}");
+    let mut centre = Vec::new();
+    for method in ["newton", "modified-newton", "broyden", "broyden-bad", "bfgs"] {
+        let out = sc.path(&format!("out-{method}"));
+        let r = solve(&model, &out, &["--method", method]);
+        assert_eq!(r.code, 0, "{method}: {r}");
+        let res = json(&out.join("results.json"));
+        assert_eq!(res["analysis"]["method"], method);
+        let steps = res["steps"].as_array().unwrap();
+        centre.push(steps.last().unwrap()["point"].as_f64().unwrap());
+    }
+    assert!(centre[0] < 0.0, "the centre sinks: {centre:?}");
+    for c in &centre {
+        assert!(rel_diff(*c, centre[0]) < 1e-6, "{centre:?}");
+    }
+}
+
+/// `generate dome` writes a model whose crown is watched, and bad options are
+/// bad input (exit 2, nothing written).
+#[test]
+fn generated_dome_and_bad_generator_options() {
+    let sc = Scratch::new("gen-dome");
+    let model = sc.path("dome.toml");
+    let r = tautline(&["generate", "dome", "--rings", "2", "--sectors", "6", "-o", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    let out = sc.path("out");
+    let r = solve(&model, &out, &["--steps", "2"]);
+    assert_eq!(r.code, 0, "{r}");
+    let res = json(&out.join("results.json"));
+    assert_eq!(res["watch"][0], "C.z");
+    let bad = sc.path("bad.toml");
+    let r = tautline(&["generate", "net", "--nx", "2", "--ny", "5", "-o", s(&bad)]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("nx"), "{r}");
+    assert!(!bad.exists());
+}

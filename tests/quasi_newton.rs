@@ -173,3 +173,22 @@ fn divergence_guard_refactors_a_stale_tangent() {
     let unguarded = base(false);
     assert_eq!(unguarded.path.stop, StopReason::NoConvergence);
 }
+
+/// The optional displacement and energy criteria are read from `[analysis]`
+/// and only ever add iterations: a step converged under them is also
+/// converged under the residual test alone (common practice, no source).
+#[test]
+fn extra_convergence_criteria_are_read_and_tighten() {
+    let plain = trace(model(&CABLE.replace("tolerance = 1e-14", "tolerance = 1e-6")), Method::Bfgs);
+    let strict_text = CABLE.replace(
+        "tolerance = 1e-14",
+        "tolerance = 1e-6\ndisplacement_tolerance = 1e-10\nenergy_tolerance = 1e-16",
+    );
+    let m = model(&strict_text);
+    assert_eq!(m.analysis.displacement_tolerance, Some(1e-10));
+    assert_eq!(m.analysis.energy_tolerance, Some(1e-16));
+    let strict = trace(m, Method::Bfgs);
+    assert_eq!(strict.path.stop, StopReason::TargetReached);
+    let (ip, is) = (plain.path.points[1].record.iterations, strict.path.points[1].record.iterations);
+    assert!(is > ip, "strict criteria took {is} iterations, residual alone {ip}");
+}

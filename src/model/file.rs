@@ -117,6 +117,7 @@ pub struct AnalysisEntry {
     pub stall_ratio: Option<Spanned<f64>>,
     pub line_search: Option<Spanned<i64>>,
     pub displacement_tolerance: Option<Spanned<f64>>,
+    pub energy_tolerance: Option<Spanned<f64>>,
     pub arc_variant: Option<Spanned<String>>,
 }
 
@@ -256,6 +257,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("stall_ratio", "stall_ratio = 0.9"),
         key("line_search", "line_search = 5"),
         key("displacement_tolerance", "displacement_tolerance = 1e-6"),
+        key("energy_tolerance", "energy_tolerance = 1e-12"),
         key("arc_variant", "arc_variant = \"cylindrical\""),
     ],
 };

@@ -254,6 +254,8 @@ pub struct Analysis {
     pub line_search: Option<usize>,
     /// Optional displacement-increment criterion: ‖δu‖ ≤ this·‖Δu‖.
     pub displacement_tolerance: Option<f64>,
+    /// Optional energy criterion: |δu·r| ≤ this·(the step's first |δu·r|).
+    pub energy_tolerance: Option<f64>,
     /// Arc-length variant: Riks/Ramm normal plane instead of Crisfield's cylinder.
     pub arc_variant_normal_plane: bool,
 }
@@ -279,6 +281,7 @@ impl Default for Analysis {
             stall_ratio: 0.9,
             line_search: None,
             displacement_tolerance: None,
+            energy_tolerance: None,
             arc_variant_normal_plane: false,
         }
     }

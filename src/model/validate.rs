@@ -1223,6 +1223,12 @@ fn analysis(
             }
         }
     }
+    if let Some(v) = &e.energy_tolerance {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "energy_tolerance", Rule::Positive, "a small positive ratio, e.g. 1e-12") {
+            a.energy_tolerance = Some(x);
+        }
+    }
     if let Some(v) = &e.displacement_tolerance {
         let x = *v.get_ref();
         if check_number(cx, x, t.at(v), item, "displacement_tolerance", Rule::Positive, "a small positive ratio, e.g. 1e-6") {

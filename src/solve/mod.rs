@@ -74,6 +74,9 @@ pub struct CorrectorConfig {
     pub tolerance: f64,
     /// Optional: also require ‖δu‖ ≤ this·‖Δu‖ (displacement criterion).
     pub displacement_tolerance: Option<f64>,
+    /// Optional: also require |α·δu·r| ≤ this·|δu₁·r₀| (energy criterion,
+    /// relative to the first iteration's work).
+    pub energy_tolerance: Option<f64>,
     pub refactor: RefactorPolicy,
     pub line_search: LineSearch,
 }
@@ -91,6 +94,7 @@ impl CorrectorConfig {
             c.line_search.max_trials = trials;
         }
         c.displacement_tolerance = a.displacement_tolerance;
+        c.energy_tolerance = a.energy_tolerance;
         c
     }
 
@@ -106,6 +110,7 @@ impl CorrectorConfig {
             max_iterations,
             tolerance,
             displacement_tolerance: None,
+            energy_tolerance: None,
             refactor: RefactorPolicy::default(),
             line_search,
         }
@@ -265,6 +270,7 @@ pub fn drive(
     let mut rec = StepRecord::default();
     let newton = config.method == Method::Newton;
     let mut delta_u: Vec<f64> = state.u.iter().zip(step_start_u).map(|(a, b)| a - b).collect();
+    let mut energy_scale: Option<f64> = None;
     // The tangent at the last converged state is the step-start tangent.
     let mut need_factor = !ws.h.ldlt.is_factored() || (config.refactor.at_step_start && !ws.fresh);
     ws.fresh = false;
@@ -373,6 +379,13 @@ pub fn drive(
             Some(tol) => step_norm <= tol * delta_u.iter().map(|v| v * v).sum::<f64>().sqrt().max(f64::MIN_POSITIVE),
             None => true,
         };
+        // Work of this correction against the residual it started from.
+        let energy = (alpha * g0).abs();
+        let first_energy = *energy_scale.get_or_insert(energy);
+        let energy_ok = match config.energy_tolerance {
+            Some(tol) => energy <= tol * first_energy.max(f64::MIN_POSITIVE),
+            None => true,
+        };
 
         // Secant pair: s = α·δu, y = Δf_int = Δr + Δλ·f_ref.
         if newton {
@@ -406,7 +419,7 @@ pub fn drive(
             rec.residual_history.push(state.relative_residual);
             return (Termination::Stopped, rec);
         }
-        if state.relative_residual <= config.tolerance && disp_ok {
+        if state.relative_residual <= config.tolerance && disp_ok && energy_ok {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Converged, rec);
         }
