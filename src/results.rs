@@ -61,6 +61,9 @@ pub struct StepOut {
     /// Relative residual at convergence.
     pub residual: f64,
     pub negative_pivots: usize,
+    /// False when the pivot count was carried over from an earlier
+    /// factorization (`stability_check = "on-refactor"`).
+    pub pivots_checked: bool,
     /// Displacement of the controlled point, model length units.
     pub point: f64,
     /// Displacements of the watched DOFs, in `watch` order, model length units.
@@ -239,6 +242,7 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             line_search_trials: p.record.line_search_trials,
             residual: p.relative_residual,
             negative_pivots: p.negative_pivots,
+            pivots_checked: p.pivots_checked,
             point: len(p.point),
             watched: p.watched.iter().map(|v| len(*v)).collect(),
             residual_history: p.record.residual_history.clone(),

@@ -119,6 +119,7 @@ pub struct AnalysisEntry {
     pub displacement_tolerance: Option<Spanned<f64>>,
     pub energy_tolerance: Option<Spanned<f64>>,
     pub arc_variant: Option<Spanned<String>>,
+    pub stability_check: Option<Spanned<String>>,
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -259,6 +260,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("displacement_tolerance", "displacement_tolerance = 1e-6"),
         key("energy_tolerance", "energy_tolerance = 1e-12"),
         key("arc_variant", "arc_variant = \"cylindrical\""),
+        key("stability_check", "stability_check = \"every-step\""),
     ],
 };
 

@@ -256,6 +256,9 @@ pub struct Analysis {
     pub displacement_tolerance: Option<f64>,
     /// Optional energy criterion: |δu·r| ≤ this·(the step's first |δu·r|).
     pub energy_tolerance: Option<f64>,
+    /// Factor the tangent at every converged state to count its negative
+    /// pivots (stability); false: only when the corrector refactors anyway.
+    pub stability_each_step: bool,
     /// Arc-length variant: Riks/Ramm normal plane instead of Crisfield's cylinder.
     pub arc_variant_normal_plane: bool,
 }
@@ -283,6 +286,7 @@ impl Default for Analysis {
             displacement_tolerance: None,
             energy_tolerance: None,
             arc_variant_normal_plane: false,
+            stability_each_step: true,
         }
     }
 }

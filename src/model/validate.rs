@@ -1195,6 +1195,14 @@ fn analysis(
         )
         .unwrap_or(a.max_cutbacks);
     }
+    let checks = ["every-step", "on-refactor"];
+    if let Some(each) = choice(cx, t, &e.stability_check, "stability_check", &checks, |s| match s {
+        "every-step" => Some(true),
+        "on-refactor" => Some(false),
+        _ => None,
+    }) {
+        a.stability_each_step = each;
+    }
     let variants = ["cylindrical", "normal-plane"];
     if let Some(normal) = choice(cx, t, &e.arc_variant, "arc_variant", &variants, |s| match s {
         "cylindrical" => Some(false),

@@ -66,6 +66,9 @@ pub struct PathPoint {
     pub relative_residual: f64,
     /// Negative pivots of the tangent at this state.
     pub negative_pivots: usize,
+    /// Whether `negative_pivots` was counted at this state (false: carried
+    /// over from an earlier factorization).
+    pub pivots_checked: bool,
 }
 
 /// Directions free to move without resistance.
@@ -178,6 +181,7 @@ impl<'a> Tracer<'a> {
             record,
             relative_residual: state.relative_residual,
             negative_pivots,
+            pivots_checked: true,
         }
     }
 
@@ -355,10 +359,15 @@ impl<'a> Tracer<'a> {
                     }
                     // The tangent at the converged state: its inertia, and the
                     // step-start factor of the next step.
-                    let singular = solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
+                    // With `stability_check = "on-refactor"` the quasi-Newton
+                    // correctors skip it and carry their factor on; the count
+                    // is then that of the last factorization.
+                    let check = a.stability_each_step || a.method == crate::model::Method::Newton;
+                    let singular = check && solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
                     let neg = ws.h.inertia.negative;
-                    ws.fresh = !singular;
-                    let point = self.make_point(&state, step, record, neg);
+                    ws.fresh = check && !singular;
+                    let mut point = self.make_point(&state, step, record, neg);
+                    point.pivots_checked = check;
                     let ev = StepEvent {
                         step,
                         lambda: state.lambda,

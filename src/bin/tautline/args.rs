@@ -158,6 +158,11 @@ pub struct BenchArgs {
     /// Relative residual tolerance
     #[arg(long, default_value_t = 1e-8)]
     pub tolerance: f64,
+    /// Keep the quasi-Newton correctors' step-start refactorization and
+    /// per-step stability check (by default they carry their factor across
+    /// steps and count pivots only when they refactor)
+    #[arg(long)]
+    pub check_every_step: bool,
     /// Reference load as a pressure on the plan, N/m² (each free node carries
     /// its tributary area); 60 N/m² changes cable forces by well over 50 %
     /// without slackening any cable of the default net
@@ -172,4 +177,6 @@ pub struct BenchRunArgs {
     pub steps: usize,
     pub tolerance: f64,
     pub u_out: PathBuf,
+    #[arg(long)]
+    pub check_every_step: bool,
 }

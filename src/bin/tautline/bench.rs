@@ -40,6 +40,12 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     m.analysis.steps = a.steps;
     m.analysis.tolerance = a.tolerance;
     m.analysis.max_steps = 10 * a.steps;
+    if method != Method::Newton && !a.check_every_step {
+        // The lean quasi-Newton set-up: one factor carried across steps,
+        // refactored only by the policy's guards.
+        m.analysis.refactor_each_step = false;
+        m.analysis.stability_each_step = false;
+    }
     let system = System::new(&m).map_err(|e| Failure::BadInput(e.message))?;
     let t_sym = Instant::now();
     let ldlt = Ldlt::new(&system.pattern, faer::Par::rayon(0)).map_err(|e| Failure::Internal(e.into()))?;
@@ -133,8 +139,13 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
         let mut reference: Option<Vec<f64>> = None;
         for method in &a.methods {
             let u_out = dir.join(format!("u-{method}.bin"));
-            let out = std::process::Command::new(&exe)
-                .arg("bench-run")
+            let mut cmd = std::process::Command::new(&exe);
+            if a.check_every_step {
+                cmd.arg("bench-run").arg("--check-every-step");
+            } else {
+                cmd.arg("bench-run");
+            }
+            let out = cmd
                 .arg(&model_path)
                 .arg(method)
                 .arg(a.steps.to_string())
