@@ -83,6 +83,14 @@ pub struct CriticalPoint {
     pub step: usize,
     pub negative_pivots_before: usize,
     pub negative_pivots_after: usize,
+    /// Whether the point was pinpointed by bisection (else: between two steps).
+    pub pinpointed: bool,
+    /// Watched displacements at the point, model length units.
+    pub watched: Vec<f64>,
+    /// "NODE.DIR" entries with the largest share of the critical mode.
+    pub mode: Vec<String>,
+    /// |φ·f_ref|/(‖φ‖‖f_ref‖): near 1 at a limit point, near 0 at a bifurcation.
+    pub mode_load_alignment: Option<f64>,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -175,6 +183,7 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 Termination::MaxIterations => "the corrector ran out of iterations".into(),
                 Termination::Diverged => "the iterations diverged".into(),
                 Termination::ConstraintFailed => "the path constraint had no solution".into(),
+                Termination::Jumped => "the step jumped to a distant equilibrium (the structure snaps through here)".into(),
                 Termination::Converged | Termination::Stopped => "unknown".into(),
             };
             let hint = match model.analysis.control {
@@ -215,6 +224,10 @@ pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
         let turns = |x: Option<f64>| x.is_some_and(|x| x * d_before < 0.0);
         let kind = if turns(d_after) || turns(previous) { "limit" } else { "bifurcation" };
         out.push(CriticalPoint {
+            pinpointed: false,
+            watched: b.watched.clone(),
+            mode: Vec::new(),
+            mode_load_alignment: None,
             kind: kind.into(),
             load_factor: if kind == "limit" { a.lambda.abs().max(b.lambda.abs()) * b.lambda.signum() } else { 0.5 * (a.lambda + b.lambda) },
             step: b.step,
@@ -321,7 +334,30 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
         },
         watch: a.watch.iter().map(|w| model.node_dir_label(*w)).collect(),
         steps,
-        critical_points: critical_points(path),
+        critical_points: if path.critical.is_empty() {
+            critical_points(path).into_iter().map(|mut c| {
+                c.watched.iter_mut().for_each(|v| *v = len(*v));
+                c
+            }).collect()
+        } else {
+            path.critical
+                .iter()
+                .map(|c| CriticalPoint {
+                    kind: match c.kind {
+                        crate::path::CriticalKind::Limit => "limit".into(),
+                        crate::path::CriticalKind::Bifurcation => "bifurcation".into(),
+                    },
+                    load_factor: c.lambda,
+                    step: c.step,
+                    negative_pivots_before: c.pivots.0,
+                    negative_pivots_after: c.pivots.1,
+                    pinpointed: true,
+                    watched: c.watched.iter().map(|v| len(*v)).collect(),
+                    mode: c.mode.iter().map(|nd| model.node_dir_label(*nd)).collect(),
+                    mode_load_alignment: Some(c.mode_load_alignment),
+                })
+                .collect()
+        },
         reactions,
         equilibrium,
         slack_members,

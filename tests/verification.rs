@@ -2,7 +2,6 @@
 //! Each test names its source, the quantity compared and why the tolerance.
 
 use crate::common::*;
-use tautline::model::Method;
 use tautline::path::StopReason;
 
 /// Two-bar arch of VERIFICATION case 1: half-span b = 5 m, rise h = 1 m,
@@ -323,4 +322,55 @@ tolerance = 1e-12
         let e = rel_err(forces[m].force, f_ref, 1.0);
         assert!(e < 1e-6, "{id}: {} vs {f_ref}", forces[m].force);
     }
+}
+
+/// Arc-length control (Crisfield 1981, cylindrical; and the Riks/Ramm
+/// normal-plane variant) traces the arch from rest through the limit point,
+/// down the unstable branch and back up the inverted branch to λ = 1.2·P_lim
+/// beyond inversion. Every converged point satisfies the closed form within
+/// 1e-8 of the limit load; the pinpointed limit load and crown deflection
+/// equal the closed form (Bažant & Cedolin 1991, eq. 4.4.5; Green-Lagrange
+/// derived) within 1e-6; both strain measures, every corrector.
+#[test]
+fn arch_arc_length_through_snap_through() {
+    for green in [true, false] {
+        let strain = if green { "green" } else { "engineering" };
+        let (p_lim, w_lim) = arch_limit(green);
+        for variant in ["cylindrical", "normal-plane"] {
+            for method in ALL_METHODS {
+                let text = arch_model(strain, "arc-length", p_lim, 10, 1.2)
+                    .replace("[analysis]", &format!("[analysis]\narc = 0.05\narc_variant = \"{variant}\""));
+                let run = trace(model(&text), method);
+                let tag = format!("{strain} {variant} {method:?}");
+                assert_eq!(run.path.stop, StopReason::TargetReached, "{tag}: {:?}", run.path.last_failure);
+                let last = run.path.points.last().unwrap();
+                assert!((last.lambda - 1.2).abs() < 1e-9, "{tag}: ended at λ = {}", last.lambda);
+                assert!(-last.point > 2.0 * H, "{tag}: ends past inversion, w = {}", -last.point);
+                for pt in &run.path.points {
+                    let w = -pt.point;
+                    let e = (pt.lambda * p_lim - arch_load(w, green)).abs() / p_lim;
+                    assert!(e < 1e-8, "{tag} w = {w}: error {e:e}");
+                }
+                let limits: Vec<_> = run.path.critical.iter().filter(|c| c.kind == tautline::path::CriticalKind::Limit).collect();
+                assert_eq!(limits.len(), 2, "{tag}: {:?}", run.path.critical);
+                let first = limits[0];
+                assert!(rel_err(first.lambda, 1.0, 1.0) < 1e-6, "{tag}: limit λ = {}", first.lambda);
+                assert!(rel_err(-first.watched[0], w_lim, 1.0) < 1e-6, "{tag}: limit w = {}", -first.watched[0]);
+                // The second limit point is the minimum of the unstable branch: −P_lim.
+                assert!(rel_err(limits[1].lambda, -1.0, 1.0) < 1e-6, "{tag}: {}", limits[1].lambda);
+            }
+        }
+    }
+}
+
+/// Under load control the arch cannot pass its limit point: loaded towards
+/// 1.5·P_lim, the run stops cleanly short of the target with the last
+/// converged load below the limit load (Bažant & Cedolin 1991, §4.4).
+#[test]
+fn arch_load_control_stops_at_the_limit_point() {
+    let (p_lim, _) = arch_limit(false);
+    let run = solve_text(&arch_model("engineering", "load", p_lim, 10, 1.5));
+    assert_eq!(run.path.stop, StopReason::NoConvergence);
+    let last = run.path.points.last().unwrap().lambda;
+    assert!(last <= 1.0 + 1e-9 && last > 0.9, "last converged λ = {last}");
 }

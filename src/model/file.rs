@@ -120,6 +120,7 @@ pub struct AnalysisEntry {
     pub energy_tolerance: Option<Spanned<f64>>,
     pub arc_variant: Option<Spanned<String>>,
     pub stability_check: Option<Spanned<String>>,
+    pub pinpoint: Option<Spanned<bool>>,
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -261,6 +262,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("energy_tolerance", "energy_tolerance = 1e-12"),
         key("arc_variant", "arc_variant = \"cylindrical\""),
         key("stability_check", "stability_check = \"every-step\""),
+        key("pinpoint", "pinpoint = true"),
     ],
 };
 

@@ -259,6 +259,8 @@ pub struct Analysis {
     /// Factor the tangent at every converged state to count its negative
     /// pivots (stability); false: only when the corrector refactors anyway.
     pub stability_each_step: bool,
+    /// Pinpoint critical points by bisection when the pivot count changes.
+    pub pinpoint: bool,
     /// Arc-length variant: Riks/Ramm normal plane instead of Crisfield's cylinder.
     pub arc_variant_normal_plane: bool,
 }
@@ -287,6 +289,7 @@ impl Default for Analysis {
             energy_tolerance: None,
             arc_variant_normal_plane: false,
             stability_each_step: true,
+            pinpoint: true,
         }
     }
 }

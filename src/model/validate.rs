@@ -1195,6 +1195,9 @@ fn analysis(
         )
         .unwrap_or(a.max_cutbacks);
     }
+    if let Some(v) = &e.pinpoint {
+        a.pinpoint = *v.get_ref();
+    }
     let checks = ["every-step", "on-refactor"];
     if let Some(each) = choice(cx, t, &e.stability_check, "stability_check", &checks, |s| match s {
         "every-step" => Some(true),

@@ -91,7 +91,47 @@ pub struct Path {
     /// What the last failed step was doing, for the stop message.
     pub last_failure: Option<Failure>,
     pub n_cutbacks: usize,
+    /// Critical points pinpointed along the path.
+    pub critical: Vec<Critical>,
 }
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum CriticalKind {
+    /// The load factor has an extremum: snap-through under load control.
+    Limit,
+    /// The path branches while the load can still rise.
+    Bifurcation,
+}
+
+/// A state where the tangent's negative pivot count changes, found by
+/// bisection of the step in which it changed.
+#[derive(Clone, Debug)]
+pub struct Critical {
+    pub kind: CriticalKind,
+    pub lambda: f64,
+    /// First converged step past the point.
+    pub step: usize,
+    /// Watched displacements at the point, m.
+    pub watched: Vec<f64>,
+    /// Node directions with the largest share of the critical mode.
+    pub mode: Vec<NodeDir>,
+    /// |φ·f_ref| / (‖φ‖·‖f_ref‖) of the mode φ: near 1 at a limit point,
+    /// near 0 at a bifurcation.
+    pub mode_load_alignment: f64,
+    /// Negative pivots before and after.
+    pub pivots: (usize, usize),
+    /// Bisections done, and the arc length still bracketing the point, m.
+    pub bisections: usize,
+    pub bracket: f64,
+}
+
+/// A mode is taken as orthogonal to the load (a bifurcation) below this
+/// alignment. The null vector of a limit point carries load; that of a
+/// symmetric bifurcation is orthogonal to it (common practice, no source).
+pub const BIFURCATION_ALIGNMENT: f64 = 1e-3;
+
+/// Largest number of bisections when pinpointing a critical point.
+pub const MAX_BISECTIONS: usize = 60;
 
 /// A step that failed for good.
 #[derive(Clone, Debug)]
@@ -214,6 +254,96 @@ impl<'a> Tracer<'a> {
         }
     }
 
+    /// Bisects the step from state A (u, λ, negative pivots) to the converged
+    /// state B in which the pivot count changed: arc-length sub-steps from A
+    /// of half the bracketing length, keeping the half whose ends differ in
+    /// count, until the bracket is below 1e-9 of the step (or no sub-step
+    /// converges). The critical mode φ comes from inverse iteration with the
+    /// factorization at the end of the bracket, and the kind from φ's
+    /// alignment with the reference load.
+    fn pinpoint(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, observer: &mut dyn Observer) -> Critical {
+        let sys = self.system;
+        let (ua, la, na) = a_state;
+        let (mut ua, mut la) = (ua.to_vec(), la);
+        let (mut ub, mut lb, mut nb) = (b.u.clone(), b.lambda, ws.h.inertia.negative);
+        let dist = |x: &[f64], y: &[f64]| x.iter().zip(y).map(|(p, q)| (p - q) * (p - q)).sum::<f64>().sqrt();
+        let full = dist(&ua, &ub);
+        let mut bisections = 0;
+        let mut st = b.clone();
+        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > 1e-9 * full {
+            let half = 0.5 * dist(&ua, &ub);
+            // Predictor halfway along the chord, corrected on the cylinder of
+            // radius `half` around A.
+            for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
+                *u = 0.5 * (a + b);
+            }
+            st.lambda = 0.5 * (la + lb);
+            ws.fresh = false;
+            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: half }, &self.corrector, 0, observer);
+            add_records(&mut self.wasted, &rec);
+            if term != Termination::Converged {
+                break;
+            }
+            let mut rec = StepRecord::default();
+            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            add_records(&mut self.wasted, &rec);
+            bisections += 1;
+            if singular {
+                // Exactly on the critical state.
+                ua.clone_from(&st.u);
+                ub.clone_from(&st.u);
+                la = st.lambda;
+                lb = st.lambda;
+                break;
+            }
+            if ws.h.inertia.negative == na {
+                ua.clone_from(&st.u);
+                la = st.lambda;
+            } else {
+                ub.clone_from(&st.u);
+                lb = st.lambda;
+                nb = ws.h.inertia.negative;
+            }
+        }
+        // Mode: inverse iteration with the (regularized) factor at B.
+        st.u.clone_from(&ub);
+        st.lambda = lb;
+        let mut k = sys.new_tangent_values();
+        let mut r = vec![0.0; sys.n_free()];
+        let mut react = vec![0.0; st.reactions.len()];
+        sys.residual_and_tangent(&st.u, st.lambda, &mut r, &mut react, &mut k);
+        ws.h.ldlt.factorize_regularized(&sys.pattern, &k);
+        self.wasted.factorizations += 1;
+        let n = sys.n_free();
+        let mut phi: Vec<f64> = (0..n).map(|i| 1.0 + ((i * 7919) % 13) as f64 * 0.01).collect();
+        for _ in 0..4 {
+            ws.h.ldlt.solve_in_place(&mut phi);
+            let norm = phi.iter().map(|v| v * v).sum::<f64>().sqrt();
+            if !(norm > 0.0 && norm.is_finite()) {
+                break;
+            }
+            phi.iter_mut().for_each(|v| *v /= norm);
+        }
+        let f_norm = sys.f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
+        let alignment = (dot(&phi, &sys.f_ref) / f_norm.max(f64::MIN_POSITIVE)).abs();
+        let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
+        let mut big: Vec<(f64, usize)> = phi.iter().enumerate().filter(|(_, v)| v.abs() >= 0.5 * max).map(|(i, v)| (v.abs(), i)).collect();
+        big.sort_by(|x, y| y.0.total_cmp(&x.0));
+        big.truncate(8);
+        let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
+        Critical {
+            kind: if alignment < BIFURCATION_ALIGNMENT { CriticalKind::Bifurcation } else { CriticalKind::Limit },
+            lambda: 0.5 * (la + lb),
+            step: 0,
+            watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
+            mode: big.into_iter().map(|(_, d)| sys.dofs.owner(d)).collect(),
+            mode_load_alignment: alignment,
+            pivots: (na, nb),
+            bisections,
+            bracket: dist(&ua, &ub),
+        }
+    }
+
     /// Runs the analysis of the model's `[analysis]` table.
     pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> Path {
         let a = self.model.analysis.clone();
@@ -237,6 +367,7 @@ impl<'a> Tracer<'a> {
                 mechanism: Some(Mechanism { moving, lambda: 0.0 }),
                 last_failure: None,
                 n_cutbacks,
+                critical: Vec::new(),
             };
         }
         ws.fresh = true;
@@ -265,6 +396,7 @@ impl<'a> Tracer<'a> {
                     mechanism: None,
                     last_failure: Some(failure),
                     n_cutbacks,
+                    critical: Vec::new(),
                 };
             }
             ws.fresh = true;
@@ -274,6 +406,8 @@ impl<'a> Tracer<'a> {
 
         let mut stepper = Stepper::new(&a, sys, ws);
         let mut last_increment: Vec<f64> = Vec::new();
+        let mut critical: Vec<Critical> = Vec::new();
+        let mut last_load_increment = 1.0;
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -345,6 +479,18 @@ impl<'a> Tracer<'a> {
                 }
             };
 
+            // Under load control a step past a limit point can converge on a
+            // distant branch (the snap itself): an increment far larger than
+            // the last one, for the load increment, is rejected as a jump.
+            let term = match (&term, a.control) {
+                (Termination::Converged, Control::Load) if !last_increment.is_empty() => {
+                    let now = dot_dist(&state.u, &start_u);
+                    let before = dot(&last_increment, &last_increment).sqrt();
+                    let load_ratio = ((state.lambda - start_lambda) / last_load_increment).abs();
+                    if now > JUMP_RATIO * before * load_ratio.max(1e-3) { Termination::Jumped } else { term }
+                }
+                _ => term,
+            };
             match term {
                 Termination::Converged => {
                     let mut record = record;
@@ -375,8 +521,23 @@ impl<'a> Tracer<'a> {
                         point_displacement: point.point,
                         negative_pivots: neg,
                     };
+                    let before = points.last().map(|p: &PathPoint| (p.negative_pivots, p.pivots_checked));
+                    let pinpoint = a.pinpoint && check && !singular;
+                    if let (true, Some((n_before, true))) = (pinpoint, before) {
+                        if n_before != neg {
+                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, observer);
+                            c.step = step;
+                            critical.push(c);
+                            // Back to the factor of the converged state.
+                            let mut rec = StepRecord::default();
+                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            add_records(&mut self.wasted, &rec);
+                            ws.fresh = true;
+                        }
+                    }
                     points.push(point);
                     last_increment = state.u.iter().zip(&start_u).map(|(a, b)| a - b).collect();
+                    last_load_increment = state.lambda - start_lambda;
                     stepper.converged(iterations);
                     if singular {
                         let moving = find_mechanism(sys, ws, &state);
@@ -431,8 +592,17 @@ impl<'a> Tracer<'a> {
                 }
             }
         };
-        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks }
+        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical }
     }
+}
+
+/// A load-control step whose displacement increment exceeds this multiple of
+/// the previous one (scaled by the load increments) is taken as a jump to a
+/// distant branch and cut back.
+pub const JUMP_RATIO: f64 = 10.0;
+
+fn dot_dist(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum::<f64>().sqrt()
 }
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {

@@ -147,6 +147,9 @@ pub enum Termination {
     ConstraintFailed,
     /// An observer asked to stop.
     Stopped,
+    /// Path level: the step converged on an equilibrium far from where it
+    /// started (a snap under load control) and was rejected.
+    Jumped,
 }
 
 /// The record of one corrector run.
