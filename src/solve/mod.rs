@@ -123,6 +123,12 @@ pub trait Constraint {
     /// increments of the step so far. None when the constraint cannot be met
     /// (e.g. no real root of the arc-length quadratic).
     fn load_correction(&self, du_r: &[f64], du_f: &[f64], delta_u: &[f64], delta_lambda: f64) -> Option<f64>;
+
+    /// Whether the constraint needs δu_f = H·f_ref; a fixed load does not,
+    /// which saves one solve per iteration.
+    fn needs_load_direction(&self) -> bool {
+        true
+    }
 }
 
 /// Load control: λ stays where the step put it.
@@ -131,6 +137,10 @@ pub struct FixedLoad;
 impl Constraint for FixedLoad {
     fn load_correction(&self, _: &[f64], _: &[f64], _: &[f64], _: f64) -> Option<f64> {
         Some(0.0)
+    }
+
+    fn needs_load_direction(&self) -> bool {
+        false
     }
 }
 
@@ -306,13 +316,17 @@ pub fn drive(
         // δu_r = −H r, δu_f = H f_ref.
         ws.du_r.iter_mut().zip(&state.r).for_each(|(d, r)| *d = -r);
         ws.h.apply(&mut ws.du_r);
-        ws.du_f.copy_from_slice(&system.f_ref);
-        ws.h.apply(&mut ws.du_f);
+        if constraint.needs_load_direction() {
+            ws.du_f.copy_from_slice(&system.f_ref);
+            ws.h.apply(&mut ws.du_f);
+        }
         let Some(dl) = constraint.load_correction(&ws.du_r, &ws.du_f, &delta_u, state.lambda - step_start_lambda) else {
             return (Termination::ConstraintFailed, rec);
         };
-        for (dr, df) in ws.du_r.iter_mut().zip(&ws.du_f) {
-            *dr += dl * df;
+        if dl != 0.0 {
+            for (dr, df) in ws.du_r.iter_mut().zip(&ws.du_f) {
+                *dr += dl * df;
+            }
         }
         // ws.du_r now holds the full correction δu.
 
