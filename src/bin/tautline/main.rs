@@ -23,7 +23,9 @@ fn main() -> ExitCode {
         Ok(code) => code,
         Err(run::Failure::BadInput(msg)) => {
             eprintln!("{msg}");
-            eprintln!("nothing was written");
+            if !msg.contains("nothing was written") {
+                eprintln!("nothing was written");
+            }
             exit::BAD_INPUT
         }
         Err(run::Failure::Internal(e)) => {
