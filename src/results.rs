@@ -183,7 +183,7 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 Termination::MaxIterations => "the corrector ran out of iterations".into(),
                 Termination::Diverged => "the iterations diverged".into(),
                 Termination::ConstraintFailed => "the path constraint had no solution".into(),
-                Termination::Jumped => "the step jumped to a distant equilibrium (the structure snaps through here)".into(),
+                Termination::Jumped => "the step jumped to a distant part of the path (the structure snaps through here) or turned back on it".into(),
                 Termination::Converged | Termination::Stopped => "unknown".into(),
             };
             let hint = match model.analysis.control {

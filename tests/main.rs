@@ -6,4 +6,5 @@ mod common;
 mod cli;
 mod properties;
 mod quasi_newton;
+mod stability;
 mod verification;

@@ -31,7 +31,7 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 ///
 /// Of the two roots the one whose new increment makes the smaller angle with
 /// the increment so far is taken (largest Δu·Δu_new), which keeps the path
-/// from doubling back. No real root: the step is cut back.
+/// from doubling back. With no real root the closest point is taken.
 ///
 /// M. A. Crisfield, "A fast incremental/iterative solution procedure that
 /// handles snap-through", Computers & Structures 13 (1981).
@@ -46,8 +46,15 @@ impl Constraint for Cylindrical {
         let b = 2.0 * dot(du_f, &w);
         let c = dot(&w, &w) - self.arc * self.arc;
         let disc = b * b - 4.0 * a * c;
-        if !(a > 0.0) || !(disc >= 0.0) {
+        if !(a > 0.0) || disc.is_nan() {
             return None;
+        }
+        if disc < 0.0 {
+            // No real root (sharp turns of the path, e.g. snap-back): take
+            // the δλ that comes closest to the cylinder, −b/2a; the next
+            // iterations restore the constraint (common practice, no source).
+            let dl = -b / (2.0 * a);
+            return dl.is_finite().then_some(dl);
         }
         // Numerically stable pair of roots.
         let q = -0.5 * (b + b.signum() * disc.sqrt());

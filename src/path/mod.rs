@@ -489,6 +489,13 @@ impl<'a> Tracer<'a> {
                     let load_ratio = ((state.lambda - start_lambda) / last_load_increment).abs();
                     if now > JUMP_RATIO * before * load_ratio.max(1e-3) { Termination::Jumped } else { term }
                 }
+                // Under arc-length control the cylinder meets the path behind
+                // the start as well as ahead: an increment at an obtuse angle
+                // to the last one has turned back and is cut back.
+                (Termination::Converged, Control::ArcLength) if !last_increment.is_empty() => {
+                    let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
+                    if turned { Termination::Jumped } else { term }
+                }
                 _ => term,
             };
             match term {
@@ -599,7 +606,7 @@ impl<'a> Tracer<'a> {
 /// A load-control step whose displacement increment exceeds this multiple of
 /// the previous one (scaled by the load increments) is taken as a jump to a
 /// distant branch and cut back.
-pub const JUMP_RATIO: f64 = 10.0;
+pub const JUMP_RATIO: f64 = 4.0;
 
 fn dot_dist(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum::<f64>().sqrt()

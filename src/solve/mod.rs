@@ -158,7 +158,8 @@ pub enum Termination {
     /// An observer asked to stop.
     Stopped,
     /// Path level: the step converged on an equilibrium far from where it
-    /// started (a snap under load control) and was rejected.
+    /// started (a snap under load control) or behind it (arc-length turning
+    /// back) and was rejected.
     Jumped,
 }
 

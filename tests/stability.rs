@@ -1,0 +1,233 @@
+//! Path following through snap-back and bifurcation, and the limit load of a
+//! lattice dome: the stability side of the tracer.
+
+use crate::common::*;
+use tautline::model::Method;
+use tautline::path::{CriticalKind, StopReason};
+
+/// Two-bar arch (b = 5 m, h = 1 m, EA = 1280 MN, engineering strain) with a
+/// linear spring in series under the crown: a vertical bar of EA = 2 MN and
+/// length 1 m, i.e. k = 2 MN/m, which stays vertical by symmetry and so is an
+/// exact linear spring under engineering strain. The load acts on the
+/// spring's free end S.
+fn spring_arch(control: &str, target: f64, steps: usize, extra: &str) -> String {
+    format!(
+        r#"
+[[section]]
+name = "strut"
+EA = 1.28e9
+[[section]]
+name = "spring"
+EA = 2.0e6
+[[node]]
+id = "L"
+at = [-5.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "R"
+at = [5.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [0.0, 0.0, 1.0]
+fix = "y"
+[[node]]
+id = "S"
+at = [0.0, 0.0, 0.0]
+fix = "xy"
+[[member]]
+id = "left"
+kind = "bar"
+ends = ["L", "C"]
+section = "strut"
+[[member]]
+id = "right"
+kind = "bar"
+ends = ["C", "R"]
+section = "strut"
+[[member]]
+id = "spring"
+kind = "bar"
+ends = ["C", "S"]
+section = "spring"
+[[load]]
+node = "S"
+force = [0.0, 0.0, -1.0e6]
+[analysis]
+strain = "engineering"
+control = "{control}"
+steps = {steps}
+target = {target:?}
+node = "S"
+dir = "z"
+max_steps = 2000
+tolerance = 1e-12
+watch = ["S.z", "C.z"]
+{extra}
+"#
+    )
+}
+
+const EA: f64 = 1.28e9;
+const K: f64 = 2.0e6;
+
+/// Crown load of the two-bar arch, engineering strain (Bažant & Cedolin,
+/// *Stability of Structures*, 1991, §4.4; derived from crown equilibrium).
+fn arch_load(w: f64) -> f64 {
+    let (b, h) = (5.0f64, 1.0f64);
+    let z = h - w;
+    let (l0, l) = ((b * b + h * h).sqrt(), (b * b + z * z).sqrt());
+    2.0 * EA * (l0 - l) / l0 * z / l
+}
+
+/// Snap-back: with the spring in series the spring end's deflection is
+/// v = w + P(w)/k; since dP/dw reaches −9.9 MN/m near inversion, below −k,
+/// v turns back while w goes on (M. A. Crisfield, *Non-linear Finite Element
+/// Analysis of Solids and Structures*, vol. 1, 1991, ch. 1, from memory;
+/// closed form derived from case 1 plus the spring's compatibility).
+/// Arc-length traces it: every point satisfies P = P_arch(w) and
+/// v − w = P/k within 1e-8 relative, the limit point is pinpointed at
+/// P_lim = 3789.4625 kN within 1e-6, and v turns back (the snap-back) while
+/// w goes on.
+///
+/// FIXME(issue 4): past λ ≈ −2.0 on the unstable branch the tangent shows a
+/// second negative pivot and every further arc-length step turns back, so
+/// the run stops there (no_convergence) instead of reaching the inverted
+/// branch. This test asserts today's stop so that a fix shows up here.
+#[test]
+fn arc_length_traces_snap_back() {
+    let run = solve_text(&spring_arch("arc-length", 1.2 * 3.7894625, 10, "arc = 0.05"));
+    let mut v_series = Vec::new();
+    for pt in &run.path.points {
+        let (v, w) = (-pt.watched[0], -pt.watched[1]);
+        let p = pt.lambda * 1.0e6;
+        assert!((p - arch_load(w)).abs() < 1e-8 * 3.79e6, "w = {w}: {p} vs {}", arch_load(w));
+        assert!((v - w - p / K).abs() < 1e-8 * (p.abs() / K).max(1e-3), "spring compatibility at w = {w}");
+        v_series.push(v);
+    }
+    let turns = v_series.windows(3).filter(|t| (t[1] - t[0]) * (t[2] - t[1]) < 0.0).count();
+    assert!(turns >= 1, "the spring end should move down, then back up: {v_series:?}");
+    let first = run.path.critical.first().expect("the limit point is found");
+    assert_eq!(first.kind, CriticalKind::Limit);
+    assert!(rel_err(first.lambda, 3.7894625, 1.0) < 1e-6, "limit λ = {}", first.lambda);
+    // Today's stop, see the FIXME above.
+    assert_eq!(run.path.stop, StopReason::NoConvergence);
+    let last = run.path.points.last().unwrap().lambda;
+    assert!(last < -1.9 && last > -2.1, "stopped at λ = {last}");
+}
+
+/// Load control cannot pass the limit point of the same system: it stops
+/// cleanly short of the target (exit 3 in the CLI), with the last converged
+/// load below the limit load P_lim = 3789.4625 kN (Bažant & Cedolin 1991,
+/// eq. 4.4.5) and above 90 % of it.
+#[test]
+fn load_control_stops_at_the_snap_back_limit() {
+    let run = solve_text(&spring_arch("load", 1.2 * 3.7894625, 12, ""));
+    assert_eq!(run.path.stop, StopReason::NoConvergence);
+    let last = run.path.points.last().unwrap().lambda;
+    assert!(last < 3.7894626 && last > 0.9 * 3.7894625, "last converged λ = {last}");
+    let msg = tautline::results::stop_message(&run.model, &run.path);
+    assert!(msg.contains("arc-length"), "{msg}");
+}
+
+/// A straight vertical strut of two bars (each L = 2 m, EA = 1e8 N),
+/// pinned at the base and held laterally at the top, braced at mid-height by
+/// a lateral spring k = 1e5 N/m. On the perfect path the bars shorten to
+/// l = L(1 − P/EA) and the mid-height node's lateral stiffness is
+/// k − 2P/l (geometric stiffness N/l of each compressed bar), so the path
+/// bifurcates at P_cr = (kL/2)/(1 + kL/(2EA)) = 99 900.0999 N (derived;
+/// the braced strut is the classic example of e.g. Bažant & Cedolin 1991,
+/// ch. 1, from memory). The load keeps rising through it, the mode is the
+/// lateral sway, orthogonal to the load: a bifurcation, pinpointed within
+/// 1e-6 of the closed form, with every corrector.
+#[test]
+fn braced_strut_bifurcates_at_closed_form_load() {
+    let text = r#"
+[[section]]
+name = "s"
+EA = 1.0e8
+[[node]]
+id = "B"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [0.0, 0.0, 2.0]
+fix = "y"
+[[node]]
+id = "T"
+at = [0.0, 0.0, 4.0]
+fix = "xy"
+[[member]]
+id = "lower"
+kind = "bar"
+ends = ["B", "M"]
+section = "s"
+[[member]]
+id = "upper"
+kind = "bar"
+ends = ["M", "T"]
+section = "s"
+[[spring]]
+node = "M"
+dir = "x"
+k = 1.0e5
+[[load]]
+node = "T"
+force = [0.0, 0.0, -1.0e5]
+[analysis]
+strain = "engineering"
+steps = 12
+target = 1.2
+node = "T"
+dir = "z"
+tolerance = 1e-12
+watch = ["T.z", "M.x"]
+"#;
+    let (k, l, ea) = (1.0e5f64, 2.0f64, 1.0e8f64);
+    let p_cr = (k * l / 2.0) / (1.0 + k * l / (2.0 * ea));
+    for method in ALL_METHODS {
+        let run = trace(model(text), method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        assert_eq!(run.path.critical.len(), 1, "{method:?}: {:?}", run.path.critical);
+        let c = &run.path.critical[0];
+        assert_eq!(c.kind, CriticalKind::Bifurcation, "{method:?}: alignment {}", c.mode_load_alignment);
+        assert!(rel_err(c.lambda * 1.0e5, p_cr, 1.0) < 1e-6, "{method:?}: {} vs {p_cr}", c.lambda * 1.0e5);
+        let labels: Vec<String> = c.mode.iter().map(|nd| run.model.node_dir_label(*nd)).collect();
+        assert_eq!(labels, ["M.x"], "{method:?}");
+    }
+}
+
+/// The generator's shallow lattice dome (2 rings × 6 sectors, radius 10 m,
+/// rise 1 m) under its crown load: the first critical point found by
+/// arc-length is pinpointed, so its load factor does not depend on the arc
+/// length (1e-6 between arcs a, a/2, a/4) nor on the corrector (1e-6). The
+/// value itself is this project's own; no literature value is claimed.
+#[test]
+fn dome_first_critical_load_is_independent_of_arc_and_corrector() {
+    let g = tautline::generate::lattice_dome(
+        &tautline::generate::DomeOptions { rings: 2, sectors: 6, ..Default::default() },
+        "dome",
+    )
+    .unwrap();
+    let base = g.toml.replace("control = \"load\"", "control = \"arc-length\"").replace("target = 1.0", "target = 1.0e9");
+    let first = |arc: f64, method: Method| {
+        let text = base.replace("[analysis]", &format!("[analysis]\narc = {arc:?}\nmax_steps = 400"));
+        let mut m = model(&text);
+        m.analysis.max_displacement = Some(2.5);
+        let run = trace(m, method);
+        let c = run.path.critical.first().unwrap_or_else(|| panic!("{method:?} arc {arc}: no critical point, {:?}", run.path.stop)).clone();
+        c
+    };
+    let reference = first(0.05, Method::Newton);
+    assert!(reference.lambda > 0.0);
+    for arc in [0.025, 0.0125] {
+        let c = first(arc, Method::Newton);
+        assert_eq!(c.kind, reference.kind);
+        assert!(rel_err(c.lambda, reference.lambda, 1e-12) < 1e-6, "arc {arc}: {} vs {}", c.lambda, reference.lambda);
+    }
+    for method in ALL_METHODS {
+        let c = first(0.05, method);
+        assert!(rel_err(c.lambda, reference.lambda, 1e-12) < 1e-6, "{method:?}: {} vs {}", c.lambda, reference.lambda);
+    }
+}
