@@ -194,7 +194,7 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
             };
             format!(
                 "step {} did not converge after {} halvings: {cause} while going to load factor {:.6} \
-                 (relative residual {:.3e}); the last converged load factor is {last:.6} ({:.6e} {} total reference load scaled); {hint}",
+                 (relative residual {:.3e}); the last converged load factor is {last:.6}, a total load of {:.6e} {}; {hint}",
                 f.step,
                 model.analysis.max_cutbacks,
                 f.lambda_tried,

@@ -8,51 +8,18 @@ use tautline::model::Method;
 use tautline::path::StopReason;
 use tautline::solve::InverseTangent;
 
-const CABLE: &str = r#"
-[[section]]
-name = "rope"
-EA = 1.0e6
-[[node]]
-id = "A"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "M"
-at = [5.0, 0.0, 0.0]
-fix = "y"
-[[node]]
-id = "B"
-at = [10.0, 0.0, 0.0]
-fix = "xyz"
-[[member]]
-id = "a"
-kind = "cable"
-ends = ["A", "M"]
-section = "rope"
-prestress = 1.0e4
-[[member]]
-id = "b"
-kind = "cable"
-ends = ["M", "B"]
-section = "rope"
-prestress = 1.0e4
-[[load]]
-node = "M"
-force = [0.0, 0.0, -1000.0]
-[analysis]
-strain = "engineering"
-steps = 1
-node = "M"
-dir = "z"
-tolerance = 1e-14
-max_iterations = 300
-"#;
+/// The pretensioned cable in one load step, solved to round-off.
+fn cable() -> String {
+    PRETENSIONED_CABLE
+        .replace("steps = 4", "steps = 1")
+        .replace("tolerance = 1e-13", "tolerance = 1e-14\nmax_iterations = 300")
+}
 
 /// Ratios of successive residual norms of the single load step of the
 /// pretensioned cable (midspan load from rest, 2 unknowns), full steps, no
 /// refactorization within the step.
 fn residual_ratios(method: Method) -> Vec<f64> {
-    let mut m = model(CABLE);
+    let mut m = model(&cable());
     m.analysis.line_search = Some(0);
     m.analysis.stall_ratio = 1.0e9;
     m.analysis.refactor_after = 1000;
@@ -82,23 +49,6 @@ fn broyden_is_superlinear_modified_newton_linear() {
     assert!(tail.iter().all(|r| *r > 0.05 && *r < 1.0), "modified Newton ratios {mn:?}");
 }
 
-/// Dense symmetric matrix as a full upper-triangle pattern.
-fn dense(a: &[Vec<f64>]) -> (Pattern, Vec<f64>) {
-    let n = a.len();
-    let (mut col_ptr, mut row_idx, mut vals, mut diag_slot) = (vec![0], vec![], vec![], vec![]);
-    for c in 0..n {
-        for (r, row) in a.iter().enumerate().take(c + 1) {
-            if r == c {
-                diag_slot.push(row_idx.len());
-            }
-            row_idx.push(r);
-            vals.push(row[c]);
-        }
-        col_ptr.push(row_idx.len());
-    }
-    (Pattern { n, col_ptr, row_idx, member_slots: vec![], diag_slot }, vals)
-}
-
 /// On a linear n×n system, Broyden's good method terminates in at most 2n
 /// steps (D. M. Gay, "Some convergence properties of Broyden's method", SIAM
 /// J. Numer. Anal. 16, 1979). n = 4, a symmetric positive definite A, and a
@@ -115,7 +65,7 @@ fn broyden_good_terminates_within_2n_on_linear_system() {
     let n = a.len();
     let b = [1.0, -2.0, 0.5, 3.0];
     let k0: Vec<Vec<f64>> = (0..n).map(|i| (0..n).map(|j| if i == j { 1.7 * a[i][i] } else { 0.0 }).collect()).collect();
-    let (p0, v0) = dense(&k0);
+    let (p0, v0) = Pattern::from_dense_upper(&k0);
     let mut ldlt = Ldlt::new(&p0, faer::Par::Seq).unwrap();
     ldlt.factorize(&p0, &v0);
     let mut h = InverseTangent::new(Method::Broyden, ldlt, 100);
@@ -179,8 +129,8 @@ fn divergence_guard_refactors_a_stale_tangent() {
 /// converged under the residual test alone (common practice, no source).
 #[test]
 fn extra_convergence_criteria_are_read_and_tighten() {
-    let plain = trace(model(&CABLE.replace("tolerance = 1e-14", "tolerance = 1e-6")), Method::Bfgs);
-    let strict_text = CABLE.replace(
+    let plain = trace(model(&cable().replace("tolerance = 1e-14", "tolerance = 1e-6")), Method::Bfgs);
+    let strict_text = cable().replace(
         "tolerance = 1e-14",
         "tolerance = 1e-6\ndisplacement_tolerance = 1e-10\nenergy_tolerance = 1e-16",
     );

@@ -179,45 +179,7 @@ fn arch_displacement_control_passes_the_limit_point() {
 /// literature value). Several load levels; 1e-8 relative.
 #[test]
 fn pretensioned_cable_midspan_load() {
-    let text = r#"
-[[section]]
-name = "rope"
-EA = 1.0e6
-[[node]]
-id = "A"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "M"
-at = [5.0, 0.0, 0.0]
-fix = "y"
-[[node]]
-id = "B"
-at = [10.0, 0.0, 0.0]
-fix = "xyz"
-[[member]]
-id = "a"
-kind = "cable"
-ends = ["A", "M"]
-section = "rope"
-prestress = 1.0e4
-[[member]]
-id = "b"
-kind = "cable"
-ends = ["M", "B"]
-section = "rope"
-prestress = 1.0e4
-[[load]]
-node = "M"
-force = [0.0, 0.0, -1000.0]
-[analysis]
-strain = "engineering"
-steps = 4
-target = 1.0
-node = "M"
-dir = "z"
-tolerance = 1e-13
-"#;
+    let text = PRETENSIONED_CABLE;
     let (l, ea, t) = (5.0f64, 1.0e6, 1.0e4);
     let lr = l * ea / (ea + t);
     let load = |w: f64| {

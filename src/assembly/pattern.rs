@@ -103,6 +103,25 @@ impl Pattern {
         Pattern { n, col_ptr, row_idx, member_slots, diag_slot }
     }
 
+    /// The full upper triangle of a small dense symmetric matrix as a
+    /// pattern and its values (no members): for checks of the linear algebra
+    /// and the correctors on hand-made systems.
+    pub fn from_dense_upper(a: &[Vec<f64>]) -> (Pattern, Vec<f64>) {
+        let n = a.len();
+        let (mut col_ptr, mut row_idx, mut vals, mut diag_slot) = (vec![0], vec![], vec![], vec![]);
+        for c in 0..n {
+            for (r, row) in a.iter().enumerate().take(c + 1) {
+                if r == c {
+                    diag_slot.push(row_idx.len());
+                }
+                row_idx.push(r);
+                vals.push(row[c]);
+            }
+            col_ptr.push(row_idx.len());
+        }
+        (Pattern { n, col_ptr, row_idx, member_slots: vec![], diag_slot }, vals)
+    }
+
     pub fn nnz(&self) -> usize {
         self.row_idx.len()
     }

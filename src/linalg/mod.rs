@@ -246,26 +246,8 @@ impl Ldlt {
 mod tests {
     use super::*;
 
-    /// Upper-triangle CSC pattern of a dense symmetric matrix, for tests.
     fn dense_pattern(a: &[Vec<f64>]) -> (Pattern, Vec<f64>) {
-        let n = a.len();
-        let mut col_ptr = vec![0];
-        let mut row_idx = vec![];
-        let mut vals = vec![];
-        let mut diag_slot = vec![];
-        for c in 0..n {
-            for (r, row) in a.iter().enumerate().take(c + 1) {
-                if row[c] != 0.0 || r == c {
-                    if r == c {
-                        diag_slot.push(row_idx.len());
-                    }
-                    row_idx.push(r);
-                    vals.push(row[c]);
-                }
-            }
-            col_ptr.push(row_idx.len());
-        }
-        (Pattern { n, col_ptr, row_idx, member_slots: vec![], diag_slot }, vals)
+        Pattern::from_dense_upper(a)
     }
 
     #[test]
