@@ -6,9 +6,11 @@ use tautline::model::Method;
 use tautline::path::{CriticalKind, StopReason};
 
 /// Two-bar arch (b = 5 m, h = 1 m, EA = 1280 MN, engineering strain) with a
-/// linear spring in series under the crown: a vertical bar of EA = 2 MN and
-/// length 1 m, i.e. k = 2 MN/m, which stays vertical by symmetry and so is an
-/// exact linear spring under engineering strain. The load acts on the
+/// linear spring in series under the crown: a vertical bar of EA = 20 MN and
+/// length 10 m, i.e. k = 2 MN/m, which stays vertical by symmetry and so is an
+/// exact linear spring under engineering strain (long enough that its
+/// compression on the unstable branch, at most P_lim, stays far from the
+/// EA at which a bar would shrink to nothing). The load acts on the
 /// spring's free end S.
 fn spring_arch(control: &str, target: f64, steps: usize, extra: &str) -> String {
     format!(
@@ -18,7 +20,7 @@ name = "strut"
 EA = 1.28e9
 [[section]]
 name = "spring"
-EA = 2.0e6
+EA = 2.0e7
 [[node]]
 id = "L"
 at = [-5.0, 0.0, 0.0]
@@ -33,7 +35,7 @@ at = [0.0, 0.0, 1.0]
 fix = "y"
 [[node]]
 id = "S"
-at = [0.0, 0.0, 0.0]
+at = [0.0, 0.0, -9.0]
 fix = "xy"
 [[member]]
 id = "left"
@@ -86,17 +88,14 @@ fn arch_load(w: f64) -> f64 {
 /// Analysis of Solids and Structures*, vol. 1, 1991, ch. 1, from memory;
 /// closed form derived from case 1 plus the spring's compatibility).
 /// Arc-length traces it: every point satisfies P = P_arch(w) and
-/// v − w = P/k within 1e-8 relative, the limit point is pinpointed at
-/// P_lim = 3789.4625 kN within 1e-6, and v turns back (the snap-back) while
-/// w goes on.
-///
-/// FIXME(issue 4): past λ ≈ −2.0 on the unstable branch the tangent shows a
-/// second negative pivot and every further arc-length step turns back, so
-/// the run stops there (no_convergence) instead of reaching the inverted
-/// branch. This test asserts today's stop so that a fix shows up here.
+/// v − w = P/k within 1e-8 relative, v moves down, back up and down again
+/// while w goes on, both limit points (±P_lim = ±3789.4625 kN) are
+/// pinpointed within 1e-6, and the path ends on the inverted branch at the
+/// target λ.
 #[test]
 fn arc_length_traces_snap_back() {
     let run = solve_text(&spring_arch("arc-length", 1.2 * 3.7894625, 10, "arc = 0.05"));
+    assert_eq!(run.path.stop, StopReason::TargetReached, "{:?}", run.path.last_failure);
     let mut v_series = Vec::new();
     for pt in &run.path.points {
         let (v, w) = (-pt.watched[0], -pt.watched[1]);
@@ -106,14 +105,12 @@ fn arc_length_traces_snap_back() {
         v_series.push(v);
     }
     let turns = v_series.windows(3).filter(|t| (t[1] - t[0]) * (t[2] - t[1]) < 0.0).count();
-    assert!(turns >= 1, "the spring end should move down, then back up: {v_series:?}");
-    let first = run.path.critical.first().expect("the limit point is found");
-    assert_eq!(first.kind, CriticalKind::Limit);
-    assert!(rel_err(first.lambda, 3.7894625, 1.0) < 1e-6, "limit λ = {}", first.lambda);
-    // Today's stop, see the FIXME above.
-    assert_eq!(run.path.stop, StopReason::NoConvergence);
-    let last = run.path.points.last().unwrap().lambda;
-    assert!(last < -1.9 && last > -2.1, "stopped at λ = {last}");
+    assert!(turns >= 2, "the spring end should move down, back up, and down again: {v_series:?}");
+    let last = run.path.points.last().unwrap();
+    assert!((last.lambda - 1.2 * 3.7894625).abs() < 1e-9 && -last.watched[1] > 2.0);
+    let limits: Vec<f64> = run.path.critical.iter().filter(|c| c.kind == CriticalKind::Limit).map(|c| c.lambda).collect();
+    assert_eq!(limits.len(), 2, "{:?}", run.path.critical);
+    assert!(rel_err(limits[0], 3.7894625, 1.0) < 1e-6 && rel_err(limits[1], -3.7894625, 1.0) < 1e-6, "{limits:?}");
 }
 
 /// Load control cannot pass the limit point of the same system: it stops
