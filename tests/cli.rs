@@ -702,3 +702,60 @@ fn generated_dome_and_bad_generator_options() {
     assert!(r.stderr.contains("nx"), "{r}");
     assert!(!bad.exists());
 }
+
+// -- runs that are interrupted or would overwrite --------------------------
+
+/// SIGINT during `solve` on a generated net stops the run after the current
+/// iteration: exit 130, a complete results.json marked interrupted, and the
+/// converged steps intact (path.csv agrees with it).
+#[test]
+fn interrupted_solve_keeps_what_it_found() {
+    let sc = Scratch::new("interrupt");
+    let model = sc.path("big.toml");
+    let r = tautline(&["generate", "net", "--nx", "160", "--ny", "160", "--load", "20", "-o", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    let out = sc.path("out");
+    let child = Command::new(BIN)
+        .args(["solve", s(&model), "-o", s(&out), "--steps", "400", "--tolerance", "1e-12"])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("start solve");
+    std::thread::sleep(std::time::Duration::from_millis(2500));
+    let killed = Command::new("kill").args(["-INT", &child.id().to_string()]).status().expect("send SIGINT");
+    assert!(killed.success());
+    let done = child.wait_with_output().expect("wait for solve");
+    let code = done.status.code().unwrap_or(-1);
+    assert_eq!(code, 130, "stdout: {}\nstderr: {}", String::from_utf8_lossy(&done.stdout), String::from_utf8_lossy(&done.stderr));
+    let res = json(&out.join("results.json"));
+    assert_eq!(res["stop_reason"], "interrupted");
+    assert_eq!(res["converged"], false);
+    let steps = res["steps"].as_array().unwrap();
+    assert!(!steps.is_empty() && steps.len() < 401, "{} steps", steps.len());
+    let (_, rows) = csv(&out.join("path.csv"));
+    assert_eq!(rows.len(), steps.len());
+    for (k, st) in steps.iter().enumerate() {
+        assert_eq!(st["step"].as_u64().unwrap() as usize, k);
+        assert!(st["residual"].as_f64().unwrap() <= 1e-12, "step {k} is not converged");
+    }
+}
+
+/// `-o DIR` holding another model's results is refused (exit 2, files
+/// untouched) unless `--force`; the same model may be run again into it.
+#[test]
+fn output_folder_of_another_model_needs_force() {
+    let sc = Scratch::new("overwrite");
+    let arch = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("models/roof_arch.toml");
+    let net = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("models/courtyard_net.toml");
+    let out = sc.path("out");
+    assert_eq!(solve(&arch, &out, &[]).code, 0);
+    let before = std::fs::read_to_string(out.join("results.json")).unwrap();
+    let r = solve(&net, &out, &[]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("--force"), "{r}");
+    assert_eq!(std::fs::read_to_string(out.join("results.json")).unwrap(), before);
+    assert_eq!(solve(&arch, &out, &[]).code, 0, "the same model may rerun into its folder");
+    let r = solve(&net, &out, &["--force"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(json(&out.join("results.json"))["model_file"].as_str().unwrap().ends_with("courtyard_net.toml"));
+}

@@ -24,6 +24,9 @@ pub enum Command {
         /// Output folder (created if missing)
         #[arg(short = 'o', long = "out", value_name = "DIR")]
         out: PathBuf,
+        /// Overwrite DIR even if it holds the results of another model
+        #[arg(long)]
+        force: bool,
         #[command(flatten)]
         overrides: Overrides,
     },

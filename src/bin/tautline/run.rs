@@ -7,7 +7,9 @@ use std::time::Instant;
 use tautline::assembly::System;
 use tautline::linalg::Ldlt;
 use tautline::model::{self, Axis, Control, MemberKind, Method, Model, NodeDir, StrainMeasure};
-use tautline::observe::Silent;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
+use tautline::observe::{Control as Answer, IterEvent, Observer, StepEvent};
 use tautline::path::{StopReason, Tracer};
 use tautline::results::{self, CAUTION};
 use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
@@ -36,10 +38,10 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             print_summary(&m);
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, overrides } => {
+        Command::Solve { model, out, force, overrides } => {
             let mut m = load(&model)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
-            solve(&m, &out, Some(&model))
+            solve(&m, &out, Some(&model), force)
         }
         Command::Generate { what } => generate(what),
         Command::Bench(a) => crate::bench::bench(&a),
@@ -48,7 +50,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            solve(&m, &out, None)
+            solve(&m, &out, None, false)
         }
     }
 }
@@ -168,7 +170,24 @@ fn print_summary(m: &Model) {
     println!("model is valid");
 }
 
-fn prepare_out_dir(out: &Path, model_path: Option<&Path>) -> Result<(), Failure> {
+/// The model file named in an existing `DIR/results.json`, if any.
+fn previous_model(out: &Path) -> Option<String> {
+    let text = std::fs::read_to_string(out.join("results.json")).ok()?;
+    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
+    v.get("model_file")?.as_str().map(str::to_string)
+}
+
+fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, force: bool) -> Result<(), Failure> {
+    if !force {
+        if let Some(prev) = previous_model(out) {
+            if prev != this_model {
+                return Err(Failure::BadInput(format!(
+                    "{}: holds the results of another model ({prev}); choose another -o DIR or pass --force to overwrite them",
+                    out.display()
+                )));
+            }
+        }
+    }
     if out.exists() && !out.is_dir() {
         return Err(Failure::BadInput(format!(
             "{}: the output path exists and is not a folder; choose another -o DIR",
@@ -185,14 +204,14 @@ fn prepare_out_dir(out: &Path, model_path: Option<&Path>) -> Result<(), Failure>
     })
 }
 
-fn solve(m: &Model, out: &Path, model_path: Option<&Path>) -> Result<u8, Failure> {
+fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool) -> Result<u8, Failure> {
     let system = System::new(m).map_err(|e| {
         Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
     })?;
     if system.n_free() == 0 {
         return Err(Failure::BadInput("the model has no free degree of freedom".into()));
     }
-    prepare_out_dir(out, model_path)?;
+    prepare_out_dir(out, model_path, &m.files[0], force)?;
     let started = Instant::now();
     let a = &m.analysis;
     let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).map_err(|e| Failure::Internal(e.into()))?;
@@ -200,7 +219,8 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>) -> Result<u8, Failure
     let h = InverseTangent::new(a.method, ldlt, corrector.refactor.max_updates);
     let mut ws = Workspace::new(&system, m.n_nodes(), h);
     let mut tracer = Tracer::new(&system, m, corrector);
-    let path = tracer.run(&mut ws, &mut Silent);
+    let mut interrupt = Interrupt::install();
+    let path = tracer.run(&mut ws, &mut interrupt);
     let seconds = started.elapsed().as_secs_f64();
     let res = results::build(m, &system, &path, &tracer.wasted, seconds);
     let members = results::members(m, &system, &path);
@@ -305,4 +325,34 @@ fn stem_of(out: &Path) -> Result<String, Failure> {
         return Err(Failure::BadInput(format!("{}: give a file name to write, e.g. net.toml", out.display())));
     }
     Ok(stem)
+}
+
+/// Ctrl-C or SIGTERM: the run stops after the current iteration and writes
+/// what it has found, marked interrupted (exit 130).
+struct Interrupt {
+    flag: Arc<AtomicBool>,
+}
+
+impl Interrupt {
+    fn install() -> Interrupt {
+        let flag = Arc::new(AtomicBool::new(false));
+        let f = flag.clone();
+        // A second handler cannot be installed (e.g. in a second run of the
+        // same process); the run then simply cannot be interrupted cleanly.
+        let _ = ctrlc::set_handler(move || f.store(true, Ordering::SeqCst));
+        Interrupt { flag }
+    }
+
+    fn answer(&self) -> Answer {
+        if self.flag.load(Ordering::SeqCst) { Answer::Stop } else { Answer::Continue }
+    }
+}
+
+impl Observer for Interrupt {
+    fn on_iteration(&mut self, _: &IterEvent) -> Answer {
+        self.answer()
+    }
+    fn on_step(&mut self, _: &StepEvent) -> Answer {
+        self.answer()
+    }
 }
