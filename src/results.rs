@@ -89,6 +89,8 @@ pub struct CriticalPoint {
     pub watched: Vec<f64>,
     /// "NODE.DIR" entries with the largest share of the critical mode.
     pub mode: Vec<String>,
+    /// The critical mode at the watched DOFs, scaled to a largest component of 1.
+    pub mode_watched: Vec<f64>,
     /// |φ·f_ref|/(‖φ‖‖f_ref‖): near 1 at a limit point, near 0 at a bifurcation.
     pub mode_load_alignment: Option<f64>,
 }
@@ -227,6 +229,7 @@ pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
             pinpointed: false,
             watched: b.watched.clone(),
             mode: Vec::new(),
+            mode_watched: Vec::new(),
             mode_load_alignment: None,
             kind: kind.into(),
             load_factor: if kind == "limit" { a.lambda.abs().max(b.lambda.abs()) * b.lambda.signum() } else { 0.5 * (a.lambda + b.lambda) },
@@ -354,6 +357,7 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
                     pinpointed: true,
                     watched: c.watched.iter().map(|v| len(*v)).collect(),
                     mode: c.mode.iter().map(|nd| model.node_dir_label(*nd)).collect(),
+                    mode_watched: c.mode_watched.clone(),
                     mode_load_alignment: Some(c.mode_load_alignment),
                 })
                 .collect()

@@ -192,6 +192,8 @@ watch = ["T.z", "M.x"]
         assert!(rel_err(c.lambda * 1.0e5, p_cr, 1.0) < 1e-6, "{method:?}: {} vs {p_cr}", c.lambda * 1.0e5);
         let labels: Vec<String> = c.mode.iter().map(|nd| run.model.node_dir_label(*nd)).collect();
         assert_eq!(labels, ["M.x"], "{method:?}");
+        // watch = [T.z, M.x]: the sway carries no axial shortening.
+        assert!(c.mode_watched[0].abs() < 1e-6 && (c.mode_watched[1].abs() - 1.0).abs() < 1e-9, "{:?}", c.mode_watched);
     }
 }
 

@@ -115,6 +115,8 @@ pub struct Critical {
     pub watched: Vec<f64>,
     /// Node directions with the largest share of the critical mode.
     pub mode: Vec<NodeDir>,
+    /// The mode at the watched DOFs, scaled to a largest component of 1.
+    pub mode_watched: Vec<f64>,
     /// |φ·f_ref| / (‖φ‖·‖f_ref‖) of the mode φ: near 1 at a limit point,
     /// near 0 at a bifurcation.
     pub mode_load_alignment: f64,
@@ -337,6 +339,13 @@ impl<'a> Tracer<'a> {
             step: 0,
             watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
             mode: big.into_iter().map(|(_, d)| sys.dofs.owner(d)).collect(),
+            mode_watched: self
+                .model
+                .analysis
+                .watch
+                .iter()
+                .map(|w| if max > 0.0 { self.displacement_of(&phi, *w) / max } else { 0.0 })
+                .collect(),
             mode_load_alignment: alignment,
             pivots: (na, nb),
             bisections,
