@@ -9,3 +9,4 @@ pub mod path;
 pub mod generate;
 pub mod results;
 pub mod report;
+pub mod form;

@@ -4,6 +4,7 @@
 //! - `cli`: the command-line contract (exit codes, files, messages).
 mod common;
 mod cli;
+mod form;
 mod properties;
 mod quasi_newton;
 mod stability;

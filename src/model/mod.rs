@@ -9,6 +9,7 @@ pub mod diagnostics;
 pub mod file;
 pub mod units;
 pub mod validate;
+pub mod write;
 
 pub use diagnostics::{Diagnostic, ModelErrors};
 pub use units::{ForceUnit, LengthUnit, Units};

@@ -1,0 +1,232 @@
+//! A model written back as a model file: the TOML format the loader reads,
+//! every node and member inline, values in the model's own units.
+
+use super::{Axis, Control, Model, RestSpec, StrainMeasure};
+use crate::form::FormResult;
+use std::fmt::Write;
+
+/// A number that reads back to the same f64.
+fn num(v: f64) -> String {
+    if v.is_nan() {
+        "nan".into()
+    } else if v.is_infinite() {
+        if v > 0.0 { "inf".into() } else { "-inf".into() }
+    } else {
+        format!("{v:?}")
+    }
+}
+
+/// A TOML basic string.
+fn quote(s: &str) -> String {
+    let mut out = String::with_capacity(s.len() + 2);
+    out.push('"');
+    for c in s.chars() {
+        match c {
+            '"' => out.push_str("\\\""),
+            '\\' => out.push_str("\\\\"),
+            '\n' => out.push_str("\\n"),
+            '\t' => out.push_str("\\t"),
+            '\r' => out.push_str("\\r"),
+            c if (c as u32) < 0x20 || c as u32 == 0x7f => {
+                let _ = write!(out, "\\u{:04X}", c as u32);
+            }
+            c => out.push(c),
+        }
+    }
+    out.push('"');
+    out
+}
+
+fn fix_letters(fixed: [bool; 3]) -> String {
+    Axis::ALL
+        .iter()
+        .filter(|a| fixed[a.index()])
+        .map(|a| a.letter())
+        .collect()
+}
+
+fn label(model: &Model, node: usize) -> String {
+    model
+        .nodes
+        .get(node)
+        .map_or_else(|| format!("#{node}"), |n| n.label.clone())
+}
+
+/// The complete model as a model file.
+pub fn to_toml(model: &Model) -> String {
+    let u = model.units;
+    let mut s = String::new();
+    if !model.title.is_empty() {
+        let _ = writeln!(s, "title = {}", quote(&model.title));
+    }
+    let _ = writeln!(s, "\n[units]");
+    let _ = writeln!(s, "force = {}", quote(u.force.name()));
+    let _ = writeln!(s, "length = {}", quote(u.length.name()));
+
+    for sec in &model.sections {
+        let _ = writeln!(s, "\n[[section]]");
+        let _ = writeln!(s, "name = {}", quote(&sec.name));
+        let _ = writeln!(s, "EA = {}", num(u.force_out(sec.ea)));
+        if let Some(w) = sec.weight {
+            let _ = writeln!(s, "weight = {}", num(u.force_per_length_out(w)));
+        }
+        if let Some(c) = sec.tension_capacity {
+            let _ = writeln!(s, "tension_capacity = {}", num(u.force_out(c)));
+        }
+        if let Some(c) = sec.compression_capacity {
+            let _ = writeln!(s, "compression_capacity = {}", num(u.force_out(c)));
+        }
+    }
+    for n in &model.nodes {
+        let _ = writeln!(s, "\n[[node]]");
+        let _ = writeln!(s, "id = {}", quote(&n.label));
+        let at = n.at.map(|v| num(u.length_out(v)));
+        let _ = writeln!(s, "at = [{}, {}, {}]", at[0], at[1], at[2]);
+        if n.fixed.iter().any(|f| *f) {
+            let _ = writeln!(s, "fix = {}", quote(&fix_letters(n.fixed)));
+        }
+    }
+    for m in &model.members {
+        let _ = writeln!(s, "\n[[member]]");
+        let _ = writeln!(s, "id = {}", quote(&m.label));
+        let kind = match m.kind {
+            super::MemberKind::Bar => "bar",
+            super::MemberKind::Cable => "cable",
+        };
+        let _ = writeln!(s, "kind = {}", quote(kind));
+        let _ = writeln!(
+            s,
+            "ends = [{}, {}]",
+            quote(&label(model, m.ends[0])),
+            quote(&label(model, m.ends[1]))
+        );
+        let section = model
+            .sections
+            .get(m.section)
+            .map_or("", |x| x.name.as_str());
+        let _ = writeln!(s, "section = {}", quote(section));
+        match m.rest {
+            RestSpec::Geometry => {}
+            RestSpec::Length(l) => {
+                let _ = writeln!(s, "rest_length = {}", num(u.length_out(l)));
+            }
+            RestSpec::Prestress(p) => {
+                let _ = writeln!(s, "prestress = {}", num(u.force_out(p)));
+            }
+        }
+        if let Some(q) = m.force_density {
+            let _ = writeln!(s, "force_density = {}", num(u.force_per_length_out(q)));
+        }
+    }
+    for sp in &model.springs {
+        let _ = writeln!(s, "\n[[spring]]");
+        let _ = writeln!(s, "node = {}", quote(&label(model, sp.node)));
+        let _ = writeln!(s, "dir = \"{}\"", sp.axis.letter());
+        let _ = writeln!(s, "k = {}", num(u.force_per_length_out(sp.k)));
+    }
+    for l in &model.loads {
+        let _ = writeln!(s, "\n[[load]]");
+        let _ = writeln!(s, "node = {}", quote(&label(model, l.node)));
+        let f = l.force.map(|v| num(u.force_out(v)));
+        let _ = writeln!(s, "force = [{}, {}, {}]", f[0], f[1], f[2]);
+    }
+
+    let a = &model.analysis;
+    let _ = writeln!(s, "\n[analysis]");
+    let strain = match a.strain {
+        StrainMeasure::Green => "green",
+        StrainMeasure::Engineering => "engineering",
+    };
+    let _ = writeln!(s, "strain = {}", quote(strain));
+    let _ = writeln!(s, "method = {}", quote(a.method.name()));
+    let _ = writeln!(s, "control = {}", quote(a.control.name()));
+    let _ = writeln!(s, "steps = {}", a.steps);
+    let target = if a.control == Control::Displacement {
+        u.length_out(a.target)
+    } else {
+        a.target
+    };
+    let _ = writeln!(s, "target = {}", num(target));
+    if let Some(d) = a.max_displacement {
+        let _ = writeln!(s, "max_displacement = {}", num(u.length_out(d)));
+    }
+    if let Some(p) = a.point {
+        let _ = writeln!(s, "node = {}", quote(&label(model, p.node)));
+        let _ = writeln!(s, "dir = \"{}\"", p.axis.letter());
+    }
+    if let Some(arc) = a.arc {
+        let _ = writeln!(s, "arc = {}", num(u.length_out(arc)));
+    }
+    let _ = writeln!(s, "max_steps = {}", a.max_steps);
+    let _ = writeln!(s, "tolerance = {}", num(a.tolerance));
+    let _ = writeln!(s, "max_iterations = {}", a.max_iterations);
+    let _ = writeln!(s, "max_cutbacks = {}", a.max_cutbacks);
+    if !a.watch.is_empty() {
+        let list: Vec<String> = a
+            .watch
+            .iter()
+            .map(|w| quote(&format!("{}.{}", label(model, w.node), w.axis.letter())))
+            .collect();
+        let _ = writeln!(s, "watch = [{}]", list.join(", "));
+    }
+    let _ = writeln!(s, "refactor_after = {}", a.refactor_after);
+    let _ = writeln!(s, "refactor_each_step = {}", a.refactor_each_step);
+    let _ = writeln!(s, "stall_ratio = {}", num(a.stall_ratio));
+    if let Some(n) = a.line_search {
+        let _ = writeln!(s, "line_search = {n}");
+    }
+    if let Some(t) = a.displacement_tolerance {
+        let _ = writeln!(s, "displacement_tolerance = {}", num(t));
+    }
+    if let Some(t) = a.energy_tolerance {
+        let _ = writeln!(s, "energy_tolerance = {}", num(t));
+    }
+    let variant = if a.arc_variant_normal_plane {
+        "normal-plane"
+    } else {
+        "cylindrical"
+    };
+    let _ = writeln!(s, "arc_variant = {}", quote(variant));
+    let check = if a.stability_each_step {
+        "every-step"
+    } else {
+        "on-refactor"
+    };
+    let _ = writeln!(s, "stability_check = {}", quote(check));
+    let _ = writeln!(s, "pinpoint = {}", a.pinpoint);
+
+    if let Some(q) = model.form.force_density {
+        let _ = writeln!(s, "\n[form]");
+        let _ = writeln!(s, "force_density = {}", num(u.force_per_length_out(q)));
+    }
+    s
+}
+
+/// Member table of a form-finding result, in the model's units:
+/// `id,force_<F>,length_<L>,force_density_<F>/<L>`.
+pub fn form_csv(model: &Model, form: &FormResult) -> String {
+    let u = model.units;
+    let (f, l) = (u.force.name(), u.length.name());
+    let mut s = format!("id,force_{f},length_{l},force_density_{f}/{l}\n");
+    for (m, member) in model.members.iter().enumerate() {
+        let cell =
+            |v: Option<&f64>, out: &dyn Fn(f64) -> f64| v.map_or(String::new(), |x| num(out(*x)));
+        let _ = writeln!(
+            s,
+            "{},{},{},{}",
+            csv_field(&member.label),
+            cell(form.forces.get(m), &|x| u.force_out(x)),
+            cell(form.lengths.get(m), &|x| u.length_out(x)),
+            cell(form.force_densities.get(m), &|x| u.force_per_length_out(x)),
+        );
+    }
+    s
+}
+
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
