@@ -5,6 +5,7 @@
 mod common;
 mod cli;
 mod form;
+mod plots;
 mod properties;
 mod quasi_newton;
 mod stability;

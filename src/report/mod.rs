@@ -2,6 +2,8 @@
 //! all files of a run are first written under temporary names in the output
 //! folder, then renamed into place.
 
+pub mod plot;
+
 use crate::results::{MemberOut, Results};
 use std::fmt::Write as _;
 use std::io;

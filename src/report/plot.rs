@@ -1,0 +1,677 @@
+//! SVG plots of a run: the load path, the deformed shape and the convergence
+//! history. Every function returns the whole SVG text, or an error when its
+//! inputs contradict each other; missing data gives a plot that says so.
+//! All plots read in black-and-white print: series differ by marker shape and
+//! line pattern, not by colour alone.
+//!
+//! Marked elements carry a class, for tests and for styling:
+//! `pt stable` / `pt unstable` (path points), `crit` (critical points),
+//! `it` / `refactor` (convergence iterations), `step-boundary`, `member`.
+
+mod svg;
+
+use crate::model::Model;
+use crate::results::Results;
+use svg::{Anchor, Shape, Stroke, Svg, GRID, INK, MUTED, SHAPES, TITLE_SIZE};
+
+/// Size of the path and convergence plots, px.
+const PLOT_W: f64 = 760.0;
+const PLOT_H: f64 = 520.0;
+/// Size of the shape plot (two panels side by side), px.
+const SHAPE_W: f64 = 1100.0;
+const SHAPE_H: f64 = 560.0;
+/// Space around the plotting area, px.
+const MARGIN_L: f64 = 84.0;
+const MARGIN_R: f64 = 190.0;
+const MARGIN_T: f64 = 62.0;
+const MARGIN_B: f64 = 74.0;
+const MARKER_R: f64 = 4.0;
+
+/// Series colours: dark enough to print as distinct greys.
+const SERIES_COLORS: [&str; 6] = ["#1b3a6b", "#7a2e0e", "#2f5d34", "#5b2a6e", "#6b5a12", "#2b5f66"];
+/// Stroke patterns of the stable part of each series.
+const SERIES_DASH: [Option<&str>; 6] = [None, Some("9 4"), Some("2 3 9 3"), Some("14 4 3 4"), Some("5 5"), Some("1 3")];
+/// Stroke pattern of every unstable segment.
+const UNSTABLE_DASH: &str = "3 4";
+
+/// Axial force scale, of this crate's own choice: tension a deep teal,
+/// compression a brick red, near zero a pale sand.
+const TENSION_RGB: [f64; 3] = [16.0, 96.0, 104.0];
+const COMPRESSION_RGB: [f64; 3] = [176.0, 58.0, 34.0];
+const NEUTRAL_RGB: [f64; 3] = [226.0, 219.0, 200.0];
+/// Stroke patterns of the deformed members (black-and-white reading).
+const COMPRESSION_DASH: &str = "10 3";
+const SLACK_DASH: &str = "1.5 3";
+/// Largest drawn displacement as a share of the model size.
+const DISPLACEMENT_SHARE: f64 = 0.10;
+
+/// Where the data go on the page.
+#[derive(Clone, Copy, Debug)]
+struct Frame {
+    left: f64,
+    top: f64,
+    width: f64,
+    height: f64,
+}
+
+impl Frame {
+    fn right(&self) -> f64 {
+        self.left + self.width
+    }
+    fn bottom(&self) -> f64 {
+        self.top + self.height
+    }
+}
+
+/// A linear map from data values to pixels.
+#[derive(Clone, Copy, Debug)]
+struct Scale {
+    lo: f64,
+    hi: f64,
+    p0: f64,
+    p1: f64,
+}
+
+impl Scale {
+    fn new(lo: f64, hi: f64, p0: f64, p1: f64) -> Scale {
+        let (lo, hi) = widen(lo, hi);
+        Scale { lo, hi, p0, p1 }
+    }
+    fn at(&self, v: f64) -> f64 {
+        self.p0 + (v - self.lo) / (self.hi - self.lo) * (self.p1 - self.p0)
+    }
+}
+
+/// A range with non-zero, finite width.
+fn widen(lo: f64, hi: f64) -> (f64, f64) {
+    let (lo, hi) = if lo.is_finite() && hi.is_finite() { (lo.min(hi), lo.max(hi)) } else { (0.0, 1.0) };
+    if hi - lo > 1e-300 * (1.0 + lo.abs().max(hi.abs())) && hi - lo > 0.0 {
+        (lo, hi)
+    } else {
+        let d = if lo.abs() > 0.0 { 0.1 * lo.abs() } else { 1.0 };
+        (lo - d, hi + d)
+    }
+}
+
+/// Finite minimum and maximum of some values, if any.
+fn extent(values: impl IntoIterator<Item = f64>) -> Option<(f64, f64)> {
+    values
+        .into_iter()
+        .filter(|v| v.is_finite())
+        .fold(None, |acc, v| Some(acc.map_or((v, v), |(a, b): (f64, f64)| (a.min(v), b.max(v)))))
+}
+
+/// A "nice" tick step (1, 2 or 5 × 10^k) giving about `n` ticks over the range.
+fn nice_step(lo: f64, hi: f64, n: f64) -> f64 {
+    let raw = (hi - lo).abs() / n.max(1.0);
+    if !raw.is_finite() || raw <= 0.0 {
+        return 1.0;
+    }
+    let mag = 10f64.powf(raw.log10().floor());
+    let f = raw / mag;
+    let nice = if f <= 1.0 { 1.0 } else if f <= 2.0 { 2.0 } else if f <= 5.0 { 5.0 } else { 10.0 };
+    nice * mag
+}
+
+/// Ticks of a range, widened outward to whole steps.
+fn ticks(lo: f64, hi: f64, n: f64) -> (f64, f64, Vec<f64>) {
+    let (lo, hi) = widen(lo, hi);
+    let step = nice_step(lo, hi, n);
+    let a = (lo / step).floor() * step;
+    let b = (hi / step).ceil() * step;
+    let count = ((b - a) / step).round();
+    if !count.is_finite() || !(1.0..=100.0).contains(&count) {
+        return (lo, hi, vec![lo, hi]);
+    }
+    let t = (0..=count as usize).map(|i| a + i as f64 * step).map(|v| if v.abs() < 1e-12 * step { 0.0 } else { v }).collect();
+    (a, b, t)
+}
+
+/// A tick label with as many decimals as the step needs.
+fn tick_label(v: f64, step: f64) -> String {
+    if v == 0.0 {
+        return "0".into();
+    }
+    let big = v.abs().max(step.abs());
+    if !(1e-4..1e6).contains(&big) {
+        return format!("{v:.1e}");
+    }
+    let decimals = if step > 0.0 && step.is_finite() { (-step.log10().floor()).clamp(0.0, 8.0) as usize } else { 2 };
+    format!("{v:.decimals$}")
+}
+
+/// Draws the frame, grid, ticks and labels of a linear x–y chart.
+fn axes(svg: &mut Svg, f: Frame, x: &Scale, xt: &[f64], y: &Scale, yt: &[f64], xlabel: &str, ylabel: &str) {
+    let xs = if xt.len() > 1 { xt[1] - xt[0] } else { 1.0 };
+    let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
+    for &t in xt {
+        let px = x.at(t);
+        svg.line(px, f.top, px, f.bottom(), Stroke::solid(GRID, 0.6), "grid");
+        svg.line(px, f.bottom(), px, f.bottom() + 5.0, Stroke::solid(INK, 1.0), "tick");
+        svg.text(px, f.bottom() + 19.0, &tick_label(t, xs), 11.0, Anchor::Middle, "tick-label");
+    }
+    for &t in yt {
+        let py = y.at(t);
+        svg.line(f.left, py, f.right(), py, Stroke::solid(GRID, 0.6), "grid");
+        svg.line(f.left - 5.0, py, f.left, py, Stroke::solid(INK, 1.0), "tick");
+        svg.text(f.left - 8.0, py + 4.0, &tick_label(t, ys), 11.0, Anchor::End, "tick-label");
+    }
+    frame_box(svg, f);
+    svg.text(f.left + f.width / 2.0, f.bottom() + 42.0, xlabel, 13.0, Anchor::Middle, "axis-label");
+    svg.text_vertical(f.left - 58.0, f.top + f.height / 2.0, ylabel, 13.0, "axis-label");
+}
+
+fn frame_box(svg: &mut Svg, f: Frame) {
+    svg.rect(f.left, f.top, f.width, f.height, "none", Some(Stroke::solid(INK, 1.0)), "frame");
+}
+
+fn title(svg: &mut Svg, text: &str, fallback: &str) {
+    let t = if text.trim().is_empty() { fallback } else { text };
+    let w = svg.width;
+    svg.text(w / 2.0, 26.0, t, TITLE_SIZE, Anchor::Middle, "title");
+}
+
+/// A plot with a title and a "no data" note, for runs with nothing to draw.
+fn no_data(width: f64, height: f64, heading: &str, why: &str) -> String {
+    let mut svg = Svg::new(width, height);
+    title(&mut svg, heading, "plot");
+    svg.text(width / 2.0, height / 2.0, &format!("no data: {why}"), 16.0, Anchor::Middle, "no-data");
+    svg.finish()
+}
+
+/// One row of a legend: a line sample with an optional marker, then text.
+struct LegendRow<'a> {
+    stroke: Option<Stroke<'a>>,
+    marker: Option<(Shape, bool)>,
+    color: &'a str,
+    label: String,
+}
+
+/// Draws legend rows in a box starting at (x, y).
+fn legend(svg: &mut Svg, x: f64, y: f64, rows: &[LegendRow]) {
+    const ROW: f64 = 18.0;
+    const SAMPLE: f64 = 30.0;
+    let longest = rows.iter().map(|r| r.label.chars().count()).max().unwrap_or(0) as f64;
+    let w = SAMPLE + 16.0 + 6.4 * longest;
+    svg.rect(x - 6.0, y - 12.0, w, ROW * rows.len() as f64 + 8.0, "#ffffff", Some(Stroke::solid(MUTED, 0.8)), "legend");
+    for (i, r) in rows.iter().enumerate() {
+        let yy = y + i as f64 * ROW;
+        if let Some(s) = r.stroke {
+            svg.line(x, yy - 4.0, x + SAMPLE, yy - 4.0, s, "legend-line");
+        }
+        if let Some((shape, filled)) = r.marker {
+            svg.marker(shape, x + SAMPLE / 2.0, yy - 4.0, MARKER_R, r.color, filled, "legend-marker");
+        }
+        svg.text(x + SAMPLE + 8.0, yy, &r.label, 11.0, Anchor::Start, "legend-text");
+    }
+}
+
+fn series_stroke(i: usize, unstable: bool) -> Stroke<'static> {
+    let color = SERIES_COLORS[i % SERIES_COLORS.len()];
+    if unstable {
+        Stroke::dashed(color, 1.4, UNSTABLE_DASH)
+    } else {
+        Stroke { color, width: 2.0, dash: SERIES_DASH[i % SERIES_DASH.len()] }
+    }
+}
+
+/// Load factor against each watched displacement: one series per watch entry,
+/// every converged step marked (filled: stable, hollow on a dotted line:
+/// unstable, `negative_pivots > 0`), critical points annotated.
+pub fn path_svg(results: &Results) -> Result<String, String> {
+    let heading = if results.title.trim().is_empty() { "load path" } else { results.title.as_str() };
+    if results.steps.is_empty() {
+        return Ok(no_data(PLOT_W, PLOT_H, heading, "the run has no converged steps"));
+    }
+    if results.watch.is_empty() {
+        return Ok(no_data(PLOT_W, PLOT_H, heading, "no watched displacements (set analysis.watch)"));
+    }
+    let n_series = results.watch.len();
+    if let Some(s) = results.steps.iter().find(|s| s.watched.len() != n_series) {
+        return Err(format!(
+            "step {} has {} watched values but {} watch entries",
+            s.step,
+            s.watched.len(),
+            n_series
+        ));
+    }
+    let point_ok = |x: f64, y: f64| x.is_finite() && y.is_finite();
+    let xs = results.steps.iter().flat_map(|s| s.watched.iter().copied().filter(|_| s.load_factor.is_finite()));
+    let crit_x = results.critical_points.iter().filter(|c| c.load_factor.is_finite()).flat_map(|c| c.watched.iter().copied());
+    let Some((x0, x1)) = extent(xs.chain(crit_x).chain([0.0])) else {
+        return Ok(no_data(PLOT_W, PLOT_H, heading, "no finite points"));
+    };
+    let ys = results.steps.iter().map(|s| s.load_factor);
+    let crit_y = results.critical_points.iter().map(|c| c.load_factor);
+    let Some((y0, y1)) = extent(ys.chain(crit_y).chain([0.0])) else {
+        return Ok(no_data(PLOT_W, PLOT_H, heading, "no finite points"));
+    };
+    let any_finite = results.steps.iter().any(|s| s.watched.iter().any(|x| point_ok(*x, s.load_factor)));
+    if !any_finite {
+        return Ok(no_data(PLOT_W, PLOT_H, heading, "no finite points"));
+    }
+
+    let f = Frame { left: MARGIN_L, top: MARGIN_T, width: PLOT_W - MARGIN_L - MARGIN_R, height: PLOT_H - MARGIN_T - MARGIN_B };
+    let (xa, xb, xt) = ticks(x0, x1, 6.0);
+    let (ya, yb, yt) = ticks(y0, y1, 6.0);
+    let x = Scale::new(xa, xb, f.left, f.right());
+    let y = Scale::new(ya, yb, f.bottom(), f.top);
+
+    let mut svg = Svg::new(PLOT_W, PLOT_H);
+    title(&mut svg, heading, "load path");
+    let len = &results.units.length;
+    let force = &results.units.force;
+    svg.text(
+        PLOT_W / 2.0,
+        44.0,
+        &format!("applied load = λ × reference load (loads as given in the model, {force})"),
+        11.0,
+        Anchor::Middle,
+        "caption",
+    );
+    axes(
+        &mut svg,
+        f,
+        &x,
+        &xt,
+        &y,
+        &yt,
+        &format!("watched displacement [{len}]"),
+        "load factor λ  (total load = λ × reference)",
+    );
+
+    for i in 0..n_series {
+        let color = SERIES_COLORS[i % SERIES_COLORS.len()];
+        let shape = SHAPES[i % SHAPES.len()];
+        svg.open_group(&format!("series s{i}"));
+        // Segments, each drawn in the style of the step it arrives at.
+        for w in results.steps.windows(2) {
+            let (a, b) = (&w[0], &w[1]);
+            let (xa, xb) = (a.watched[i], b.watched[i]);
+            if point_ok(xa, a.load_factor) && point_ok(xb, b.load_factor) {
+                let unstable = b.negative_pivots > 0;
+                let class = if unstable { "seg unstable" } else { "seg stable" };
+                svg.line(x.at(xa), y.at(a.load_factor), x.at(xb), y.at(b.load_factor), series_stroke(i, unstable), class);
+            }
+        }
+        for s in &results.steps {
+            let xv = s.watched[i];
+            if point_ok(xv, s.load_factor) {
+                let stable = s.negative_pivots == 0;
+                let class = if stable { "pt stable" } else { "pt unstable" };
+                svg.marker(shape, x.at(xv), y.at(s.load_factor), MARKER_R, color, stable, class);
+            }
+        }
+        svg.close_group();
+    }
+
+    // Critical points: a ring around the point on each series, text once.
+    for (k, c) in results.critical_points.iter().enumerate() {
+        if !c.load_factor.is_finite() {
+            continue;
+        }
+        let mut labelled = false;
+        for (i, xv) in c.watched.iter().enumerate().take(n_series) {
+            if !xv.is_finite() {
+                continue;
+            }
+            let (px, py) = (x.at(*xv), y.at(c.load_factor));
+            svg.marker(Shape::Circle, px, py, 8.0, INK, false, "crit");
+            if !labelled {
+                let dy = if k % 2 == 0 { -12.0 } else { 20.0 };
+                let anchor = if px > f.left + 0.7 * f.width { Anchor::End } else { Anchor::Start };
+                let dx = if matches!(anchor, Anchor::End) { -10.0 } else { 10.0 };
+                svg.text(px + dx, py + dy, &format!("{} λ = {:.4}", c.kind, c.load_factor), 11.5, anchor, "crit-label");
+                labelled = true;
+            }
+            let _ = i;
+        }
+    }
+
+    let mut rows: Vec<LegendRow> = results
+        .watch
+        .iter()
+        .enumerate()
+        .map(|(i, w)| LegendRow {
+            stroke: Some(series_stroke(i, false)),
+            marker: Some((SHAPES[i % SHAPES.len()], true)),
+            color: SERIES_COLORS[i % SERIES_COLORS.len()],
+            label: format!("{w} [{len}]"),
+        })
+        .collect();
+    rows.push(LegendRow { stroke: None, marker: Some((Shape::Circle, true)), color: INK, label: "filled, solid: stable".into() });
+    rows.push(LegendRow {
+        stroke: Some(Stroke::dashed(INK, 1.4, UNSTABLE_DASH)),
+        marker: Some((Shape::Circle, false)),
+        color: INK,
+        label: "hollow, dotted: unstable".into(),
+    });
+    if !results.critical_points.is_empty() {
+        rows.push(LegendRow { stroke: None, marker: Some((Shape::Circle, false)), color: INK, label: "ring: critical point".into() });
+    }
+    legend(&mut svg, f.right() + 18.0, f.top + 10.0, &rows);
+    Ok(svg.finish())
+}
+
+/// Residual norm per corrector iteration on a log axis, the iterations of
+/// all steps one after another; refactorizations marked with squares, step
+/// boundaries as thin vertical lines, the tolerance as a dashed line.
+pub fn convergence_svg(results: &Results) -> Result<String, String> {
+    const HEADING: &str = "convergence history";
+    let heading = if results.title.trim().is_empty() { HEADING.to_string() } else { format!("{} — {HEADING}", results.title) };
+    // (global index, value, refactored, step start)
+    let mut pts: Vec<(usize, f64, bool)> = Vec::new();
+    let mut starts: Vec<(usize, usize)> = Vec::new();
+    let mut idx = 0usize;
+    for s in &results.steps {
+        starts.push((idx, s.step));
+        for (k, r) in s.residual_history.iter().enumerate() {
+            pts.push((idx, *r, s.refactored_at.contains(&k)));
+            idx += 1;
+        }
+    }
+    let positive = |v: f64| v.is_finite() && v > 0.0;
+    let tol = results.analysis.tolerance;
+    let Some((lo, hi)) = extent(pts.iter().filter(|p| positive(p.1)).map(|p| p.1.log10())) else {
+        return Ok(no_data(PLOT_W, PLOT_H, &heading, "no positive residuals recorded"));
+    };
+    let (lo, hi) = if positive(tol) { (lo.min(tol.log10()), hi.max(tol.log10())) } else { (lo, hi) };
+    let (mut d0, mut d1) = (lo.floor(), hi.ceil());
+    if d1 <= d0 {
+        d0 -= 1.0;
+        d1 += 1.0;
+    }
+    let f = Frame { left: MARGIN_L, top: MARGIN_T, width: PLOT_W - MARGIN_L - MARGIN_R, height: PLOT_H - MARGIN_T - MARGIN_B };
+    let n = idx.max(2) - 1;
+    let (xa, xb, xt) = ticks(0.0, n as f64, 8.0);
+    let xt: Vec<f64> = xt.into_iter().filter(|t| t.fract() == 0.0).collect();
+    let x = Scale::new(xa, xb, f.left, f.right());
+    let y = Scale::new(d0, d1, f.bottom(), f.top);
+
+    let mut svg = Svg::new(PLOT_W, PLOT_H);
+    title(&mut svg, &heading, HEADING);
+    // Log y axis: a grid line and label at each decade.
+    let decades = (d1 - d0) as usize;
+    let every = decades.div_ceil(10).max(1);
+    for (i, d) in (0..=decades).map(|i| (i, d0 + i as f64)) {
+        let py = y.at(d);
+        svg.line(f.left, py, f.right(), py, Stroke::solid(GRID, 0.6), "grid");
+        if i % every == 0 {
+            svg.line(f.left - 5.0, py, f.left, py, Stroke::solid(INK, 1.0), "tick");
+            svg.text(f.left - 8.0, py + 4.0, &format!("1e{}", d as i64), 11.0, Anchor::End, "tick-label");
+        }
+    }
+    let xs = if xt.len() > 1 { xt[1] - xt[0] } else { 1.0 };
+    for &t in &xt {
+        let px = x.at(t);
+        svg.line(px, f.bottom(), px, f.bottom() + 5.0, Stroke::solid(INK, 1.0), "tick");
+        svg.text(px, f.bottom() + 19.0, &tick_label(t, xs.max(1.0)), 11.0, Anchor::Middle, "tick-label");
+    }
+    for (k, (start, _step)) in starts.iter().enumerate() {
+        if k > 0 {
+            let px = x.at(*start as f64 - 0.5);
+            svg.line(px, f.top, px, f.bottom(), Stroke::solid(MUTED, 0.6), "step-boundary");
+        }
+    }
+    if positive(tol) {
+        let py = y.at(tol.log10());
+        svg.line(f.left, py, f.right(), py, Stroke::dashed(INK, 1.0, "6 4"), "tolerance");
+        svg.text(f.right() - 4.0, py - 5.0, &format!("tolerance {tol:.0e}"), 10.5, Anchor::End, "tolerance-label");
+    }
+    frame_box(&mut svg, f);
+    svg.text(f.left + f.width / 2.0, f.bottom() + 42.0, "iteration (all steps in order)", 13.0, Anchor::Middle, "axis-label");
+    svg.text_vertical(f.left - 58.0, f.top + f.height / 2.0, "relative residual norm (log scale)", 13.0, "axis-label");
+
+    let color = SERIES_COLORS[0];
+    let mut offset = 0usize;
+    for s in &results.steps {
+        let line: Vec<(f64, f64)> = s
+            .residual_history
+            .iter()
+            .enumerate()
+            .filter(|(_, r)| positive(**r))
+            .map(|(k, r)| (x.at((offset + k) as f64), y.at(r.log10())))
+            .collect();
+        svg.polyline(&line, Stroke::solid(color, 1.3), "history");
+        offset += s.residual_history.len();
+    }
+    for (i, r, refactored) in &pts {
+        if !positive(*r) {
+            continue;
+        }
+        let (px, py) = (x.at(*i as f64), y.at(r.log10()));
+        if *refactored {
+            svg.marker(Shape::Square, px, py, MARKER_R + 1.0, INK, false, "refactor");
+        } else {
+            svg.marker(Shape::Circle, px, py, 2.6, color, true, "it");
+        }
+    }
+    let rows = [
+        LegendRow { stroke: Some(Stroke::solid(color, 1.3)), marker: Some((Shape::Circle, true)), color, label: "residual".into() },
+        LegendRow { stroke: None, marker: Some((Shape::Square, false)), color: INK, label: "tangent refactored".into() },
+        LegendRow { stroke: Some(Stroke::solid(MUTED, 0.6)), marker: None, color: MUTED, label: "step boundary".into() },
+        LegendRow { stroke: Some(Stroke::dashed(INK, 1.0, "6 4")), marker: None, color: INK, label: "tolerance".into() },
+    ];
+    legend(&mut svg, f.right() + 18.0, f.top + 10.0, &rows);
+    Ok(svg.finish())
+}
+
+/// Colour of an axial force on the diverging scale; `t` in [−1, 1].
+fn force_color(t: f64) -> String {
+    let t = if t.is_finite() { t.clamp(-1.0, 1.0) } else { 0.0 };
+    let end = if t >= 0.0 { TENSION_RGB } else { COMPRESSION_RGB };
+    let a = t.abs();
+    let c: Vec<u8> = (0..3).map(|k| (NEUTRAL_RGB[k] + a * (end[k] - NEUTRAL_RGB[k])).round().clamp(0.0, 255.0) as u8).collect();
+    format!("#{:02x}{:02x}{:02x}", c[0], c[1], c[2])
+}
+
+/// A displacement scale of 1, 2 or 5 × 10^k, close to `raw` and not above it.
+fn nice_factor(raw: f64) -> f64 {
+    if !raw.is_finite() || raw <= 0.0 {
+        return 1.0;
+    }
+    let mag = 10f64.powf(raw.log10().floor());
+    let f = raw / mag;
+    let nice = if f >= 5.0 { 5.0 } else if f >= 2.0 { 2.0 } else { 1.0 };
+    nice * mag
+}
+
+fn factor_text(v: f64) -> String {
+    if (1e-3..1e7).contains(&v) {
+        let s = format!("{v:.3}");
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        format!("{v:.0e}")
+    }
+}
+
+/// Undeformed (grey, dashed) and deformed shape in plan (x–y) and elevation
+/// (x–z), displacements magnified so the largest is about a tenth of the
+/// model size. Members are coloured by axial force (tension teal, solid;
+/// compression brick red, dashed; near zero pale); slack cables are dotted.
+/// `final_displacements` per node in m, `member_forces` in N.
+pub fn shape_svg(
+    model: &Model,
+    final_displacements: &[[f64; 3]],
+    member_forces: &[f64],
+    member_slack: &[bool],
+) -> Result<String, String> {
+    let heading = if model.title.trim().is_empty() { "deformed shape" } else { model.title.as_str() };
+    if model.nodes.is_empty() {
+        return Ok(no_data(SHAPE_W, SHAPE_H, heading, "the model has no nodes"));
+    }
+    if final_displacements.len() != model.nodes.len() {
+        return Err(format!("{} displacements given for {} nodes", final_displacements.len(), model.nodes.len()));
+    }
+    if member_forces.len() != model.members.len() || member_slack.len() != model.members.len() {
+        return Err(format!(
+            "{} forces and {} slack flags given for {} members",
+            member_forces.len(),
+            member_slack.len(),
+            model.members.len()
+        ));
+    }
+    if let Some((i, _)) = final_displacements.iter().enumerate().find(|(_, d)| d.iter().any(|v| !v.is_finite())) {
+        return Err(format!("the displacement of node {} is not finite", model.nodes[i].label));
+    }
+    if let Some(m) = model.members.iter().find(|m| m.ends.iter().any(|e| *e >= model.nodes.len())) {
+        return Err(format!("member {} refers to a node that does not exist", m.label));
+    }
+    if model.nodes.iter().any(|n| n.at.iter().any(|v| !v.is_finite())) {
+        return Err("a node position is not finite".into());
+    }
+    let units = model.units;
+    let len = |v: f64| units.length_out(v);
+
+    // Model size and the magnification.
+    let size = (0..3)
+        .filter_map(|a| extent(model.nodes.iter().map(|n| n.at[a])).map(|(lo, hi)| hi - lo))
+        .fold(0.0f64, f64::max);
+    let size = if size > 0.0 { size } else { 1.0 };
+    let dmax = final_displacements.iter().map(|d| (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt()).fold(0.0f64, f64::max);
+    let factor = if dmax > 0.0 { nice_factor(DISPLACEMENT_SHARE * size / dmax) } else { 1.0 };
+    let deformed: Vec<[f64; 3]> = model
+        .nodes
+        .iter()
+        .zip(final_displacements)
+        .map(|(n, d)| [n.at[0] + factor * d[0], n.at[1] + factor * d[1], n.at[2] + factor * d[2]])
+        .collect();
+
+    let forces_out: Vec<f64> = member_forces.iter().map(|f| units.force_out(*f)).collect();
+    let fmax = forces_out.iter().filter(|f| f.is_finite()).fold(0.0f64, |a, f| a.max(f.abs()));
+
+    let mut svg = Svg::new(SHAPE_W, SHAPE_H);
+    title(&mut svg, heading, "deformed shape");
+    let scale_text = if dmax > 0.0 {
+        format!(
+            "displacements ×{} (largest {:.4} {})",
+            factor_text(factor),
+            len(dmax),
+            units.length.name()
+        )
+    } else {
+        "displacements ×1 (all displacements are zero)".to_string()
+    };
+    svg.text(SHAPE_W / 2.0, 46.0, &scale_text, 12.0, Anchor::Middle, "scale");
+
+    const LEGEND_W: f64 = 210.0;
+    const GAP: f64 = 60.0;
+    let panel_w = (SHAPE_W - MARGIN_L - LEGEND_W - GAP - 30.0) / 2.0;
+    let panels = [(0usize, 1usize, "plan (x–y)"), (0usize, 2usize, "elevation (x–z)")];
+    for (p, (ax, ay, name)) in panels.iter().enumerate() {
+        let f = Frame {
+            left: MARGIN_L + p as f64 * (panel_w + GAP),
+            top: MARGIN_T + 18.0,
+            width: panel_w,
+            height: SHAPE_H - MARGIN_T - 18.0 - MARGIN_B,
+        };
+        let all = model.nodes.iter().map(|n| n.at).chain(deformed.iter().copied());
+        let pts: Vec<[f64; 3]> = all.collect();
+        let (x0, x1) = extent(pts.iter().map(|q| len(q[*ax]))).unwrap_or((0.0, 1.0));
+        let (y0, y1) = extent(pts.iter().map(|q| len(q[*ay]))).unwrap_or((0.0, 1.0));
+        // Equal scales on both axes, with a little room.
+        let span = (x1 - x0).max(y1 - y0);
+        let span = if span > 0.0 { span * 1.1 } else { len(size) * 1.1 };
+        let ppu = (f.width / span).min(f.height / span);
+        let (cx, cy) = ((x0 + x1) / 2.0, (y0 + y1) / 2.0);
+        let hx = f.width / ppu / 2.0;
+        let hy = f.height / ppu / 2.0;
+        let (xa, xb, xt) = ticks(cx - hx, cx + hx, 5.0);
+        let (ya, yb, yt) = ticks(cy - hy, cy + hy, 5.0);
+        let xt: Vec<f64> = xt.into_iter().filter(|t| *t >= cx - hx && *t <= cx + hx).collect();
+        let yt: Vec<f64> = yt.into_iter().filter(|t| *t >= cy - hy && *t <= cy + hy).collect();
+        let _ = (xa, xb, ya, yb);
+        let x = Scale::new(cx - hx, cx + hx, f.left, f.right());
+        let y = Scale::new(cy - hy, cy + hy, f.bottom(), f.top);
+        let axis = |a: usize| ['x', 'y', 'z'][a];
+        svg.text(f.left + f.width / 2.0, f.top - 8.0, name, 13.0, Anchor::Middle, "panel-title");
+        axes(
+            &mut svg,
+            f,
+            &x,
+            &xt,
+            &y,
+            &yt,
+            &format!("{} [{}]", axis(*ax), units.length.name()),
+            &format!("{} [{}]", axis(*ay), units.length.name()),
+        );
+        svg.open_group("undeformed");
+        for m in &model.members {
+            let (a, b) = (model.nodes[m.ends[0]].at, model.nodes[m.ends[1]].at);
+            svg.line(
+                x.at(len(a[*ax])),
+                y.at(len(a[*ay])),
+                x.at(len(b[*ax])),
+                y.at(len(b[*ay])),
+                Stroke::dashed(MUTED, 0.8, "4 3"),
+                "undeformed",
+            );
+        }
+        svg.close_group();
+        svg.open_group("deformed");
+        for (k, m) in model.members.iter().enumerate() {
+            let (a, b) = (deformed[m.ends[0]], deformed[m.ends[1]]);
+            let force = forces_out[k];
+            let t = if fmax > 0.0 && force.is_finite() { force / fmax } else { 0.0 };
+            let color = if member_slack[k] { MUTED.to_string() } else { force_color(t) };
+            let (width, dash, class) = if member_slack[k] {
+                (1.6, Some(SLACK_DASH), "member slack")
+            } else if t < 0.0 {
+                (1.6 + 1.8 * t.abs(), Some(COMPRESSION_DASH), "member compression")
+            } else {
+                (1.6 + 1.8 * t.abs(), None, "member tension")
+            };
+            svg.line(
+                x.at(len(a[*ax])),
+                y.at(len(a[*ay])),
+                x.at(len(b[*ax])),
+                y.at(len(b[*ay])),
+                Stroke { color: &color, width, dash },
+                class,
+            );
+        }
+        svg.close_group();
+    }
+
+    force_legend(&mut svg, SHAPE_W - LEGEND_W - 10.0, MARGIN_T + 30.0, fmax, units.force.name());
+    Ok(svg.finish())
+}
+
+/// The colour bar of axial force and the line-style key of the shape plot.
+fn force_legend(svg: &mut Svg, x: f64, y: f64, fmax: f64, unit: &str) {
+    const BAR_H: f64 = 180.0;
+    const BAR_W: f64 = 18.0;
+    const BANDS: usize = 20;
+    svg.text(x, y, &format!("axial force [{unit}]"), 12.0, Anchor::Start, "legend-text");
+    let top = y + 12.0;
+    for i in 0..BANDS {
+        // Top band: full tension; bottom band: full compression.
+        let t = 1.0 - 2.0 * (i as f64 + 0.5) / BANDS as f64;
+        let h = BAR_H / BANDS as f64;
+        let c = force_color(t);
+        svg.rect(x, top + i as f64 * h, BAR_W, h + 0.3, &c, None, "colour-band");
+    }
+    svg.rect(x, top, BAR_W, BAR_H, "none", Some(Stroke::solid(INK, 0.8)), "colour-bar");
+    let label = |v: f64| if v == 0.0 { "0".to_string() } else if (1e-3..1e6).contains(&v.abs()) { format!("{v:+.4}") } else { format!("{v:+.3e}") };
+    for (frac, v, note) in [(0.0, fmax, " tension"), (0.5, 0.0, ""), (1.0, -fmax, " compression")] {
+        let py = top + frac * BAR_H;
+        svg.line(x + BAR_W, py, x + BAR_W + 5.0, py, Stroke::solid(INK, 1.0), "tick");
+        svg.text(x + BAR_W + 8.0, py + 4.0, &format!("{}{note}", label(v)), 11.0, Anchor::Start, "legend-text");
+    }
+    let key_y = top + BAR_H + 36.0;
+    let tension = force_color(0.8);
+    let compression = force_color(-0.8);
+    let rows = [
+        LegendRow { stroke: Some(Stroke::dashed(MUTED, 0.8, "4 3")), marker: None, color: MUTED, label: "undeformed".into() },
+        LegendRow { stroke: Some(Stroke::solid(&tension, 2.6)), marker: None, color: INK, label: "tension (solid)".into() },
+        LegendRow {
+            stroke: Some(Stroke::dashed(&compression, 2.6, COMPRESSION_DASH)),
+            marker: None,
+            color: INK,
+            label: "compression (dashed)".into(),
+        },
+        LegendRow { stroke: Some(Stroke::dashed(MUTED, 1.6, SLACK_DASH)), marker: None, color: INK, label: "slack cable (dotted)".into() },
+    ];
+    legend(svg, x + 6.0, key_y, &rows);
+    let _ = BAR_W;
+}
