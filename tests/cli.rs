@@ -759,3 +759,37 @@ fn output_folder_of_another_model_needs_force() {
     assert_eq!(r.code, 0, "{r}");
     assert!(json(&out.join("results.json"))["model_file"].as_str().unwrap().ends_with("courtyard_net.toml"));
 }
+
+// -- form finding ------------------------------------------------------------
+
+/// `form` on a generated saddle net writes formed.toml and form.csv; `solve`
+/// on formed.toml starts in equilibrium (first residual below 1e-9 relative,
+/// no iteration at step 0) at λ = 1, where the form-finding loads act.
+#[test]
+fn formed_net_solves_from_equilibrium() {
+    let sc = Scratch::new("form");
+    let model = sc.path("net.toml");
+    let r = tautline(&["generate", "net", "--nx", "9", "--ny", "9", "-o", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    let text = std::fs::read_to_string(&model).unwrap().replace("[analysis]", "[form]\nforce_density = 2000.0\n\n[analysis]");
+    std::fs::write(&model, text).unwrap();
+    let out = sc.path("formed");
+    let r = tautline(&["form", s(&model), "-o", s(&out)]);
+    assert_eq!(r.code, 0, "{r}");
+    let (header, rows) = csv(&out.join("form.csv"));
+    assert_eq!(header, ["id", "force_N", "length_m", "force_density_N/m"]);
+    assert_eq!(rows.len(), 144);
+    let run = out.join("run");
+    let r = solve(&out.join("formed.toml"), &run, &["--target", "2"]);
+    assert_eq!(r.code, 0, "{r}");
+    let res = json(&run.join("results.json"));
+    let first = &res["steps"][0];
+    assert_eq!(first["load_factor"].as_f64().unwrap(), 1.0);
+    assert!(first["residual"].as_f64().unwrap() < 1e-9, "{first}");
+    assert_eq!(first["iterations"].as_u64().unwrap(), 0);
+    // A model without any force density is bad input.
+    let bare = sc.write("bare.toml", &std::fs::read_to_string(&model).unwrap().replace("force_density = 2000.0", ""));
+    let r = tautline(&["form", s(&bare), "-o", s(&sc.path("no"))]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(!sc.path("no").exists());
+}

@@ -322,5 +322,13 @@ pub fn formed_model(model: &Model, form: &FormResult) -> Model {
             }
         }
     }
+    if !out.loads.is_empty() {
+        // The found shape balances the form-finding loads at full value:
+        // the analysis of the formed model starts there.
+        out.analysis.start_load_factor = 1.0;
+        if out.analysis.control != crate::model::Control::Displacement && out.analysis.target < 1.0 {
+            out.analysis.target = 1.0;
+        }
+    }
     out
 }

@@ -121,6 +121,7 @@ pub struct AnalysisEntry {
     pub arc_variant: Option<Spanned<String>>,
     pub stability_check: Option<Spanned<String>>,
     pub pinpoint: Option<Spanned<bool>>,
+    pub start_load_factor: Option<Spanned<f64>>,
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -263,6 +264,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("arc_variant", "arc_variant = \"cylindrical\""),
         key("stability_check", "stability_check = \"every-step\""),
         key("pinpoint", "pinpoint = true"),
+        key("start_load_factor", "start_load_factor = 0.0"),
     ],
 };
 

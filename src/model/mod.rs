@@ -260,6 +260,9 @@ pub struct Analysis {
     /// Factor the tangent at every converged state to count its negative
     /// pivots (stability); false: only when the corrector refactors anyway.
     pub stability_each_step: bool,
+    /// Load factor of the first state: 1 for a formed model, whose shape
+    /// balances its form-finding loads at full value.
+    pub start_load_factor: f64,
     /// Pinpoint critical points by bisection when the pivot count changes.
     pub pinpoint: bool,
     /// Arc-length variant: Riks/Ramm normal plane instead of Crisfield's cylinder.
@@ -291,6 +294,7 @@ impl Default for Analysis {
             arc_variant_normal_plane: false,
             stability_each_step: true,
             pinpoint: true,
+            start_load_factor: 0.0,
         }
     }
 }

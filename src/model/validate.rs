@@ -1195,6 +1195,12 @@ fn analysis(
         )
         .unwrap_or(a.max_cutbacks);
     }
+    if let Some(v) = &e.start_load_factor {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "start_load_factor", Rule::Finite, "") {
+            a.start_load_factor = x;
+        }
+    }
     if let Some(v) = &e.pinpoint {
         a.pinpoint = *v.get_ref();
     }

@@ -175,6 +175,9 @@ pub fn to_toml(model: &Model) -> String {
     if let Some(n) = a.line_search {
         let _ = writeln!(s, "line_search = {n}");
     }
+    if a.start_load_factor != 0.0 {
+        let _ = writeln!(s, "start_load_factor = {}", num(a.start_load_factor));
+    }
     if let Some(t) = a.displacement_tolerance {
         let _ = writeln!(s, "displacement_tolerance = {}", num(t));
     }

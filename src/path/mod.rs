@@ -358,6 +358,7 @@ impl<'a> Tracer<'a> {
         let a = self.model.analysis.clone();
         let sys = self.system;
         let mut state = State::at_rest(sys, self.model.n_nodes());
+        state.lambda = a.start_load_factor;
         let mut points = Vec::new();
         let mut mechanism = None;
         let mut last_failure = None;
@@ -656,7 +657,8 @@ impl Stepper {
     fn new(a: &crate::model::Analysis, sys: &System, ws: &mut Workspace) -> Stepper {
         let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
         let nominal = match a.control {
-            Control::Load | Control::Displacement => a.target / a.steps.max(1) as f64,
+            Control::Load => (a.target - a.start_load_factor) / a.steps.max(1) as f64,
+            Control::Displacement => a.target / a.steps.max(1) as f64,
             Control::ArcLength => a.arc.unwrap_or_else(|| {
                 // No arc given: the displacement of the first load increment
                 // along the tangent.

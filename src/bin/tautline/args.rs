@@ -30,6 +30,15 @@ pub enum Command {
         #[command(flatten)]
         overrides: Overrides,
     },
+    /// Find the shape of a prestressed cable net by the force density method;
+    /// write DIR/formed.toml (ready to solve) and DIR/form.csv
+    Form {
+        /// Model file (TOML) with force densities per member or in [form]
+        model: PathBuf,
+        /// Output folder (created if missing)
+        #[arg(short = 'o', long = "out", value_name = "DIR")]
+        out: PathBuf,
+    },
     /// Write a parametric model file (saddle cable net or shallow lattice dome)
     Generate {
         #[command(subcommand)]

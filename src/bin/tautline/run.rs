@@ -43,6 +43,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
             solve(&m, &out, Some(&model), force)
         }
+        Command::Form { model, out } => form(&model, &out),
         Command::Generate { what } => generate(what),
         Command::Bench(a) => crate::bench::bench(&a),
         Command::BenchRun(a) => crate::bench::bench_run(&a),
@@ -355,4 +356,32 @@ impl Observer for Interrupt {
     fn on_step(&mut self, _: &StepEvent) -> Answer {
         self.answer()
     }
+}
+
+/// `form`: force density form finding, then the formed model and its table.
+fn form(model_path: &Path, out: &Path) -> Result<u8, Failure> {
+    let m = load(model_path)?;
+    let found = tautline::form::force_density(&m).map_err(|e| Failure::BadInput(format!("{}: {e}", model_path.display())))?;
+    for w in &found.warnings {
+        eprintln!("warning: {w}");
+    }
+    let formed = tautline::form::formed_model(&m, &found);
+    for w in formed.warnings.iter().skip(m.warnings.len()) {
+        eprintln!("warning: {w}");
+    }
+    prepare_out_dir(out, Some(model_path), &m.files[0], true)?;
+    let mut staged = report::Staged::default();
+    let io = |e: std::io::Error| Failure::Internal(anyhow::anyhow!("writing into {}: {e}", out.display()));
+    staged.add(out, "formed.toml", model::write::to_toml(&formed).as_bytes()).map_err(io)?;
+    staged.add(out, "form.csv", model::write::form_csv(&m, &found).as_bytes()).map_err(io)?;
+    let written = staged.commit().map_err(io)?;
+    let u = m.units;
+    let (lo, hi) = found.forces.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), f| (a.min(*f), b.max(*f)));
+    println!("form: {} ({} members, force density method)", m.title, m.n_members());
+    if lo.is_finite() {
+        println!("member forces {:.6} to {:.6} {}", u.force_out(lo), u.force_out(hi), u.force.name());
+    }
+    println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
+    println!("{CAUTION}");
+    Ok(exit::DONE)
 }
