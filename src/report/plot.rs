@@ -15,14 +15,14 @@ use crate::results::Results;
 use svg::{Anchor, Shape, Stroke, Svg, GRID, INK, MUTED, SHAPES, TITLE_SIZE};
 
 /// Size of the path and convergence plots, px.
-const PLOT_W: f64 = 760.0;
+const PLOT_W: f64 = 800.0;
 const PLOT_H: f64 = 520.0;
 /// Size of the shape plot (two panels side by side), px.
 const SHAPE_W: f64 = 1100.0;
 const SHAPE_H: f64 = 560.0;
 /// Space around the plotting area, px.
 const MARGIN_L: f64 = 84.0;
-const MARGIN_R: f64 = 190.0;
+const MARGIN_R: f64 = 220.0;
 const MARGIN_T: f64 = 62.0;
 const MARGIN_B: f64 = 74.0;
 const MARKER_R: f64 = 4.0;
@@ -306,7 +306,7 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
     }
 
     // Critical points: a ring around the point on each series, text once.
-    for (k, c) in results.critical_points.iter().enumerate() {
+    for c in &results.critical_points {
         if !c.load_factor.is_finite() {
             continue;
         }
@@ -318,7 +318,8 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
             let (px, py) = (x.at(*xv), y.at(c.load_factor));
             svg.marker(Shape::Circle, px, py, 8.0, INK, false, "crit");
             if !labelled {
-                let dy = if k % 2 == 0 { -12.0 } else { 20.0 };
+                // Above the ring, unless that leaves the frame.
+                let dy = if py - 14.0 > f.top + 12.0 { -14.0 } else { 22.0 };
                 let anchor = if px > f.left + 0.7 * f.width { Anchor::End } else { Anchor::Start };
                 let dx = if matches!(anchor, Anchor::End) { -10.0 } else { 10.0 };
                 svg.text(px + dx, py + dy, &format!("{} λ = {:.4}", c.kind, c.load_factor), 11.5, anchor, "crit-label");

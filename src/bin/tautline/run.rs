@@ -235,6 +235,25 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool) -> Resul
     write(&mut staged, "results.json", report::results_json(&res))?;
     write(&mut staged, "path.csv", report::path_csv(&res))?;
     write(&mut staged, "members.csv", report::members_csv(&members, m.units.force.name(), m.units.length.name()))?;
+    // Plots: a plot that cannot be drawn is reported and left out; the
+    // numbers above are written regardless.
+    let node_u: Vec<[f64; 3]> = (0..m.n_nodes())
+        .map(|n| std::array::from_fn(|a| system.dofs.displacement(&path.final_state.u, n, a)))
+        .collect();
+    let member_state = system.member_results(&path.final_state.u);
+    let forces: Vec<f64> = member_state.iter().map(|r| r.force).collect();
+    let slack: Vec<bool> = member_state.iter().map(|r| r.slack).collect();
+    let plots = [
+        ("path.svg", report::plot::path_svg(&res)),
+        ("shape.svg", report::plot::shape_svg(m, &node_u, &forces, &slack)),
+        ("convergence.svg", report::plot::convergence_svg(&res)),
+    ];
+    for (name, svg) in plots {
+        match svg {
+            Ok(text) => write(&mut staged, name, text)?,
+            Err(e) => eprintln!("warning: {name} not drawn: {e}"),
+        }
+    }
     let written: Vec<PathBuf> = staged
         .commit()
         .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
