@@ -322,7 +322,7 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
                 let dy = if py - 14.0 > f.top + 12.0 { -14.0 } else { 22.0 };
                 let anchor = if px > f.left + 0.7 * f.width { Anchor::End } else { Anchor::Start };
                 let dx = if matches!(anchor, Anchor::End) { -10.0 } else { 10.0 };
-                svg.text(px + dx, py + dy, &format!("{} λ = {:.4}", c.kind, c.load_factor), 11.5, anchor, "crit-label");
+                svg.text_halo(px + dx, py + dy, &format!("{} λ = {:.4}", c.kind, c.load_factor), 11.5, anchor, "crit-label");
                 labelled = true;
             }
             let _ = i;

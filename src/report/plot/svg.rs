@@ -180,6 +180,20 @@ impl Svg {
         );
     }
 
+    /// Text with a paper-coloured halo, legible over lines and markers.
+    pub fn text_halo(&mut self, x: f64, y: f64, s: &str, size: f64, anchor: Anchor, class: &str) {
+        let _ = writeln!(
+            self.buf,
+            r#"<text class="{}" x="{}" y="{}" font-size="{}" text-anchor="{}" fill="{INK}" stroke="{PAPER}" stroke-width="4" stroke-linejoin="round" paint-order="stroke">{}</text>"#,
+            esc(class),
+            px(x),
+            px(y),
+            px(size),
+            anchor.name(),
+            esc(s)
+        );
+    }
+
     /// Text turned 90° anticlockwise about its anchor (for a y-axis label).
     pub fn text_vertical(&mut self, x: f64, y: f64, s: &str, size: f64, class: &str) {
         let _ = writeln!(
