@@ -168,33 +168,51 @@ pub struct Tracer<'a> {
     pub wasted: StepRecord,
 }
 
-/// Finds the node directions of a mechanism: one solve with the regularized
-/// factorization amplifies the null direction of the singular tangent
-/// (inverse iteration, one step from a uniform start, then one more).
-pub fn find_mechanism(system: &System, ws: &mut Workspace, state: &State) -> Vec<NodeDir> {
+/// The null direction of the tangent at (u, λ) by inverse iteration: the
+/// tangent is factored with tiny pivots regularized, so each solve amplifies
+/// the direction in which it is (nearly) singular. Starts from a vector with
+/// no special symmetry; returns the last finite unit vector and whether all
+/// `iterations` solves stayed finite.
+fn null_mode(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, iterations: usize) -> (Vec<f64>, bool) {
     let mut k = system.new_tangent_values();
     let mut r = vec![0.0; system.n_free()];
-    let mut react = vec![0.0; state.reactions.len()];
-    system.residual_and_tangent(&state.u, state.lambda, &mut r, &mut react, &mut k);
+    let mut react = vec![0.0; n_reactions];
+    system.residual_and_tangent(u, lambda, &mut r, &mut react, &mut k);
     ws.h.ldlt.factorize_regularized(&system.pattern, &k);
     ws.fresh = false;
     let n = system.n_free();
-    // A start vector with no special symmetry.
     let mut x: Vec<f64> = (0..n).map(|i| 1.0 + ((i * 7919) % 13) as f64 * 0.01).collect();
-    for _ in 0..2 {
-        ws.h.ldlt.solve_in_place(&mut x);
-        let norm = x.iter().map(|v| v * v).sum::<f64>().sqrt();
+    for _ in 0..iterations {
+        let mut next = x.clone();
+        ws.h.ldlt.solve_in_place(&mut next);
+        let norm = next.iter().map(|v| v * v).sum::<f64>().sqrt();
         if !(norm > 0.0 && norm.is_finite()) {
-            return Vec::new();
+            return (x, false);
         }
-        x.iter_mut().for_each(|v| *v /= norm);
+        next.iter_mut().for_each(|v| *v /= norm);
+        x = next;
     }
-    let max = x.iter().map(|v| v.abs()).fold(0.0, f64::max);
-    let mut moving: Vec<(f64, usize)> =
-        x.iter().enumerate().filter(|(_, v)| v.abs() >= 0.5 * max).map(|(i, v)| (v.abs(), i)).collect();
-    moving.sort_by(|a, b| b.0.total_cmp(&a.0));
-    moving.truncate(8);
-    moving.into_iter().map(|(_, d)| system.dofs.owner(d)).collect()
+    (x, true)
+}
+
+/// Node directions carrying at least half the largest component of a mode,
+/// largest first, at most eight.
+fn dominant_dirs(system: &System, mode: &[f64]) -> Vec<NodeDir> {
+    let max = mode.iter().map(|v| v.abs()).fold(0.0, f64::max);
+    let mut big: Vec<(f64, usize)> =
+        mode.iter().enumerate().filter(|(_, v)| v.abs() >= 0.5 * max).map(|(i, v)| (v.abs(), i)).collect();
+    big.sort_by(|a, b| b.0.total_cmp(&a.0));
+    big.truncate(8);
+    big.into_iter().map(|(_, d)| system.dofs.owner(d)).collect()
+}
+
+/// Finds the node directions of a mechanism: two steps of inverse iteration
+/// on the singular tangent.
+pub fn find_mechanism(system: &System, ws: &mut Workspace, state: &State) -> Vec<NodeDir> {
+    match null_mode(system, ws, &state.u, state.lambda, state.reactions.len(), 2) {
+        (mode, true) => dominant_dirs(system, &mode),
+        (_, false) => Vec::new(),
+    }
 }
 
 fn add_records(into: &mut StepRecord, from: &StepRecord) {
@@ -308,37 +326,18 @@ impl<'a> Tracer<'a> {
             }
         }
         // Mode: inverse iteration with the (regularized) factor at B.
-        st.u.clone_from(&ub);
-        st.lambda = lb;
-        let mut k = sys.new_tangent_values();
-        let mut r = vec![0.0; sys.n_free()];
-        let mut react = vec![0.0; st.reactions.len()];
-        sys.residual_and_tangent(&st.u, st.lambda, &mut r, &mut react, &mut k);
-        ws.h.ldlt.factorize_regularized(&sys.pattern, &k);
+        let (phi, _) = null_mode(sys, ws, &ub, lb, b.reactions.len(), 4);
         self.wasted.factorizations += 1;
-        let n = sys.n_free();
-        let mut phi: Vec<f64> = (0..n).map(|i| 1.0 + ((i * 7919) % 13) as f64 * 0.01).collect();
-        for _ in 0..4 {
-            ws.h.ldlt.solve_in_place(&mut phi);
-            let norm = phi.iter().map(|v| v * v).sum::<f64>().sqrt();
-            if !(norm > 0.0 && norm.is_finite()) {
-                break;
-            }
-            phi.iter_mut().for_each(|v| *v /= norm);
-        }
         let f_norm = sys.f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
         let alignment = (dot(&phi, &sys.f_ref) / f_norm.max(f64::MIN_POSITIVE)).abs();
         let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
-        let mut big: Vec<(f64, usize)> = phi.iter().enumerate().filter(|(_, v)| v.abs() >= 0.5 * max).map(|(i, v)| (v.abs(), i)).collect();
-        big.sort_by(|x, y| y.0.total_cmp(&x.0));
-        big.truncate(8);
         let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
         Critical {
             kind: if alignment < BIFURCATION_ALIGNMENT { CriticalKind::Bifurcation } else { CriticalKind::Limit },
             lambda: 0.5 * (la + lb),
             step: 0,
             watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
-            mode: big.into_iter().map(|(_, d)| sys.dofs.owner(d)).collect(),
+            mode: dominant_dirs(sys, &phi),
             mode_watched: self
                 .model
                 .analysis
