@@ -45,6 +45,8 @@ pub struct System {
     springs: Vec<GroundSpring>,
     /// Reference load on the free DOFs, N.
     pub f_ref: Vec<f64>,
+    /// ‖f_ref‖, N, computed once.
+    f_ref_norm: f64,
 }
 
 /// Why a system could not be built.
@@ -97,7 +99,13 @@ impl System {
                 }
             }
         }
-        Ok(System { dofs, pattern, strain, bars, ends, springs, f_ref })
+        let f_ref_norm = f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
+        Ok(System { dofs, pattern, strain, bars, ends, springs, f_ref, f_ref_norm })
+    }
+
+    /// ‖f_ref‖, N.
+    pub fn f_ref_norm(&self) -> f64 {
+        self.f_ref_norm
     }
 
     pub fn n_free(&self) -> usize {

@@ -328,7 +328,7 @@ impl<'a> Tracer<'a> {
         // Mode: inverse iteration with the (regularized) factor at B.
         let (phi, _) = null_mode(sys, ws, &ub, lb, b.reactions.len(), 4);
         self.wasted.factorizations += 1;
-        let f_norm = sys.f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
+        let f_norm = sys.f_ref_norm();
         let alignment = (dot(&phi, &sys.f_ref) / f_norm.max(f64::MIN_POSITIVE)).abs();
         let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
         let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();

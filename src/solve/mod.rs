@@ -235,7 +235,7 @@ impl Workspace {
 /// A force scale below which the residual is judged against the reference
 /// load instead, so an unloaded, unstressed start does not divide by zero.
 fn relative(system: &System, norms: crate::assembly::system::ResidualNorms) -> f64 {
-    let f_ref = system.f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
+    let f_ref = system.f_ref_norm();
     let scale = norms.force_scale.max(1e-12 * f_ref).max(f64::MIN_POSITIVE);
     norms.residual / scale
 }
