@@ -431,16 +431,13 @@ impl<'a> Tracer<'a> {
 
             let (term, record) = match a.control {
                 Control::Load => {
-                    // Do not step past the target.
-                    let remaining = a.target - progress;
-                    let inc = if stepper.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { stepper.size };
+                    let inc = stepper.towards(a.target - progress);
                     state.lambda += inc;
                     solve::drive(sys, ws, &mut state, &start_u, start_lambda, &FixedLoad, &self.corrector, step, observer)
                 }
                 Control::Displacement => {
                     let dof = stepper.control_dof.expect("validated: the controlled point is free");
-                    let remaining = a.target - progress;
-                    let inc = if stepper.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { stepper.size };
+                    let inc = stepper.towards(a.target - progress);
                     // Predictor along the tangent: δu_f = K⁻¹ f_ref scaled so the
                     // controlled DOF moves by the increment.
                     let du_f = tangent_direction(sys, ws);
@@ -676,6 +673,12 @@ impl Stepper {
             control_dof,
             normal_plane: a.arc_variant_normal_plane,
         }
+    }
+
+    /// The next increment, shortened so as not to step past the target when
+    /// `remaining` is left to go.
+    fn towards(&self, remaining: f64) -> f64 {
+        if self.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { self.size }
     }
 
     /// Halves the step; false when it would fall below the smallest size.
