@@ -16,5 +16,7 @@
 //! `l − Lr` leaves 1e-10 at strains of 1e-3.
 
 pub mod bar;
+pub mod catenary;
 
 pub use bar::{AxialState, Bar};
+pub use catenary::Catenary;
