@@ -3,7 +3,7 @@
 //! [`System`]; writers in `report` read nothing else.
 
 use crate::assembly::System;
-use crate::model::{Model, MemberKind};
+use crate::model::Model;
 use crate::path::{Path, StopReason};
 use crate::solve::Termination;
 use serde::Serialize;
@@ -29,6 +29,8 @@ pub struct Results {
     pub reactions: Vec<ReactionOut>,
     pub equilibrium: EquilibriumOut,
     pub slack_members: Vec<String>,
+    /// Every time a member went slack along the path, in step order.
+    pub slack_events: Vec<SlackEvent>,
     pub mechanism: Option<MechanismOut>,
     pub totals: Totals,
 }
@@ -107,13 +109,59 @@ pub struct ReactionOut {
 
 #[derive(Clone, Debug, Serialize)]
 pub struct EquilibriumOut {
-    /// Applied load λ·f_ref summed over the structure, model force units.
+    /// Applied load, dead load (self-weight) plus λ·f_ref, summed over the
+    /// structure, model force units.
     pub applied: [f64; 3],
     pub reactions: [f64; 3],
     /// applied + reactions: zero at equilibrium.
     pub imbalance: [f64; 3],
     /// |imbalance| / (|applied| + |reactions|).
     pub relative_imbalance: f64,
+}
+
+/// A member that carried no tension over a run of converged steps.
+#[derive(Clone, Debug, Serialize)]
+pub struct SlackEvent {
+    pub member: String,
+    /// First converged step at which it was slack (0: the initial state).
+    pub step: usize,
+    pub load_factor: f64,
+    /// First later step at which it carried tension again; None: slack to the end.
+    pub tensioned_step: Option<usize>,
+    pub tensioned_load_factor: Option<f64>,
+}
+
+/// The slack episodes of every member along the path: each starts at the
+/// first converged step where the member is slack and ends at the next one
+/// where it is not.
+pub fn slack_events(model: &Model, path: &Path) -> Vec<SlackEvent> {
+    let mut open: Vec<Option<usize>> = vec![None; model.n_members()];
+    let mut events: Vec<SlackEvent> = Vec::new();
+    let mut before: &[u32] = &[];
+    for p in &path.points {
+        for &m in &p.slack {
+            if before.binary_search(&m).is_err() {
+                open[m as usize] = Some(events.len());
+                events.push(SlackEvent {
+                    member: model.members[m as usize].label.clone(),
+                    step: p.step,
+                    load_factor: p.lambda,
+                    tensioned_step: None,
+                    tensioned_load_factor: None,
+                });
+            }
+        }
+        for &m in before {
+            if p.slack.binary_search(&m).is_err() {
+                if let Some(e) = open[m as usize].take() {
+                    events[e].tensioned_step = Some(p.step);
+                    events[e].tensioned_load_factor = Some(p.lambda);
+                }
+            }
+        }
+        before = &p.slack;
+    }
+    events
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -295,8 +343,8 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             by: "spring".into(),
         });
     }
-    let total = model.total_reference_load();
-    let applied = [st.lambda * total[0], st.lambda * total[1], st.lambda * total[2]];
+    // Dead load (self-weight) in full plus λ times the reference load.
+    let applied = system.applied_total(st.lambda);
     let imbalance = [applied[0] + react_sum[0], applied[1] + react_sum[1], applied[2] + react_sum[2]];
     let denom = norm3(applied) + norm3(react_sum);
     let equilibrium = EquilibriumOut {
@@ -365,6 +413,7 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
         reactions,
         equilibrium,
         slack_members,
+        slack_events: slack_events(model, path),
         mechanism: path.mechanism.as_ref().map(|m| MechanismOut {
             load_factor: m.lambda,
             moving: m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect(),
@@ -396,10 +445,7 @@ pub fn members(model: &Model, system: &System, path: &Path) -> Vec<MemberOut> {
             };
             MemberOut {
                 id: m.label.clone(),
-                kind: match m.kind {
-                    MemberKind::Bar => "bar".into(),
-                    MemberKind::Cable => "cable".into(),
-                },
+                kind: m.kind.name().into(),
                 force: units.force_out(r.force),
                 strain: r.strain,
                 length: units.length_out(r.length),

@@ -1,12 +1,52 @@
-//! Residual r(u, λ) = f_int(u) − λ·f_ref and tangent K(u) of a whole structure.
+//! Residual r(u, λ) = f_int(u) − f_dead − λ·f_ref and tangent K(u) of a
+//! whole structure.
+//!
+//! Self-weight: a member of unstressed length Lr whose section weighs w per
+//! unstressed length puts −w·Lr/2·ẑ on each end node, into the constant dead
+//! load f_dead (`self_weight = "dead"`) or into f_ref (`"reference"`). A
+//! catenary member's weight is always dead load: it is the W/2 per end that
+//! its kernel leaves out of the antisymmetric end force (`element::catenary`).
 //!
 //! `u` holds the free DOFs only. Re-assembly writes into caller-owned buffers
 //! through the precomputed scatter map: no allocation per iteration.
 
 use super::dofs::{DofMap, FIXED};
 use super::pattern::{NO_SLOT, Pattern, UPPER_6};
-use crate::element::{AxialState, Bar};
-use crate::model::{MemberKind, Model, RestSpec, StrainMeasure};
+use crate::element::{AxialState, Bar, Catenary};
+use crate::model::{MemberKind, Model, RestSpec, SelfWeight, StrainMeasure};
+
+/// One member's kernel.
+#[derive(Clone, Copy, Debug)]
+enum Element {
+    Bar(Bar),
+    Catenary(Catenary),
+}
+
+impl Element {
+    #[inline]
+    fn state(&self, du: &[f64; 3], strain: StrainMeasure) -> AxialState {
+        match self {
+            Element::Bar(b) => b.state(du, strain),
+            Element::Catenary(c) => c.state(du),
+        }
+    }
+
+    fn rest(&self) -> f64 {
+        match self {
+            Element::Bar(b) => b.rest,
+            Element::Catenary(c) => c.rest,
+        }
+    }
+}
+
+/// A load on a supported direction: it goes straight into the reaction.
+#[derive(Clone, Copy, Debug)]
+struct SupportLoad {
+    /// 3·node + axis.
+    k: usize,
+    dead: f64,
+    reference: f64,
+}
 
 /// A member's state for the results.
 #[derive(Clone, Copy, Debug)]
@@ -40,13 +80,24 @@ pub struct System {
     pub dofs: DofMap,
     pub pattern: Pattern,
     pub strain: StrainMeasure,
-    bars: Vec<Bar>,
+    /// The member kernels.
+    bars: Vec<Element>,
     ends: Vec<[u32; 2]>,
     springs: Vec<GroundSpring>,
     /// Reference load on the free DOFs, N.
     pub f_ref: Vec<f64>,
     /// ‖f_ref‖, N, computed once.
     f_ref_norm: f64,
+    /// Constant dead load (self-weight) on the free DOFs, N.
+    pub f_dead: Vec<f64>,
+    /// Share of the dead load applied: 1 except while the dead-load state is
+    /// being found by load stepping (`path`).
+    dead_factor: f64,
+    /// Loads on supported directions.
+    support_loads: Vec<SupportLoad>,
+    /// Sums over all nodes, supports included, N.
+    total_ref: [f64; 3],
+    total_dead: [f64; 3],
 }
 
 /// Why a system could not be built.
@@ -62,16 +113,27 @@ impl System {
         let pattern = Pattern::new(model, &dofs);
         let strain = model.analysis.strain;
         let mut bars = Vec::with_capacity(model.n_members());
+        // Self-weight lumped to the nodes, 3 per node, before splitting into
+        // free and supported directions.
+        let mut dead_nodal = vec![0.0; 3 * model.n_nodes()];
+        let mut ref_nodal = vec![0.0; 3 * model.n_nodes()];
         let mut ends = Vec::with_capacity(model.n_members());
         for (m, member) in model.members.iter().enumerate() {
             let [i, j] = member.ends;
             let (a, b) = (model.nodes[i].at, model.nodes[j].at);
             let d = [b[0] - a[0], b[1] - a[1], b[2] - a[2]];
             let l = model.member_length(m);
-            let ea = model.sections[member.section].ea;
+            let section = &model.sections[member.section];
+            let ea = section.ea;
             let cable = member.kind == MemberKind::Cable;
             let rest = match member.rest {
                 RestSpec::Geometry => l,
+                RestSpec::Prestress(_) if member.kind == MemberKind::Catenary => {
+                    return Err(BuildError {
+                        member: member.label.clone(),
+                        message: "a catenary member needs its unstretched length (`rest_length`), not a prestress".into(),
+                    });
+                }
                 RestSpec::Length(r) => r,
                 RestSpec::Prestress(n) => {
                     Bar::rest_length_for_force(l, ea, n, strain).ok_or_else(|| BuildError {
@@ -83,24 +145,88 @@ impl System {
                     })?
                 }
             };
-            bars.push(Bar::with_rest_length(d, rest, ea, cable));
+            let weight = match model.analysis.self_weight {
+                SelfWeight::None => 0.0,
+                _ => section.weight.unwrap_or(0.0),
+            };
+            bars.push(if member.kind == MemberKind::Catenary {
+                Element::Catenary(Catenary::new(d, rest, ea, weight))
+            } else {
+                Element::Bar(Bar::with_rest_length(d, rest, ea, cable))
+            });
             ends.push([i as u32, j as u32]);
+            let dead = member.kind == MemberKind::Catenary || model.analysis.self_weight == SelfWeight::Dead;
+            let lumped = if dead { &mut dead_nodal } else { &mut ref_nodal };
+            for node in [i, j] {
+                lumped[3 * node + 2] -= 0.5 * weight * rest;
+            }
         }
         let springs = model
             .springs
             .iter()
             .filter_map(|s| dofs.dof(s.node, s.axis.index()).map(|dof| GroundSpring { dof, k: s.k }))
             .collect();
-        let mut f_ref = vec![0.0; dofs.n_free()];
         for load in &model.loads {
             for a in 0..3 {
-                if let Some(d) = dofs.dof(load.node, a) {
-                    f_ref[d] += load.force[a];
+                ref_nodal[3 * load.node + a] += load.force[a];
+            }
+        }
+        let mut f_ref = vec![0.0; dofs.n_free()];
+        let mut f_dead = vec![0.0; dofs.n_free()];
+        let mut support_loads = Vec::new();
+        let (mut total_ref, mut total_dead) = ([0.0; 3], [0.0; 3]);
+        for (k, (&dead, &reference)) in dead_nodal.iter().zip(&ref_nodal).enumerate() {
+            total_ref[k % 3] += reference;
+            total_dead[k % 3] += dead;
+            match dofs.dof(k / 3, k % 3) {
+                Some(d) => {
+                    f_ref[d] += reference;
+                    f_dead[d] += dead;
                 }
+                None if dead != 0.0 || reference != 0.0 => support_loads.push(SupportLoad { k, dead, reference }),
+                None => {}
             }
         }
         let f_ref_norm = f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
-        Ok(System { dofs, pattern, strain, bars, ends, springs, f_ref, f_ref_norm })
+        Ok(System {
+            dofs,
+            pattern,
+            strain,
+            bars,
+            ends,
+            springs,
+            f_ref,
+            f_ref_norm,
+            f_dead,
+            dead_factor: 1.0,
+            support_loads,
+            total_ref,
+            total_dead,
+        })
+    }
+
+    /// Whether any dead load acts (self-weight, catenary members).
+    pub fn has_dead_load(&self) -> bool {
+        self.total_dead.iter().any(|v| *v != 0.0)
+    }
+
+    /// This system with only the share `factor` of its dead load: the steps
+    /// by which the dead-load state is reached.
+    pub fn with_dead_factor(&self, factor: f64) -> System {
+        let mut s = self.clone();
+        s.dead_factor = factor;
+        s
+    }
+
+    /// Total applied load at load factor λ (dead load plus λ times the
+    /// reference load), summed over all nodes, supports included, N.
+    pub fn applied_total(&self, lambda: f64) -> [f64; 3] {
+        [0, 1, 2].map(|a| self.dead_factor * self.total_dead[a] + lambda * self.total_ref[a])
+    }
+
+    /// Total reference load, supports included, N.
+    pub fn total_reference_load(&self) -> [f64; 3] {
+        self.total_ref
     }
 
     /// ‖f_ref‖, N.
@@ -118,7 +244,7 @@ impl System {
 
     /// Unstressed length of each member, m.
     pub fn rest_lengths(&self) -> impl Iterator<Item = f64> + '_ {
-        self.bars.iter().map(|b| b.rest)
+        self.bars.iter().map(Element::rest)
     }
 
     /// A fresh value array for the tangent pattern.
@@ -226,11 +352,17 @@ impl System {
             }
         }
         // The internal forces at the supports are what the supports must
-        // supply: reaction = f_int there (no load may act on a support).
+        // supply: reaction = f_int − f_ext there (f_ext: self-weight only).
         let mut load2 = 0.0;
-        for (ri, fi) in r.iter_mut().zip(&self.f_ref) {
-            *ri -= lambda * fi;
-            load2 += (lambda * fi).powi(2);
+        let mu = self.dead_factor;
+        for ((ri, fi), fd) in r.iter_mut().zip(&self.f_ref).zip(&self.f_dead) {
+            let load = lambda * fi + mu * fd;
+            *ri -= load;
+            load2 += load * load;
+        }
+        // A load on a support is carried by it directly.
+        for s in &self.support_loads {
+            reactions[s.k] -= mu * s.dead + lambda * s.reference;
         }
         let residual = r.iter().map(|v| v * v).sum::<f64>().sqrt();
         let react = reactions.iter().map(|v| v * v).sum::<f64>().sqrt();
@@ -245,6 +377,11 @@ impl System {
                 MemberResult { force: st.force, strain: st.strain, length: st.length, slack: st.slack }
             })
             .collect()
+    }
+
+    /// Indices of the members that carry no tension at `u` (slack cables).
+    pub fn slack_members(&self, u: &[f64]) -> Vec<u32> {
+        (0..self.bars.len()).filter(|&m| self.member_state(u, m).slack).map(|m| m as u32).collect()
     }
 
     /// Force each spring exerts on the structure, N (−k·u), with its node DOF.

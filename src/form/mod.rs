@@ -12,7 +12,7 @@
 use crate::assembly::Pattern;
 use crate::element::Bar;
 use crate::linalg::Ldlt;
-use crate::model::{Diagnostic, MemberKind, Model, RestSpec};
+use crate::model::{Diagnostic, Model, RestSpec};
 use std::fmt;
 
 /// Geometry and forces found by [`force_density`].
@@ -257,7 +257,7 @@ pub fn force_density(model: &Model) -> Result<FormResult, FormError> {
         let l = ((r[0] - p[0]).powi(2) + (r[1] - p[1]).powi(2) + (r[2] - p[2]).powi(2)).sqrt();
         lengths.push(l);
         forces.push(q[m] * l);
-        if member.kind == MemberKind::Cable && q[m] < 0.0 {
+        if member.kind.tension_only() && q[m] < 0.0 {
             warnings.push(format!(
                 "member {:?} would carry compression (force density {} N/m), which a cable cannot",
                 member.label, q[m]

@@ -122,6 +122,7 @@ pub struct AnalysisEntry {
     pub stability_check: Option<Spanned<String>>,
     pub pinpoint: Option<Spanned<bool>>,
     pub start_load_factor: Option<Spanned<f64>>,
+    pub self_weight: Option<Spanned<String>>,
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -265,6 +266,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("stability_check", "stability_check = \"every-step\""),
         key("pinpoint", "pinpoint = true"),
         key("start_load_factor", "start_load_factor = 0.0"),
+        key("self_weight", "self_weight = \"dead\""),
     ],
 };
 

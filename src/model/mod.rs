@@ -91,6 +91,52 @@ pub enum MemberKind {
     Bar,
     /// Tension only: zero force and zero stiffness when slack.
     Cable,
+    /// Elastic catenary (Irvine 1981): one element for a whole cable hanging
+    /// under its section's weight; tension only.
+    Catenary,
+}
+
+impl MemberKind {
+    pub const NAMES: [&'static str; 3] = ["bar", "cable", "catenary"];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            MemberKind::Bar => "bar",
+            MemberKind::Cable => "cable",
+            MemberKind::Catenary => "catenary",
+        }
+    }
+
+    /// Carries no compression.
+    pub fn tension_only(self) -> bool {
+        self != MemberKind::Bar
+    }
+}
+
+/// How the members' self-weight (section `weight`) is applied.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum SelfWeight {
+    /// A constant dead load, in full at every load factor: the dead-load
+    /// state is found first, then the reference load is stepped.
+    #[default]
+    Dead,
+    /// Part of the reference load, scaled by λ (catenary members excepted:
+    /// their weight shapes the element and stays a dead load).
+    Reference,
+    /// Not applied; catenary members become weightless.
+    None,
+}
+
+impl SelfWeight {
+    pub const NAMES: [&'static str; 3] = ["dead", "reference", "none"];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            SelfWeight::Dead => "dead",
+            SelfWeight::Reference => "reference",
+            SelfWeight::None => "none",
+        }
+    }
 }
 
 /// How the unstressed length of a member is given.
@@ -267,6 +313,8 @@ pub struct Analysis {
     pub pinpoint: bool,
     /// Arc-length variant: Riks/Ramm normal plane instead of Crisfield's cylinder.
     pub arc_variant_normal_plane: bool,
+    /// How section weights are applied (`self_weight`).
+    pub self_weight: SelfWeight,
 }
 
 impl Default for Analysis {
@@ -295,6 +343,7 @@ impl Default for Analysis {
             stability_each_step: true,
             pinpoint: true,
             start_load_factor: 0.0,
+            self_weight: SelfWeight::Dead,
         }
     }
 }

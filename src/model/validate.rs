@@ -19,8 +19,8 @@ use super::file::{
 };
 use super::{
     Analysis, Axis, Control, Diagnostic, ForceUnit, FormSettings, LengthUnit, Member, MemberKind,
-    Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section, Spring,
-    StrainMeasure, Units,
+    Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section, SelfWeight,
+    Spring, StrainMeasure, Units,
 };
 use csv::{Cell, CsvReader};
 
@@ -843,12 +843,13 @@ fn add_member(
     let kind = match raw.kind.0 {
         "bar" => Some(MemberKind::Bar),
         "cable" => Some(MemberKind::Cable),
+        "catenary" => Some(MemberKind::Catenary),
         other => {
             cx.error(
                 raw.kind.1,
                 item,
                 format!("unknown member kind {other:?}"),
-                suggest::choice_help(other, &["bar", "cable"]),
+                suggest::choice_help(other, &MemberKind::NAMES),
             );
             None
         }
@@ -872,7 +873,7 @@ fn add_member(
         if !check_number(cx, v, src, item, "force_density", Rule::Finite, "") {
             return None;
         }
-        if kind == Some(MemberKind::Cable) && v < 0.0 {
+        if kind.is_some_and(MemberKind::tension_only) && v < 0.0 {
             cx.error(
                 src,
                 item,
@@ -950,6 +951,12 @@ fn rest_spec(cx: &mut Ctx, raw: &RawMember, kind: Option<MemberKind>, item: Item
                 return RestSpec::Geometry;
             }
             match kind {
+                Some(MemberKind::Catenary) => cx.error(
+                    src,
+                    item,
+                    "a catenary member takes its unstressed length from `rest_length`, not `prestress`",
+                    "write rest_length = the unstretched cable length (omit both to use the node-to-node distance)",
+                ),
                 Some(MemberKind::Cable) if p < 0.0 => cx.error(
                     src,
                     item,
@@ -1211,6 +1218,11 @@ fn analysis(
         _ => None,
     }) {
         a.stability_each_step = each;
+    }
+    if let Some(sw) = choice(cx, t, &e.self_weight, "self_weight", &SelfWeight::NAMES, |s| {
+        SelfWeight::NAMES.iter().position(|n| *n == s).map(|i| [SelfWeight::Dead, SelfWeight::Reference, SelfWeight::None][i])
+    }) {
+        a.self_weight = sw;
     }
     let variants = ["cylindrical", "normal-plane"];
     if let Some(normal) = choice(cx, t, &e.arc_variant, "arc_variant", &variants, |s| match s {

@@ -92,6 +92,7 @@ pub fn to_toml(model: &Model) -> String {
         let kind = match m.kind {
             super::MemberKind::Bar => "bar",
             super::MemberKind::Cable => "cable",
+            super::MemberKind::Catenary => "catenary",
         };
         let _ = writeln!(s, "kind = {}", quote(kind));
         let _ = writeln!(
@@ -174,6 +175,9 @@ pub fn to_toml(model: &Model) -> String {
     let _ = writeln!(s, "stall_ratio = {}", num(a.stall_ratio));
     if let Some(n) = a.line_search {
         let _ = writeln!(s, "line_search = {n}");
+    }
+    if a.self_weight != super::SelfWeight::Dead {
+        let _ = writeln!(s, "self_weight = {}", quote(a.self_weight.name()));
     }
     if a.start_load_factor != 0.0 {
         let _ = writeln!(s, "start_load_factor = {}", num(a.start_load_factor));

@@ -69,6 +69,8 @@ pub struct PathPoint {
     /// Whether `negative_pivots` was counted at this state (false: carried
     /// over from an earlier factorization).
     pub pivots_checked: bool,
+    /// Members slack at this state, by index, ascending.
+    pub slack: Vec<u32>,
 }
 
 /// Directions free to move without resistance.
@@ -242,6 +244,7 @@ impl<'a> Tracer<'a> {
             relative_residual: state.relative_residual,
             negative_pivots,
             pivots_checked: true,
+            slack: self.system.slack_members(&state.u),
         }
     }
 
@@ -352,6 +355,49 @@ impl<'a> Tracer<'a> {
         }
     }
 
+    /// Finds the equilibrium under the full dead load (self-weight) at the
+    /// start load factor by stepping its share μ from 0 to 1, each step a
+    /// load-control corrector from the last converged state, halved on
+    /// failure (at most `DEAD_LOAD_HALVINGS` times in a row) and grown by
+    /// half after a success. The state at μ = 0 is solved first when it is
+    /// out of balance (prestress). Ends on the real system, μ = 1.
+    fn step_in_dead_load(&mut self, ws: &mut Workspace, state: &mut State, rec0: &mut StepRecord, observer: &mut dyn Observer) -> Termination {
+        let mut mu = 0.0f64;
+        let mut d_mu = 0.25f64;
+        let mut halvings = 0;
+        let mut first = true;
+        for _ in 0..DEAD_LOAD_MAX_STEPS {
+            let target = if first { 0.0 } else { (mu + d_mu).min(1.0) };
+            let partial = self.system.with_dead_factor(target);
+            let start_u = state.u.clone();
+            ws.fresh = false;
+            let (term, rec) = solve::drive(&partial, ws, state, &start_u, state.lambda, &FixedLoad, &self.corrector, 0, observer);
+            if term == Termination::Converged {
+                add_records(rec0, &rec);
+                first = false;
+                mu = target;
+                halvings = 0;
+                if mu >= 1.0 {
+                    return Termination::Converged;
+                }
+                d_mu = (1.5 * d_mu).min(1.0 - mu);
+            } else {
+                add_records(&mut self.wasted, &rec);
+                let lambda = state.lambda;
+                restore(state, start_u, lambda);
+                if term == Termination::Stopped || first {
+                    return term;
+                }
+                halvings += 1;
+                if halvings > DEAD_LOAD_HALVINGS {
+                    return term;
+                }
+                d_mu *= 0.5;
+            }
+        }
+        Termination::MaxIterations
+    }
+
     /// Runs the analysis of the model's `[analysis]` table.
     pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> Path {
         let a = self.model.analysis.clone();
@@ -384,8 +430,15 @@ impl<'a> Tracer<'a> {
             // The given geometry is not in balance with its prestress: find
             // the prestressed equilibrium at λ = 0 first.
             let start_u = state.u.clone();
-            let (term, rec) = solve::drive(sys, ws, &mut state, &start_u, 0.0, &FixedLoad, &self.corrector, 0, observer);
+            let (mut term, rec) = solve::drive(sys, ws, &mut state, &start_u, 0.0, &FixedLoad, &self.corrector, 0, observer);
             add_records(&mut rec0, &rec);
+            if term != Termination::Converged && sys.has_dead_load() {
+                // The dead load in one go was too much: step it in.
+                add_records(&mut self.wasted, &rec0);
+                rec0 = StepRecord::default();
+                restore(&mut state, start_u.clone(), a.start_load_factor);
+                term = self.step_in_dead_load(ws, &mut state, &mut rec0, observer);
+            }
             let failed = term != Termination::Converged
                 || solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some();
             if failed {
@@ -608,6 +661,10 @@ impl<'a> Tracer<'a> {
         Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical }
     }
 }
+
+/// Steps and successive halvings allowed while stepping in the dead load.
+const DEAD_LOAD_MAX_STEPS: usize = 400;
+const DEAD_LOAD_HALVINGS: usize = 12;
 
 /// A load-control step whose displacement increment exceeds this multiple of
 /// the previous one (scaled by the load increments) is taken as a jump to a

@@ -150,15 +150,28 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
 fn print_summary(m: &Model) {
     let u = m.units;
     let bars = m.members.iter().filter(|x| x.kind == MemberKind::Bar).count();
-    let cables = m.n_members() - bars;
+    let catenaries = m.members.iter().filter(|x| x.kind == MemberKind::Catenary).count();
+    let cables = m.n_members() - bars - catenaries;
     let supported = m.nodes.iter().filter(|n| n.fixed.iter().any(|f| *f)).count();
     let n_free = 3 * m.n_nodes() - m.n_fixed();
     let t = m.total_reference_load();
     println!("model: {} ({})", m.title, m.files[0]);
     println!("units: force {}, length {}", u.force.name(), u.length.name());
     println!("nodes: {} ({} supported, {} fixed directions)", m.n_nodes(), supported, m.n_fixed());
-    println!("members: {} ({bars} bars, {cables} cables)", m.n_members());
+    if catenaries > 0 {
+        println!("members: {} ({bars} bars, {cables} cables, {catenaries} catenaries)", m.n_members());
+    } else {
+        println!("members: {} ({bars} bars, {cables} cables)", m.n_members());
+    }
     println!("springs: {}", m.springs.len());
+    if m.sections.iter().any(|s| s.weight.is_some_and(|w| w > 0.0)) {
+        let how = match m.analysis.self_weight {
+            model::SelfWeight::Dead => "a dead load, in full before the reference load is stepped",
+            model::SelfWeight::Reference => "part of the reference load (catenary members: dead load)",
+            model::SelfWeight::None => "not applied (self_weight = \"none\")",
+        };
+        println!("self-weight: {how}");
+    }
     println!("free DOFs: {n_free}");
     println!(
         "loads: {} nodal loads; total reference load [{:.6}, {:.6}, {:.6}] {}",
@@ -286,6 +299,20 @@ fn print_run_summary(m: &Model, r: &results::Results) {
     if let Some(cp) = r.critical_points.first() {
         let p = results_load(m, cp.load_factor);
         println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load)", cp.kind, cp.load_factor, u.force.name());
+    }
+    if !r.slack_events.is_empty() {
+        let mut members: Vec<&str> = r.slack_events.iter().map(|e| e.member.as_str()).collect();
+        members.sort_unstable();
+        members.dedup();
+        let shown: Vec<String> = r
+            .slack_events
+            .iter()
+            .take(5)
+            .map(|e| format!("{} at step {} (λ={:.4})", e.member, e.step, e.load_factor))
+            .collect();
+        let more = if r.slack_events.len() > 5 { format!(", ... ({} events in results.json)", r.slack_events.len()) } else { String::new() };
+        let noun = if members.len() == 1 { "cable went" } else { "cables went" };
+        println!("{} {noun} slack: {}{more}", members.len(), shown.join(", "));
     }
     if !r.slack_members.is_empty() {
         let shown: Vec<_> = r.slack_members.iter().take(10).cloned().collect();
