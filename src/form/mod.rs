@@ -9,6 +9,8 @@
 //! D = C_freeᵀ Q C_free. The axes decouple; here one block system over all
 //! free (node, axis) unknowns is assembled and factored once.
 
+pub mod relax;
+
 use crate::assembly::Pattern;
 use crate::element::Bar;
 use crate::linalg::Ldlt;
