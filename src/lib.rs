@@ -10,3 +10,4 @@ pub mod generate;
 pub mod results;
 pub mod report;
 pub mod form;
+pub mod verify;

@@ -2,6 +2,7 @@
 //! all files of a run are first written under temporary names in the output
 //! folder, then renamed into place.
 
+pub mod html;
 pub mod plot;
 
 use crate::results::{MemberOut, Results};

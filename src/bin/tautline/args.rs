@@ -6,6 +6,9 @@ use std::path::PathBuf;
 #[derive(Parser, Debug)]
 #[command(name = "tautline", version, about = "Large-displacement equilibrium of cable nets and pin-jointed trusses")]
 pub struct Cli {
+    /// No progress bar; print only the outcome, the files written and the caution
+    #[arg(short, long, global = true)]
+    pub quiet: bool,
     #[command(subcommand)]
     pub command: Command,
 }
@@ -53,6 +56,13 @@ pub enum Command {
         /// Output folder
         #[arg(short = 'o', long = "out", value_name = "DIR", default_value = "tautline-demo")]
         out: PathBuf,
+    },
+    /// Run the built-in textbook cases against their closed forms; print the
+    /// table (exit 4 if any case fails)
+    Verify {
+        /// Output format: text | json
+        #[arg(long, default_value = "text")]
+        format: String,
     },
 }
 

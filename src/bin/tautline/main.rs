@@ -3,6 +3,7 @@
 
 mod args;
 mod bench;
+mod progress;
 mod run;
 
 use clap::Parser;
@@ -14,6 +15,8 @@ pub mod exit {
     pub const INTERNAL: u8 = 1;
     pub const BAD_INPUT: u8 = 2;
     pub const STOPPED: u8 = 3;
+    /// `verify`: a built-in case did not match its closed form.
+    pub const VERIFY_FAILED: u8 = 4;
     pub const INTERRUPTED: u8 = 130;
 }
 

@@ -32,6 +32,7 @@ impl From<anyhow::Error> for Failure {
 }
 
 pub fn run(cli: Cli) -> Result<u8, Failure> {
+    let quiet = cli.quiet;
     match cli.command {
         Command::Check { model } => {
             let m = load(&model)?;
@@ -41,7 +42,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
         Command::Solve { model, out, force, overrides } => {
             let mut m = load(&model)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
-            solve(&m, &out, Some(&model), force)
+            solve(&m, &out, Some(&model), force, quiet)
         }
         Command::Form { model, out } => form(&model, &out),
         Command::Generate { what } => generate(what),
@@ -51,8 +52,11 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            solve(&m, &out, None, false)
+            let code = solve(&m, &out, None, false, quiet)?;
+            println!("report: {} (open it in a browser; it needs no network)", out.join("report.html").display());
+            Ok(code)
         }
+        Command::Verify { format } => verify(&format),
     }
 }
 
@@ -218,7 +222,7 @@ fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, forc
     })
 }
 
-fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool) -> Result<u8, Failure> {
+fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: bool) -> Result<u8, Failure> {
     let system = System::new(m).map_err(|e| {
         Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
     })?;
@@ -234,7 +238,9 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool) -> Resul
     let mut ws = Workspace::new(&system, m.n_nodes(), h);
     let mut tracer = Tracer::new(&system, m, corrector);
     let mut interrupt = Interrupt::install();
-    let path = tracer.run(&mut ws, &mut interrupt);
+    let mut progress = crate::progress::Progress::new(a, quiet, &mut interrupt);
+    let path = tracer.run(&mut ws, &mut progress);
+    progress.finish();
     let seconds = started.elapsed().as_secs_f64();
     let res = results::build(m, &system, &path, &tracer.wasted, seconds);
     let members = results::members(m, &system, &path);
@@ -257,21 +263,33 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool) -> Resul
     let forces: Vec<f64> = member_state.iter().map(|r| r.force).collect();
     let slack: Vec<bool> = member_state.iter().map(|r| r.slack).collect();
     let plots = [
-        ("path.svg", report::plot::path_svg(&res)),
-        ("shape.svg", report::plot::shape_svg(m, &node_u, &forces, &slack)),
-        ("convergence.svg", report::plot::convergence_svg(&res)),
+        ("path.svg", "Load path: load factor against the watched displacements", report::plot::path_svg(&res)),
+        ("shape.svg", "Deformed shape at the last converged state, members shaded by axial force", report::plot::shape_svg(m, &node_u, &forces, &slack)),
+        ("convergence.svg", "Convergence: relative residual of every iteration", report::plot::convergence_svg(&res)),
     ];
-    for (name, svg) in plots {
+    let mut drawn = Vec::new();
+    for (name, caption, svg) in plots {
         match svg {
-            Ok(text) => write(&mut staged, name, text)?,
+            Ok(text) => {
+                write(&mut staged, name, text.clone())?;
+                drawn.push((caption, text));
+            }
             Err(e) => eprintln!("warning: {name} not drawn: {e}"),
         }
     }
+    let figures: Vec<report::html::Figure> =
+        drawn.iter().map(|(caption, svg)| report::html::Figure { caption, svg }).collect();
+    write(&mut staged, "report.html", report::html::report_html(m, &res, &members, &figures))?;
     let written: Vec<PathBuf> = staged
         .commit()
         .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
 
-    print_run_summary(m, &res);
+    if quiet {
+        let status = if res.converged { "done" } else { "stopped before the target" };
+        println!("{status}: {}", res.stop_message);
+    } else {
+        print_run_summary(m, &res);
+    }
     println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
     println!("{CAUTION}");
     Ok(match path.stop {
@@ -325,6 +343,22 @@ fn print_run_summary(m: &Model, r: &results::Results) {
     println!("equilibrium check: |loads + reactions| / |loads| = {:.2e}", r.equilibrium.relative_imbalance);
     let status = if r.converged { "done" } else { "stopped before the target" };
     println!("{status}: {}", r.stop_message);
+}
+
+/// `verify`: the built-in textbook cases as a table (or JSON); exit 4 if any fails.
+fn verify(format: &str) -> Result<u8, Failure> {
+    if format != "text" && format != "json" {
+        return Err(Failure::BadInput(format!("--format {format}: expected text or json")));
+    }
+    let cases = tautline::verify::run_all();
+    if format == "json" {
+        let text = serde_json::to_string_pretty(&cases).map_err(|e| Failure::Internal(e.into()))?;
+        println!("{text}");
+    } else {
+        println!("tautline {} verification: built-in cases against their closed forms", env!("CARGO_PKG_VERSION"));
+        print!("{}", tautline::verify::table(&cases));
+    }
+    Ok(if cases.iter().all(|c| c.pass) { exit::DONE } else { exit::VERIFY_FAILED })
 }
 
 fn results_load(m: &Model, lambda: f64) -> f64 {

@@ -1,0 +1,626 @@
+//! Built-in textbook cases: each solves a small model with the real solver
+//! and compares one quantity with its closed form, citing where the closed
+//! form comes from. `tautline verify` prints them as a table; engineers
+//! attach it to show the tool checks out on their machine.
+//!
+//! To add a case, write a function returning a [`Case`] and list it in
+//! [`CASES`]. The closed forms are public so the integration tests check
+//! the same formulas.
+
+use crate::assembly::System;
+use crate::linalg::Ldlt;
+use crate::model::{self, Model};
+use crate::observe::Silent;
+use crate::path::{CriticalKind, Path, StopReason, Tracer};
+use crate::solve::{CorrectorConfig, InverseTangent, Workspace};
+use serde::Serialize;
+
+/// One checked quantity.
+#[derive(Clone, Debug, Serialize)]
+pub struct Case {
+    pub name: String,
+    /// Where the closed form comes from: author, title, year, section.
+    pub source: String,
+    pub quantity: String,
+    pub unit: String,
+    pub reference: f64,
+    /// From the solver; NaN when the run gave no value (the case fails).
+    pub computed: f64,
+    pub relative_error: f64,
+    pub tolerance: f64,
+    pub pass: bool,
+    /// Why the case failed without a value, if it did.
+    pub note: Option<String>,
+}
+
+impl Case {
+    fn new(name: &str, source: &str, quantity: &str, unit: &str, reference: f64, computed: Result<f64, String>, tolerance: f64) -> Case {
+        let (computed, note) = match computed {
+            Ok(v) => (v, None),
+            Err(e) => (f64::NAN, Some(e)),
+        };
+        let relative_error = (computed - reference).abs() / reference.abs().max(f64::MIN_POSITIVE);
+        Case {
+            name: name.into(),
+            source: source.into(),
+            quantity: quantity.into(),
+            unit: unit.into(),
+            reference,
+            computed,
+            relative_error,
+            tolerance,
+            // NaN compares false: a missing value fails.
+            pass: relative_error <= tolerance,
+            note,
+        }
+    }
+}
+
+/// Every case, in table order.
+pub const CASES: &[fn() -> Case] = &[
+    arch_limit_engineering,
+    arch_limit_green,
+    pretensioned_cable_deflection,
+    determinate_truss_force,
+    force_density_chain_sag,
+    braced_strut_bifurcation,
+    snap_back_limit,
+    // Elastic catenary (H. M. Irvine, Cable Structures, 1981): to be added
+    // here with the catenary member kind.
+];
+
+/// Runs every case.
+pub fn run_all() -> Vec<Case> {
+    CASES.iter().map(|case| case()).collect()
+}
+
+const SOURCE_ARCH: &str = "Z. P. Bazant, L. Cedolin, Stability of Structures, 1991, sec. 4.4, eq. 4.4.5";
+const SOURCE_ARCH_GREEN: &str = "Z. P. Bazant, L. Cedolin, Stability of Structures, 1991, sec. 4.4 (crown equilibrium; Green-Lagrange limit derived from dP/dz = 0)";
+
+// ---------------------------------------------------------------- closed forms
+
+/// Two-bar arch of VERIFICATION case 1: half-span b, rise h, axial rigidity EA.
+#[derive(Clone, Copy, Debug)]
+pub struct Arch {
+    pub ea: f64,
+    pub b: f64,
+    pub h: f64,
+}
+
+/// The arch of the cases: b = 5 m, h = 1 m, EA = 1280 MN.
+pub const ARCH: Arch = Arch { ea: 1.28e9, b: 5.0, h: 1.0 };
+
+impl Arch {
+    fn l0(&self) -> f64 {
+        (self.b * self.b + self.h * self.h).sqrt()
+    }
+
+    /// Crown load P(w) for a crown deflection w (down positive), from
+    /// equilibrium of the deformed crown, z = h − w, l = √(b² + z²).
+    /// Engineering strain, N = EA (l − l₀)/l₀: P = 2EA (l₀ − l)/l₀ · z/l.
+    /// Green-Lagrange, S = E·E_GL on the reference area: P = EA z (h² − z²)/l₀³.
+    pub fn load(&self, w: f64, green: bool) -> f64 {
+        let z = self.h - w;
+        let l0 = self.l0();
+        if green {
+            self.ea * z * (self.h * self.h - z * z) / l0.powi(3)
+        } else {
+            let l = (self.b * self.b + z * z).sqrt();
+            2.0 * self.ea * (l0 - l) / l0 * z / l
+        }
+    }
+
+    /// Limit load and crown deflection at it. Engineering: P_lim = 2EA sin³θ_c
+    /// with cos θ_c = (cos α)^(1/3) (Bažant & Cedolin 1991, eq. 4.4.5), and
+    /// z = b·tan θ_c; Green-Lagrange: P_lim = 2EA h³/(3√3 l₀³) at z = h/√3
+    /// (dP/dz = EA (h² − 3z²)/l₀³ = 0).
+    pub fn limit(&self, green: bool) -> (f64, f64) {
+        let l0 = self.l0();
+        if green {
+            (2.0 * self.ea * self.h.powi(3) / (3.0 * 3f64.sqrt() * l0.powi(3)), self.h - self.h / 3f64.sqrt())
+        } else {
+            let cos_c = (self.b / l0).cbrt();
+            let sin_c = (1.0 - cos_c * cos_c).sqrt();
+            (2.0 * self.ea * sin_c.powi(3), self.h - self.b * sin_c / cos_c)
+        }
+    }
+
+    /// Crown deflection for a load below the limit, by bisection on [0, w_lim].
+    pub fn deflection(&self, p: f64, green: bool) -> f64 {
+        let (_, w_lim) = self.limit(green);
+        bisect(|w| self.load(w, green) - p, 0.0, w_lim)
+    }
+}
+
+/// Pretensioned straight cable of two halves of length l each (EA, pretension
+/// t, engineering strain) with a midspan load P: from equilibrium of the
+/// loaded node, P = 2·EA(l_c − L_r)/L_r · w/l_c with l_c = √(l² + w²) and the
+/// rest length L_r = l·EA/(EA + t). Returns the deflection w for a load P.
+pub fn pretensioned_cable_deflection_closed_form(l: f64, ea: f64, t: f64, p: f64) -> f64 {
+    let lr = l * ea / (ea + t);
+    let load = |w: f64| {
+        let lc = (l * l + w * w).sqrt();
+        2.0 * ea * (lc - lr) / lr * w / lc
+    };
+    bisect(|w| load(w) - p, 0.0, l)
+}
+
+/// Force density chain of n segments, load P on every inner node, force
+/// density q, level supports: z equilibrium q(z_{i−1} − 2z_i + z_{i+1}) = P
+/// is met by z_i = −P·i(n − i)/(2q) (H.-J. Schek, "The force density method
+/// for form finding and computation of general networks", Comput. Methods
+/// Appl. Mech. Eng. 3, 1974).
+pub fn chain_height(i: usize, n: usize, p: f64, q: f64) -> f64 {
+    -p * (i * (n - i)) as f64 / (2.0 * q)
+}
+
+/// Straight strut of two bars of length L (EA), braced at mid-height by a
+/// lateral spring k: the mid node's lateral stiffness k − 2P/l with the
+/// shortened l = L(1 − P/EA) vanishes at P_cr = (kL/2)/(1 + kL/(2EA)).
+pub fn braced_strut_critical_load(k: f64, l: f64, ea: f64) -> f64 {
+    (k * l / 2.0) / (1.0 + k * l / (2.0 * ea))
+}
+
+/// Root of an increasing function on [lo, hi] by bisection.
+fn bisect(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if f(mid) < 0.0 { lo = mid } else { hi = mid }
+    }
+    0.5 * (lo + hi)
+}
+
+// ---------------------------------------------------------------- runs
+
+fn load(text: &str, name: &str) -> Result<Model, String> {
+    model::load_str(text, name, None).map_err(|e| format!("built-in model invalid: {e}"))
+}
+
+/// Traces a model's path with its own corrector, observing nothing.
+fn trace(m: &Model) -> Result<Path, String> {
+    let system = System::new(m).map_err(|e| format!("member {}: {}", e.member, e.message))?;
+    let corrector = CorrectorConfig::from_analysis(&m.analysis);
+    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).map_err(|e| e.to_string())?;
+    let h = InverseTangent::new(m.analysis.method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(&system, m.n_nodes(), h);
+    let mut tracer = Tracer::new(&system, m, corrector);
+    Ok(tracer.run(&mut ws, &mut Silent))
+}
+
+fn reached(path: &Path) -> Result<(), String> {
+    if path.stop == StopReason::TargetReached { Ok(()) } else { Err(format!("run stopped: {:?}", path.stop)) }
+}
+
+fn first_limit(path: &Path) -> Result<f64, String> {
+    path.critical
+        .iter()
+        .find(|c| c.kind == CriticalKind::Limit)
+        .map(|c| c.lambda)
+        .ok_or_else(|| "no limit point found".to_string())
+}
+
+fn arch_text(strain: &str) -> String {
+    let a = ARCH;
+    format!(
+        r#"title = "two-bar arch"
+[[section]]
+name = "s"
+EA = {ea:?}
+[[node]]
+id = "L"
+at = [{nb:?}, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "R"
+at = [{b:?}, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [0.0, 0.0, {h:?}]
+fix = "y"
+[[member]]
+id = "left"
+kind = "bar"
+ends = ["L", "C"]
+section = "s"
+[[member]]
+id = "right"
+kind = "bar"
+ends = ["C", "R"]
+section = "s"
+[[load]]
+node = "C"
+force = [0.0, 0.0, -1.0e6]
+[analysis]
+strain = "{strain}"
+control = "arc-length"
+arc = 0.05
+steps = 10
+target = 4.5
+node = "C"
+dir = "z"
+max_steps = 400
+tolerance = 1e-12
+watch = ["C.z"]
+"#,
+        ea = a.ea,
+        nb = -a.b,
+        b = a.b,
+        h = a.h
+    )
+}
+
+fn arch_case(green: bool) -> Case {
+    let strain = if green { "green" } else { "engineering" };
+    let computed = load(&arch_text(strain), "arch.toml").and_then(|m| trace(&m)).and_then(|p| {
+        reached(&p)?;
+        Ok(first_limit(&p)? * 1.0e6 / 1.0e3)
+    });
+    Case::new(
+        &format!("two-bar arch, {strain} strain"),
+        if green { SOURCE_ARCH_GREEN } else { SOURCE_ARCH },
+        "limit load (arc-length, pinpointed)",
+        "kN",
+        ARCH.limit(green).0 / 1.0e3,
+        computed,
+        1e-6,
+    )
+}
+
+fn arch_limit_engineering() -> Case {
+    arch_case(false)
+}
+
+fn arch_limit_green() -> Case {
+    arch_case(true)
+}
+
+fn pretensioned_cable_deflection() -> Case {
+    let text = r#"title = "pretensioned cable"
+[[section]]
+name = "rope"
+EA = 1.0e6
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [5.0, 0.0, 0.0]
+fix = "y"
+[[node]]
+id = "B"
+at = [10.0, 0.0, 0.0]
+fix = "xyz"
+[[member]]
+id = "a"
+kind = "cable"
+ends = ["A", "M"]
+section = "rope"
+prestress = 1.0e4
+[[member]]
+id = "b"
+kind = "cable"
+ends = ["M", "B"]
+section = "rope"
+prestress = 1.0e4
+[[load]]
+node = "M"
+force = [0.0, 0.0, -1000.0]
+[analysis]
+strain = "engineering"
+steps = 4
+target = 1.0
+node = "M"
+dir = "z"
+tolerance = 1e-13
+"#;
+    let computed = load(text, "cable.toml").and_then(|m| trace(&m)).and_then(|p| {
+        reached(&p)?;
+        Ok(-p.points.last().map(|pt| pt.point).unwrap_or(f64::NAN) * 1e3)
+    });
+    Case::new(
+        "pretensioned cable, midspan load 1 kN",
+        "closed form derived from equilibrium of the loaded node: P = 2 EA (l_c - L_r)/L_r * w/l_c (no literature value claimed)",
+        "midspan deflection",
+        "mm",
+        pretensioned_cable_deflection_closed_form(5.0, 1.0e6, 1.0e4, 1000.0) * 1e3,
+        computed,
+        1e-8,
+    )
+}
+
+fn determinate_truss_force() -> Case {
+    // A(0,0) pinned, B(3,0), C(6,0) roller, D(3,4); P = 1 N down at B.
+    // Joints B and D give BD = P (small strains keep geometric effects far
+    // below the tolerance).
+    let text = r#"title = "determinate truss"
+[[section]]
+name = "s"
+EA = 1.0e9
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "B"
+at = [3.0, 0.0, 0.0]
+fix = "y"
+[[node]]
+id = "C"
+at = [6.0, 0.0, 0.0]
+fix = "yz"
+[[node]]
+id = "D"
+at = [3.0, 0.0, 4.0]
+fix = "y"
+[[member]]
+id = "AB"
+kind = "bar"
+ends = ["A", "B"]
+section = "s"
+[[member]]
+id = "BC"
+kind = "bar"
+ends = ["B", "C"]
+section = "s"
+[[member]]
+id = "AD"
+kind = "bar"
+ends = ["A", "D"]
+section = "s"
+[[member]]
+id = "DC"
+kind = "bar"
+ends = ["D", "C"]
+section = "s"
+[[member]]
+id = "BD"
+kind = "bar"
+ends = ["B", "D"]
+section = "s"
+[[load]]
+node = "B"
+force = [0.0, 0.0, -1.0]
+[analysis]
+steps = 1
+tolerance = 1e-12
+"#;
+    let computed = load(text, "truss.toml").and_then(|m| {
+        let system = System::new(&m).map_err(|e| e.message.clone())?;
+        let p = trace(&m)?;
+        reached(&p)?;
+        let i = m.members.iter().position(|x| x.label == "AD").ok_or("no member AD")?;
+        Ok(system.member_results(&p.final_state.u)[i].force)
+    });
+    Case::new(
+        "determinate plane truss",
+        "R. C. Hibbeler, Engineering Mechanics: Statics, ch. 6, method of joints",
+        "force in diagonal AD (-5P/8)",
+        "N",
+        -5.0 / 8.0,
+        computed,
+        1e-6,
+    )
+}
+
+fn force_density_chain_sag() -> Case {
+    let (n, h, p, q) = (8usize, 3.0, 1500.0, 2500.0);
+    let mut s = format!("title = \"force density chain\"\n[form]\nforce_density = {q:?}\n[[section]]\nname = \"s\"\nEA = 1.0e7\n");
+    for i in 0..=n {
+        let fix = if i == 0 || i == n { "fix = \"xyz\"\n" } else { "" };
+        s += &format!("[[node]]\nid = \"N{i}\"\nat = [{:?}, 0.0, 0.0]\n{fix}", i as f64 * h);
+    }
+    for i in 0..n {
+        s += &format!("[[member]]\nid = \"c{i}\"\nkind = \"cable\"\nends = [\"N{i}\", \"N{}\"]\nsection = \"s\"\n", i + 1);
+    }
+    for i in 1..n {
+        s += &format!("[[load]]\nnode = \"N{i}\"\nforce = [0.0, 0.0, {:?}]\n", -p);
+    }
+    let computed = load(&s, "chain.toml").and_then(|m| {
+        let r = crate::form::force_density(&m).map_err(|e| e.to_string())?;
+        Ok(-r.positions[n / 2][2] * 1e3)
+    });
+    Case::new(
+        "force density chain, 8 segments",
+        "H.-J. Schek, The force density method for form finding and computation of general networks, Comput. Methods Appl. Mech. Eng. 3, 1974",
+        "midspan sag",
+        "mm",
+        -chain_height(n / 2, n, p, q) * 1e3,
+        computed,
+        1e-10,
+    )
+}
+
+fn braced_strut_bifurcation() -> Case {
+    let text = r#"title = "braced strut"
+[[section]]
+name = "s"
+EA = 1.0e8
+[[node]]
+id = "B"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [0.0, 0.0, 2.0]
+fix = "y"
+[[node]]
+id = "T"
+at = [0.0, 0.0, 4.0]
+fix = "xy"
+[[member]]
+id = "lower"
+kind = "bar"
+ends = ["B", "M"]
+section = "s"
+[[member]]
+id = "upper"
+kind = "bar"
+ends = ["M", "T"]
+section = "s"
+[[spring]]
+node = "M"
+dir = "x"
+k = 1.0e5
+[[load]]
+node = "T"
+force = [0.0, 0.0, -1.0e5]
+[analysis]
+strain = "engineering"
+steps = 12
+target = 1.2
+node = "T"
+dir = "z"
+tolerance = 1e-12
+watch = ["T.z", "M.x"]
+"#;
+    let computed = load(text, "strut.toml").and_then(|m| trace(&m)).and_then(|p| {
+        reached(&p)?;
+        p.critical
+            .iter()
+            .find(|c| c.kind == CriticalKind::Bifurcation)
+            .map(|c| c.lambda * 1.0e5 / 1.0e3)
+            .ok_or_else(|| "no bifurcation found".to_string())
+    });
+    Case::new(
+        "braced strut (two bars, lateral spring)",
+        "lateral stiffness k - 2P/l of the mid node (derived); the braced strut as in Z. P. Bazant, L. Cedolin, Stability of Structures, 1991, ch. 1, from memory",
+        "bifurcation load",
+        "kN",
+        braced_strut_critical_load(1.0e5, 2.0, 1.0e8) / 1.0e3,
+        computed,
+        1e-6,
+    )
+}
+
+fn snap_back_limit() -> Case {
+    // The arch with a 10 m vertical bar (k = EA/L = 2 MN/m) in series under
+    // the crown, loaded at the bar's free end: the series spring does not
+    // change the largest load the arch carries, only the path (snap-back).
+    let a = ARCH;
+    let text = format!(
+        r#"title = "arch with a spring in series"
+[[section]]
+name = "strut"
+EA = {ea:?}
+[[section]]
+name = "spring"
+EA = 2.0e7
+[[node]]
+id = "L"
+at = [{nb:?}, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "R"
+at = [{b:?}, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [0.0, 0.0, {h:?}]
+fix = "y"
+[[node]]
+id = "S"
+at = [0.0, 0.0, -9.0]
+fix = "xy"
+[[member]]
+id = "left"
+kind = "bar"
+ends = ["L", "C"]
+section = "strut"
+[[member]]
+id = "right"
+kind = "bar"
+ends = ["C", "R"]
+section = "strut"
+[[member]]
+id = "spring"
+kind = "bar"
+ends = ["C", "S"]
+section = "spring"
+[[load]]
+node = "S"
+force = [0.0, 0.0, -1.0e6]
+[analysis]
+strain = "engineering"
+control = "arc-length"
+arc = 0.05
+steps = 10
+target = 4.5
+node = "S"
+dir = "z"
+max_steps = 2000
+tolerance = 1e-12
+watch = ["S.z", "C.z"]
+"#,
+        ea = a.ea,
+        nb = -a.b,
+        b = a.b,
+        h = a.h
+    );
+    let computed = load(&text, "snap_back.toml").and_then(|m| trace(&m)).and_then(|p| {
+        reached(&p)?;
+        Ok(first_limit(&p)? * 1.0e6 / 1.0e3)
+    });
+    Case::new(
+        "snap-back: arch with a spring in series",
+        "M. A. Crisfield, Non-linear Finite Element Analysis of Solids and Structures, vol. 1, 1991, ch. 1, from memory; limit load from Bazant & Cedolin 1991, eq. 4.4.5",
+        "limit load (arc-length through snap-back)",
+        "kN",
+        a.limit(false).0 / 1.0e3,
+        computed,
+        1e-6,
+    )
+}
+
+/// The cases as an aligned text table.
+pub fn table(cases: &[Case]) -> String {
+    let header = ["case", "source", "quantity", "reference", "computed", "rel. error", "tolerance", "result"];
+    let rows: Vec<[String; 8]> = cases
+        .iter()
+        .map(|c| {
+            [
+                c.name.clone(),
+                c.source.clone(),
+                format!("{} [{}]", c.quantity, c.unit),
+                format!("{:.9e}", c.reference),
+                if c.computed.is_finite() { format!("{:.9e}", c.computed) } else { "-".into() },
+                if c.relative_error.is_finite() { format!("{:.1e}", c.relative_error) } else { "-".into() },
+                format!("{:.0e}", c.tolerance),
+                if c.pass { "pass".into() } else { format!("FAIL{}", c.note.as_ref().map(|n| format!(" ({n})")).unwrap_or_default()) },
+            ]
+        })
+        .collect();
+    // The source column is long: it goes on its own line under each case.
+    let cols = [0usize, 2, 3, 4, 5, 6, 7];
+    let width = |i: usize| rows.iter().map(|r| r[i].chars().count()).chain([header[i].len()]).max().unwrap_or(0);
+    let widths: Vec<usize> = cols.iter().map(|&i| width(i)).collect();
+    let mut s = String::new();
+    let line = |cells: Vec<&str>| {
+        let mut l = String::new();
+        for (k, cell) in cells.iter().enumerate() {
+            if k > 0 {
+                l.push_str("  ");
+            }
+            let pad = widths[k].saturating_sub(cell.chars().count());
+            if (2..=5).contains(&k) {
+                l.push_str(&" ".repeat(pad));
+                l.push_str(cell);
+            } else {
+                l.push_str(cell);
+                l.push_str(&" ".repeat(pad));
+            }
+        }
+        l.trim_end().to_string() + "\n"
+    };
+    s += &line(cols.iter().map(|&i| header[i]).collect());
+    s += &widths.iter().map(|w| "-".repeat(*w)).collect::<Vec<_>>().join("  ");
+    s.push('\n');
+    for r in &rows {
+        s += &line(cols.iter().map(|&i| r[i].as_str()).collect());
+        s += &format!("    source: {}\n", r[1]);
+    }
+    let passed = cases.iter().filter(|c| c.pass).count();
+    s += &format!("{passed} of {} cases pass\n", cases.len());
+    s
+}
