@@ -6,6 +6,9 @@ use std::path::PathBuf;
 #[derive(Parser, Debug)]
 #[command(name = "tautline", version, about = "Large-displacement equilibrium of cable nets and pin-jointed trusses")]
 pub struct Cli {
+    /// Threads for assembly and factorization (default: TAUTLINE_THREADS, else every core)
+    #[arg(long, global = true, value_name = "N")]
+    pub threads: Option<usize>,
     #[command(subcommand)]
     pub command: Command,
 }
