@@ -1,8 +1,9 @@
 //! The global system: degree-of-freedom numbering, the sparsity pattern built
 //! once per structure, and the residual r(u, λ) = f_int(u) − λ·f_ref with the
-//! tangent K(u) refilled in place.
+//! tangent K(u) refilled in place, in parallel with a fixed summation order.
 
 pub mod dofs;
+pub mod gather;
 pub mod pattern;
 pub mod system;
 

@@ -8,12 +8,51 @@
 //! its kernel leaves out of the antisymmetric end force (`element::catenary`).
 //!
 //! `u` holds the free DOFs only. Re-assembly writes into caller-owned buffers
-//! through the precomputed scatter map: no allocation per iteration.
+//! and per-member buffers owned by the system: no allocation per iteration.
+//!
+//! Assembly runs in two parallel passes on the current rayon pool: every
+//! member's force and tangent block into its own buffer entry, then every
+//! node force and tangent value slot summed from its fixed-order gather list
+//! ([`super::gather`]). Each output is a serial sum in ascending member order,
+//! so the result is bit-identical on any number of threads.
 
 use super::dofs::{DofMap, FIXED};
-use super::pattern::{NO_SLOT, Pattern, UPPER_6};
+use super::gather::{Gather, sym_index};
+use super::pattern::Pattern;
 use crate::element::{AxialState, Bar, Catenary};
 use crate::model::{MemberKind, Model, RestSpec, SelfWeight, StrainMeasure};
+use rayon::prelude::*;
+use std::sync::{Mutex, PoisonError};
+
+// Work per parallel task. The results do not depend on these sizes; unit
+// tests use small ones so that small models still run on many tasks.
+/// Members per parallel task of the kernel pass.
+const MEMBER_CHUNK: usize = if cfg!(test) { 16 } else { 2048 };
+/// Nodes per parallel task of the force gather.
+const NODE_CHUNK: usize = if cfg!(test) { 16 } else { 2048 };
+/// Tangent value slots per parallel task of the tangent gather.
+const SLOT_CHUNK: usize = if cfg!(test) { 64 } else { 8192 };
+
+/// Per-member results of the latest assembly, reused across calls.
+#[derive(Debug, Default)]
+struct MemberBuffers {
+    /// Internal force on node j.
+    f: Vec<[f64; 3]>,
+    /// Tangent block, upper triangle (see [`sym_index`]).
+    k: Vec<[f64; 6]>,
+}
+
+/// The member buffers behind a lock, so assembly can keep `&self`; a clone of
+/// the system gets fresh buffers of its own.
+#[derive(Debug, Default)]
+struct Scratch(Mutex<MemberBuffers>);
+
+impl Clone for Scratch {
+    fn clone(&self) -> Self {
+        let n = self.0.lock().unwrap_or_else(PoisonError::into_inner).f.len();
+        Scratch(Mutex::new(MemberBuffers { f: vec![[0.0; 3]; n], k: vec![[0.0; 6]; n] }))
+    }
+}
 
 /// One member's kernel.
 #[derive(Clone, Copy, Debug)]
@@ -98,6 +137,8 @@ pub struct System {
     /// Sums over all nodes, supports included, N.
     total_ref: [f64; 3],
     total_dead: [f64; 3],
+    gather: Gather,
+    scratch: Scratch,
 }
 
 /// Why a system could not be built.
@@ -188,6 +229,12 @@ impl System {
             }
         }
         let f_ref_norm = f_ref.iter().map(|v| v * v).sum::<f64>().sqrt();
+        let gather = Gather::new(&ends, model.n_nodes(), &pattern).map_err(|_| BuildError {
+            member: String::new(),
+            message: "the model is too large for the 32-bit assembly lists (over 350 million members)".into(),
+        })?;
+        let n = bars.len();
+        let scratch = Scratch(Mutex::new(MemberBuffers { f: vec![[0.0; 3]; n], k: vec![[0.0; 6]; n] }));
         Ok(System {
             dofs,
             pattern,
@@ -202,6 +249,8 @@ impl System {
             support_loads,
             total_ref,
             total_dead,
+            gather,
+            scratch,
         })
     }
 
@@ -272,25 +321,6 @@ impl System {
         self.bars[m].state(&self.end_difference(u, m), self.strain)
     }
 
-    /// Adds a member's end forces into the free-DOF vector `r` and, for
-    /// supported DOFs, into `reactions` (indexed 3·node + axis).
-    #[inline]
-    fn scatter_force(&self, m: usize, f: &[f64; 3], r: &mut [f64], reactions: &mut [f64]) {
-        let [i, j] = self.ends[m];
-        let raw = self.dofs.raw();
-        for (a, fa) in f.iter().enumerate() {
-            for (node, sign) in [(i as usize, -1.0), (j as usize, 1.0)] {
-                let k = 3 * node + a;
-                let d = raw[k];
-                if d == FIXED {
-                    reactions[k] += sign * fa;
-                } else {
-                    r[d as usize] += sign * fa;
-                }
-            }
-        }
-    }
-
     /// Evaluates r(u, λ) into `r` (free DOFs) and the support reactions into
     /// `reactions` (3 per node, zero at free DOFs). Reactions are the forces
     /// the supports exert on the structure.
@@ -322,34 +352,58 @@ impl System {
         lambda: f64,
         r: &mut [f64],
         reactions: &mut [f64],
-        mut k_values: Option<&mut [f64]>,
+        k_values: Option<&mut [f64]>,
     ) -> ResidualNorms {
         debug_assert_eq!(u.len(), self.n_free());
-        r.fill(0.0);
-        reactions.fill(0.0);
-        if let Some(k) = k_values.as_deref_mut() {
-            k.fill(0.0);
-        }
-        for m in 0..self.bars.len() {
-            let st = self.member_state(u, m);
-            self.scatter_force(m, &st.f, r, reactions);
-            if let Some(k) = k_values.as_deref_mut() {
-                let slots = &self.pattern.member_slots[21 * m..21 * m + 21];
-                for (&(a, b), &slot) in UPPER_6.iter().zip(slots) {
-                    if slot == NO_SLOT {
-                        continue;
+        debug_assert_eq!(reactions.len(), self.dofs.raw().len());
+        let mut guard = self.scratch.0.lock().unwrap_or_else(PoisonError::into_inner);
+        let MemberBuffers { f: member_f, k: member_k } = &mut *guard;
+        let with_k = k_values.is_some();
+        // Pass 1: each member's end force and tangent block, independently.
+        member_f.par_chunks_mut(MEMBER_CHUNK).zip(member_k.par_chunks_mut(MEMBER_CHUNK)).enumerate().for_each(
+            |(c, (fs, ks))| {
+                for (l, (f, k)) in fs.iter_mut().zip(ks.iter_mut()).enumerate() {
+                    let st = self.member_state(u, c * MEMBER_CHUNK + l);
+                    *f = st.f;
+                    if with_k {
+                        for a in 0..3 {
+                            for b in a..3 {
+                                k[sym_index(a, b)] = st.k[a][b];
+                            }
+                        }
                     }
-                    let same_node = (a < 3) == (b < 3);
-                    let v = st.k[(a % 3) as usize][(b % 3) as usize];
-                    k[slot as usize] += if same_node { v } else { -v };
                 }
+            },
+        );
+        // Pass 2a: node forces, summed in member order, first into the
+        // per-node array `reactions`, then the free ones moved into `r`.
+        let member_f = &*member_f;
+        reactions.par_chunks_mut(3 * NODE_CHUNK).enumerate().for_each(|(c, chunk)| {
+            for (l, nf) in chunk.chunks_exact_mut(3).enumerate() {
+                nf.copy_from_slice(&self.gather.node_force(c * NODE_CHUNK + l, member_f));
+            }
+        });
+        for (k, &d) in self.dofs.raw().iter().enumerate() {
+            if d != FIXED {
+                r[d as usize] = reactions[k];
+                reactions[k] = 0.0;
             }
         }
+        // Pass 2b: tangent values, each slot summed in member order.
+        if let Some(kv) = k_values {
+            let member_k = &*member_k;
+            kv.par_chunks_mut(SLOT_CHUNK).enumerate().for_each(|(c, chunk)| {
+                for (l, v) in chunk.iter_mut().enumerate() {
+                    *v = self.gather.slot_value(c * SLOT_CHUNK + l, member_k);
+                }
+            });
+            for s in &self.springs {
+                kv[self.pattern.diag_slot[s.dof]] += s.k;
+            }
+        }
+        drop(guard);
         for s in &self.springs {
             r[s.dof] += s.k * u[s.dof];
-            if let Some(k) = k_values.as_deref_mut() {
-                k[self.pattern.diag_slot[s.dof]] += s.k;
-            }
         }
         // The internal forces at the supports are what the supports must
         // supply: reaction = f_int − f_ext there (f_ext: self-weight only).
@@ -369,9 +423,15 @@ impl System {
         ResidualNorms { residual, force_scale: load2.sqrt() + react }
     }
 
+    /// Bytes of the assembly's own arrays (gather lists and member buffers).
+    pub fn assembly_bytes(&self) -> usize {
+        self.gather.bytes() + self.bars.len() * (3 + 6) * 8
+    }
+
     /// Force, strain, length and slack state of every member at `u`.
     pub fn member_results(&self, u: &[f64]) -> Vec<MemberResult> {
         (0..self.bars.len())
+            .into_par_iter()
             .map(|m| {
                 let st = self.member_state(u, m);
                 MemberResult { force: st.force, strain: st.strain, length: st.length, slack: st.slack }
@@ -402,6 +462,146 @@ impl System {
                     y[c] += v * x[r];
                 }
             }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::generate::{DomeOptions, NetOptions, lattice_dome, saddle_net};
+    use crate::linalg::Ldlt;
+    use crate::model::Method;
+    use crate::observe::Silent;
+    use crate::path::Tracer;
+    use crate::solve::{CorrectorConfig, InverseTangent, Workspace};
+
+    fn pool(threads: usize) -> rayon::ThreadPool {
+        rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap()
+    }
+
+    fn net(n: usize, load: f64) -> Model {
+        let g = saddle_net(&NetOptions { nx: n, ny: n, load, ..NetOptions::default() }, "net").unwrap();
+        crate::model::load_str(&g.toml, "net.toml", None).unwrap()
+    }
+
+    fn dome() -> Model {
+        let g = lattice_dome(&DomeOptions { rings: 6, sectors: 16, ..DomeOptions::default() }, "dome").unwrap();
+        crate::model::load_str(&g.toml, "dome.toml", None).unwrap()
+    }
+
+    /// A displacement with no symmetry, large enough to stretch and slacken members.
+    fn wobble(n: usize, amp: f64) -> Vec<f64> {
+        (0..n).map(|i| amp * (((i * 7919) % 101) as f64 / 50.0 - 1.0)).collect()
+    }
+
+    struct Assembled {
+        r: Vec<f64>,
+        reactions: Vec<f64>,
+        k: Vec<f64>,
+    }
+
+    fn assemble_on(threads: usize, sys: &System, n_nodes: usize, u: &[f64]) -> Assembled {
+        pool(threads).install(|| {
+            let mut a = Assembled {
+                r: vec![0.0; sys.n_free()],
+                reactions: vec![0.0; 3 * n_nodes],
+                k: sys.new_tangent_values(),
+            };
+            sys.residual_and_tangent(u, 0.7, &mut a.r, &mut a.reactions, &mut a.k);
+            a
+        })
+    }
+
+    fn bits(v: &[f64]) -> Vec<u64> {
+        v.iter().map(|x| x.to_bits()).collect()
+    }
+
+    /// The member-by-member scatter that parallel assembly replaced, reading
+    /// each member block's upper triangle as the gather does: the order of
+    /// additions the gather lists must reproduce exactly.
+    fn serial_scatter(sys: &System, u: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        use crate::assembly::pattern::{NO_SLOT, UPPER_6};
+        let mut r = vec![0.0; sys.n_free()];
+        let mut k = sys.new_tangent_values();
+        let raw = sys.dofs.raw();
+        for m in 0..sys.n_members() {
+            let st = sys.member_state(u, m);
+            let [i, j] = sys.ends[m];
+            for a in 0..3 {
+                for (node, sign) in [(i as usize, -1.0), (j as usize, 1.0)] {
+                    let d = raw[3 * node + a];
+                    if d != FIXED {
+                        r[d as usize] += sign * st.f[a];
+                    }
+                }
+            }
+            for (&(a, b), &slot) in UPPER_6.iter().zip(&sys.pattern.member_slots[21 * m..21 * m + 21]) {
+                if slot != NO_SLOT {
+                    let (p, q) = ((a % 3).min(b % 3) as usize, (a % 3).max(b % 3) as usize);
+                    let v = st.k[p][q];
+                    k[slot as usize] += if (a < 3) == (b < 3) { v } else { -v };
+                }
+            }
+        }
+        for s in &sys.springs {
+            r[s.dof] += s.k * u[s.dof];
+            k[sys.pattern.diag_slot[s.dof]] += s.k;
+        }
+        for (ri, fi) in r.iter_mut().zip(&sys.f_ref) {
+            *ri -= 0.7 * fi;
+        }
+        (r, k)
+    }
+
+    /// Residual, reactions and tangent values are bit-identical on 1, 2 and 3
+    /// threads, and equal to the serial member-by-member scatter, for a cable
+    /// net (some cables slack at this displacement) and a bar dome.
+    #[test]
+    fn assembly_is_bit_identical_on_any_thread_count() {
+        for m in [net(14, 500.0), dome()] {
+            let sys = System::new(&m).unwrap();
+            let u = wobble(sys.n_free(), 0.05);
+            let one = assemble_on(1, &sys, m.n_nodes(), &u);
+            assert!(one.k.iter().any(|v| *v != 0.0) && one.reactions.iter().any(|v| *v != 0.0));
+            for threads in [2, 3] {
+                let many = assemble_on(threads, &sys, m.n_nodes(), &u);
+                assert_eq!(bits(&one.r), bits(&many.r), "residual, {threads} threads");
+                assert_eq!(bits(&one.reactions), bits(&many.reactions), "reactions, {threads} threads");
+                assert_eq!(bits(&one.k), bits(&many.k), "tangent, {threads} threads");
+            }
+            let (r, k) = serial_scatter(&sys, &u);
+            assert_eq!(bits(&one.r), bits(&r), "residual vs serial scatter");
+            assert_eq!(bits(&one.k), bits(&k), "tangent vs serial scatter");
+        }
+    }
+
+    /// A whole BFGS path on a strongly loaded net gives bit-identical
+    /// displacements, load factors and counts on 1, 2 and 3 threads.
+    #[test]
+    fn whole_solve_is_bit_identical_on_any_thread_count() {
+        let mut m = net(16, 120.0);
+        m.analysis.method = Method::Bfgs;
+        m.analysis.steps = 5;
+        let sys = System::new(&m).unwrap();
+        let run = |threads: usize| {
+            pool(threads).install(|| {
+                let ldlt = Ldlt::new(&sys.pattern, faer::Par::Seq).unwrap();
+                let corrector = CorrectorConfig::from_analysis(&m.analysis);
+                let h = InverseTangent::new(m.analysis.method, ldlt, corrector.refactor.max_updates);
+                let mut ws = Workspace::new(&sys, m.n_nodes(), h);
+                let mut tracer = Tracer::new(&sys, &m, corrector);
+                let path = tracer.run(&mut ws, &mut Silent);
+                let lambdas: Vec<f64> = path.points.iter().map(|p| p.lambda).collect();
+                assert_eq!(path.stop, crate::path::StopReason::TargetReached, "{threads} threads");
+                (bits(&path.final_state.u), bits(&lambdas), path.totals())
+            })
+        };
+        let one = run(1);
+        assert!(one.1.len() >= 5, "the path has its steps");
+        assert!(one.0.iter().any(|&b| f64::from_bits(b).abs() > 1e-3), "the net moved");
+        for threads in [2, 3] {
+            assert_eq!(one, run(threads), "{threads} threads");
         }
     }
 }

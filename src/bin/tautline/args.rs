@@ -9,6 +9,9 @@ pub struct Cli {
     /// No progress bar; print only the outcome, the files written and the caution
     #[arg(short, long, global = true)]
     pub quiet: bool,
+    /// Threads for assembly and factorization (default: TAUTLINE_THREADS, else every core)
+    #[arg(long, global = true, value_name = "N")]
+    pub threads: Option<usize>,
     #[command(subcommand)]
     pub command: Command,
 }

@@ -4,8 +4,10 @@
 //! (VmHWM) is its own. The figures printed are wall time, numeric
 //! factorizations, corrector iterations, residual evaluations, peak memory,
 //! the time of one factorization of the initial tangent and the path's time
-//! as a multiple of it, the largest change of a cable force along the path,
-//! and the largest difference of the final displacements from Newton's.
+//! as a multiple of it, the time of one assembly of residual and tangent on
+//! one and on two threads (and their ratio), residual evaluations per second,
+//! the largest change of a cable force along the path, and the largest
+//! difference of the final displacements from Newton's.
 
 use crate::args::{BenchArgs, BenchRunArgs};
 use crate::run::Failure;
@@ -32,6 +34,33 @@ fn peak_memory() -> u64 {
         .map_or(0, |kb| kb * 1024)
 }
 
+/// Mean wall time of `f` over enough repetitions to fill about half a second
+/// (at least two), seconds.
+fn mean_time(mut f: impl FnMut()) -> f64 {
+    f();
+    let t = Instant::now();
+    let mut n = 0;
+    while n < 2 || (t.elapsed().as_secs_f64() < 0.5 && n < 50) {
+        f();
+        n += 1;
+    }
+    t.elapsed().as_secs_f64() / n as f64
+}
+
+/// Times of one residual-and-tangent assembly at `u` on a pool of `threads`.
+fn assembly_time(system: &System, u: &[f64], n_nodes: usize, threads: usize) -> Result<f64, Failure> {
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| Failure::Internal(e.into()))?;
+    let mut k = system.new_tangent_values();
+    let mut r = vec![0.0; system.n_free()];
+    let mut react = vec![0.0; 3 * n_nodes];
+    Ok(pool.install(|| mean_time(|| {
+        system.residual_and_tangent(u, 1.0, &mut r, &mut react, &mut k);
+    })))
+}
+
 /// One run, printed as one line of `key=value` pairs for the parent.
 pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     let mut m = model::load(&a.model).map_err(|e| Failure::BadInput(e.to_string()))?;
@@ -48,7 +77,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     }
     let system = System::new(&m).map_err(|e| Failure::BadInput(e.message))?;
     let t_sym = Instant::now();
-    let ldlt = Ldlt::new(&system.pattern, faer::Par::rayon(0)).map_err(|e| Failure::Internal(e.into()))?;
+    let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| Failure::Internal(e.into()))?;
     let symbolic_s = t_sym.elapsed().as_secs_f64();
     // One numeric factorization of the initial tangent, timed alone.
     let mut ldlt = ldlt;
@@ -79,11 +108,20 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         .filter(|(a, _)| **a > 0.0)
         .map(|(a, b)| (b.force - a).abs() / a)
         .fold(0.0, f64::max);
+    // Assembly and residual rates at the final state, where the members are
+    // stretched as they are along the path.
+    let u1 = &path.final_state.u;
+    let assembly_1 = assembly_time(&system, u1, m.n_nodes(), 1)?;
+    let assembly_2 = assembly_time(&system, u1, m.n_nodes(), 2)?;
+    let residual_s = mean_time(|| {
+        system.residual(u1, 1.0, &mut r, &mut react);
+    });
     let bytes: Vec<u8> = path.final_state.u.iter().flat_map(|v| v.to_le_bytes()).collect();
     std::fs::write(&a.u_out, bytes).map_err(|e| Failure::Internal(e.into()))?;
     println!(
         "dofs={} nnz={} factor_nnz={} stop={} seconds={seconds:.3} symbolic={symbolic_s:.3} factor={factor_s:.3} \
-         iterations={} factorizations={} evaluations={} max_force_change={max_change:.3} peak={}",
+         iterations={} factorizations={} evaluations={} max_force_change={max_change:.3} peak={} \
+         threads={} assembly1={assembly_1:.5} assembly2={assembly_2:.5} residuals_per_s={:.1}",
         system.n_free(),
         system.pattern.nnz(),
         ws.h.ldlt.factor_nnz(),
@@ -91,7 +129,9 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         iters + w.iterations,
         facs + w.factorizations,
         evals + w.residual_evaluations,
-        peak_memory()
+        peak_memory(),
+        rayon::current_num_threads(),
+        1.0 / residual_s
     );
     Ok(0)
 }
@@ -119,9 +159,11 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
     let exe = std::env::current_exe().map_err(|e| Failure::Internal(e.into()))?;
     let dir = std::env::temp_dir().join(format!("tautline-bench-{}", std::process::id()));
     std::fs::create_dir_all(&dir).map_err(|e| Failure::Internal(e.into()))?;
+    println!("threads: {} (assembly also timed on 1 and 2)", rayon::current_num_threads());
     println!(
-        "{:>8} {:>16} {:>9} {:>6} {:>6} {:>6} {:>8} {:>8} {:>7} {:>9} {:>9}",
-        "DOF", "method", "time s", "facts", "iters", "evals", "peak MB", "1 fac s", "×fac", "ΔN max", "Δu/|u|"
+        "{:>8} {:>16} {:>9} {:>6} {:>6} {:>6} {:>8} {:>8} {:>7} {:>8} {:>8} {:>5} {:>6} {:>9} {:>9} {:>9}",
+        "DOF", "method", "time s", "facts", "iters", "evals", "peak MB", "1 fac s", "×fac", "asm1 ms", "asm2 ms",
+        "×2", "asm%", "res/s", "ΔN max", "Δu/|u|"
     );
     for &target in &a.dofs {
         // 3 free DOFs per interior node of an n × n net with fixed edges.
@@ -140,6 +182,7 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
         for method in &a.methods {
             let u_out = dir.join(format!("u-{method}.bin"));
             let mut cmd = std::process::Command::new(&exe);
+            cmd.env(crate::threads::ENV, rayon::current_num_threads().to_string());
             if a.check_every_step {
                 cmd.arg("bench-run").arg("--check-every-step");
             } else {
@@ -173,8 +216,12 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
             let secs: f64 = field(&line, "seconds").parse().unwrap_or(f64::NAN);
             let fac: f64 = field(&line, "factor").parse().unwrap_or(f64::NAN);
             let peak: f64 = field(&line, "peak").parse::<f64>().unwrap_or(0.0) / 1e6;
+            let asm1: f64 = field(&line, "assembly1").parse().unwrap_or(f64::NAN);
+            let asm2: f64 = field(&line, "assembly2").parse().unwrap_or(f64::NAN);
+            let asm_here = if field(&line, "threads") == "1" { asm1 } else { asm2 };
+            let rate: f64 = field(&line, "residuals_per_s").parse().unwrap_or(f64::NAN);
             println!(
-                "{:>8} {:>16} {:>9.2} {:>6} {:>6} {:>6} {:>8.0} {:>8.3} {:>7.1} {:>9} {:>9}{}",
+                "{:>8} {:>16} {:>9.2} {:>6} {:>6} {:>6} {:>8.0} {:>8.3} {:>7.1} {:>8.1} {:>8.1} {:>5.2} {:>6.1} {:>9.0} {:>9} {:>9}{}",
                 field(&line, "dofs"),
                 method,
                 secs,
@@ -184,6 +231,11 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 peak,
                 fac,
                 secs / fac,
+                1e3 * asm1,
+                1e3 * asm2,
+                asm1 / asm2,
+                100.0 * asm_here / fac,
+                rate,
                 field(&line, "max_force_change"),
                 diff,
                 if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }

@@ -5,6 +5,7 @@ mod args;
 mod bench;
 mod progress;
 mod run;
+mod threads;
 
 use clap::Parser;
 use std::process::ExitCode;
@@ -22,6 +23,10 @@ pub mod exit {
 
 fn main() -> ExitCode {
     let cli = args::Cli::parse();
+    if let Err(msg) = threads::configure(cli.threads) {
+        eprintln!("{msg}\nnothing was written");
+        return ExitCode::from(exit::BAD_INPUT);
+    }
     let code = match run::run(cli) {
         Ok(code) => code,
         Err(run::Failure::BadInput(msg)) => {

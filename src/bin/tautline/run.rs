@@ -232,7 +232,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
     prepare_out_dir(out, model_path, &m.files[0], force)?;
     let started = Instant::now();
     let a = &m.analysis;
-    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).map_err(|e| Failure::Internal(e.into()))?;
+    let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| Failure::Internal(e.into()))?;
     let corrector = CorrectorConfig::from_analysis(a);
     let h = InverseTangent::new(a.method, ldlt, corrector.refactor.max_updates);
     let mut ws = Workspace::new(&system, m.n_nodes(), h);
