@@ -3,6 +3,7 @@
 
 mod args;
 mod bench;
+mod json;
 mod run;
 
 use clap::Parser;
@@ -19,9 +20,23 @@ pub mod exit {
 
 fn main() -> ExitCode {
     let cli = args::Cli::parse();
+    let format = cli.command.format();
     let code = match run::run(cli) {
         Ok(code) => code,
+        Err(failure) if format == args::Format::Json => {
+            let code = failure.exit_code();
+            println!("{}", json::failure(&failure, code));
+            code
+        }
         Err(run::Failure::BadInput(msg)) => {
+            eprintln!("{msg}");
+            if !msg.contains("nothing was written") {
+                eprintln!("nothing was written");
+            }
+            exit::BAD_INPUT
+        }
+        Err(run::Failure::Model(errors)) => {
+            let msg = errors.to_string();
             eprintln!("{msg}");
             if !msg.contains("nothing was written") {
                 eprintln!("nothing was written");
