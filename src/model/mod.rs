@@ -13,7 +13,7 @@ pub mod write;
 
 pub use diagnostics::{Diagnostic, ModelErrors};
 pub use units::{ForceUnit, LengthUnit, Units};
-pub use validate::{load, load_str};
+pub use validate::{load, load_str, load_texts};
 
 /// Axis of a translational degree of freedom.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]

@@ -28,10 +28,33 @@ use csv::{Cell, CsvReader};
 pub const MAX_DIAGNOSTICS: usize = 50;
 /// Warnings are capped too, so one repeated remark cannot flood the output.
 pub const MAX_WARNINGS: usize = 50;
-/// Largest number of nodes, members, springs or loads a model may have.
+/// Largest number of springs or loads a model may have.
 pub const MAX_ITEMS: usize = 20_000_000;
+/// Largest number of nodes: far above a 1M-DOF net (about 340k nodes), low
+/// enough that the tables of a model this size still fit in memory.
+pub const MAX_NODES: usize = 10_000_000;
+/// Largest number of members.
+pub const MAX_MEMBERS: usize = 30_000_000;
+/// Largest `steps` and `max_steps`: every converged step is kept in memory.
+pub const MAX_STEPS: usize = 1_000_000;
+/// Largest `max_iterations` per step.
+pub const MAX_ITERATIONS: usize = 10_000;
+/// Largest `max_cutbacks`: a step halved 60 times is 1e-18 of its size,
+/// below the round-off of any load factor.
+pub const MAX_CUTBACKS: usize = 60;
+/// Largest `refactor_after`: each stored quasi-Newton pair holds two vectors
+/// of the model's size.
+pub const MAX_REFACTOR_AFTER: usize = 1_000;
+/// Largest `line_search` trial count.
+pub const MAX_LINE_SEARCH: usize = 100;
+/// Largest model (TOML) file; larger models keep nodes and members in CSV.
+pub const MAX_MODEL_BYTES: u64 = 256 << 20;
 /// Largest CSV table read into memory.
-const MAX_CSV_BYTES: u64 = 4 << 30;
+pub const MAX_CSV_BYTES: u64 = 4 << 30;
+/// Longest id or section name, in bytes.
+pub const MAX_LABEL_BYTES: usize = 256;
+/// Longest title, in bytes.
+pub const MAX_TITLE_BYTES: usize = 4096;
 /// Members shorter than this fraction of the model's size have zero length.
 const ZERO_LENGTH: f64 = 1e-12;
 
@@ -42,6 +65,21 @@ type LabelMap<'a> = HashMap<&'a str, usize>;
 /// next to it.
 pub fn load(path: &Path) -> Result<Model, ModelErrors> {
     let name = path.display().to_string();
+    if let Ok(meta) = std::fs::metadata(path)
+        && meta.is_file()
+        && meta.len() > MAX_MODEL_BYTES
+    {
+        return Err(Diagnostic::new(
+            &name,
+            format!(
+                "the model file is {} MiB, more than the {} MiB a model file may have",
+                meta.len() >> 20,
+                MAX_MODEL_BYTES >> 20
+            ),
+        )
+        .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
+        .into());
+    }
     let text = std::fs::read_to_string(path).map_err(|e| {
         Diagnostic::new(
             &name,
@@ -64,6 +102,44 @@ pub fn load_str(
     file_name: &str,
     base_dir: Option<&Path>,
 ) -> Result<Model, ModelErrors> {
+    let tables = match base_dir {
+        Some(dir) => Tables::Folder(dir),
+        None => Tables::None,
+    };
+    load_with(text, file_name, &tables)
+}
+
+/// Check a model given wholly in memory: the TOML text and the CSV tables it
+/// names, as `(name written in nodes_csv/members_csv, text)` pairs. Nothing
+/// is read from disk (used by the fuzz targets and by callers that hold the
+/// files already).
+pub fn load_texts(
+    text: &str,
+    file_name: &str,
+    tables: &[(&str, &str)],
+) -> Result<Model, ModelErrors> {
+    load_with(text, file_name, &Tables::Texts(tables))
+}
+
+/// Where the CSV tables named by a model come from.
+enum Tables<'a> {
+    /// Not available: naming a table is an error.
+    None,
+    /// Files relative to this folder.
+    Folder(&'a Path),
+    /// Texts given by the caller, by name.
+    Texts(&'a [(&'a str, &'a str)]),
+}
+
+fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, ModelErrors> {
+    if text.len() as u64 > MAX_MODEL_BYTES {
+        return Err(Diagnostic::new(
+            file_name,
+            format!("the model text is larger than {} MiB", MAX_MODEL_BYTES >> 20),
+        )
+        .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
+        .into());
+    }
     let toml = Toml {
         text,
         index: LineIndex::new(text),
@@ -78,7 +154,7 @@ pub fn load_str(
     if parsed.syntax_error {
         return Err(cx.into_errors());
     }
-    let model = build(&mut cx, &toml, &parsed.file, &parsed.lost, base_dir);
+    let model = build(&mut cx, &toml, &parsed.file, &parsed.lost, tables);
     if cx.errors.is_empty() {
         let mut model = model;
         model.files = std::mem::take(&mut cx.files);
@@ -119,6 +195,32 @@ fn to_u32(v: usize) -> u32 {
     u32::try_from(v).unwrap_or(u32::MAX)
 }
 
+/// A label as shown in messages: an overlong one is cut (it is reported as
+/// too long on its own).
+fn shorten(label: &str) -> std::borrow::Cow<'_, str> {
+    const SHOWN: usize = 40;
+    if label.len() <= MAX_LABEL_BYTES {
+        return label.into();
+    }
+    let mut end = SHOWN;
+    while !label.is_char_boundary(end) {
+        end -= 1;
+    }
+    format!("{}…", &label[..end]).into()
+}
+
+/// An id or name longer than [`MAX_LABEL_BYTES`] is an error.
+fn check_label(cx: &mut Ctx, src: Src, item: Item, key: &str, label: &str) {
+    if label.len() > MAX_LABEL_BYTES {
+        cx.error(
+            src,
+            item,
+            format!("`{key}` is {} bytes long, more than the {MAX_LABEL_BYTES} allowed", label.len()),
+            "use a short id; it only has to be unique",
+        );
+    }
+}
+
 /// The TOML text, for turning byte spans into lines and columns.
 struct Toml<'t> {
     text: &'t str,
@@ -156,7 +258,7 @@ enum Item<'a> {
 impl Item<'_> {
     fn text(self) -> Option<String> {
         match self {
-            Item::Named(kind, label) => Some(format!("{kind} {label:?}")),
+            Item::Named(kind, label) => Some(format!("{kind} {:?}", shorten(label))),
             Item::Numbered(kind, n) => Some(format!("{kind} {n}")),
             Item::Plain(s) => Some(s.to_string()),
             Item::Model => None,
@@ -331,13 +433,14 @@ fn check_number(
     true
 }
 
-/// A count such as `steps`: at least `min`.
+/// A count such as `steps`: at least `min`, at most `max`.
 fn check_count(
     cx: &mut Ctx,
     t: &Toml,
     v: &Spanned<i64>,
     key: &str,
     min: i64,
+    max: usize,
     help: &str,
 ) -> Option<usize> {
     let n = *v.get_ref();
@@ -350,7 +453,18 @@ fn check_count(
         );
         return None;
     }
-    usize::try_from(n).ok()
+    match usize::try_from(n) {
+        Ok(n) if n <= max => Some(n),
+        _ => {
+            cx.error(
+                t.at(v),
+                Item::Plain("[analysis]"),
+                format!("`{key}` must be at most {max}, found {n}"),
+                format!("{max} is the largest `{key}` tautline accepts; {help}"),
+            );
+            None
+        }
+    }
 }
 
 fn parse_dir(s: &str) -> Option<Axis> {
@@ -390,7 +504,7 @@ fn build(
     t: &Toml,
     file: &ModelFile,
     lost: &LostItems,
-    base_dir: Option<&Path>,
+    tables: &Tables,
 ) -> Model {
     cx.units = units(cx, t, file.units.as_ref());
     let title = file
@@ -398,6 +512,16 @@ fn build(
         .as_ref()
         .map(|s| s.get_ref().clone())
         .unwrap_or_default();
+    if let Some(t_) = &file.title
+        && t_.get_ref().len() > MAX_TITLE_BYTES
+    {
+        cx.error(
+            t.at(t_),
+            Item::Plain("title"),
+            format!("the title is {} bytes long, more than the {MAX_TITLE_BYTES} allowed", t_.get_ref().len()),
+            "shorten the title; notes belong in comments",
+        );
+    }
 
     let sections: Vec<Section> = file.section.iter().map(|s| section(cx, t, s)).collect();
 
@@ -406,11 +530,11 @@ fn build(
         add_node(cx, toml_node(t, n), &mut nodes);
     }
     if let Some(name) = &file.nodes_csv
-        && let Some((idx, text)) = read_csv(cx, t, name, "nodes_csv", base_dir)
+        && let Some((idx, text)) = read_csv(cx, t, name, "nodes_csv", tables)
     {
         csv_nodes(cx, idx, &text, &mut nodes);
     }
-    check_size(cx, nodes.len(), "nodes");
+    check_size(cx, nodes.len(), MAX_NODES, "nodes");
 
     let lost_nodes: HashSet<&str> = lost.nodes.iter().map(String::as_str).collect();
     let lost_sections: HashSet<&str> = lost.sections.iter().map(String::as_str).collect();
@@ -449,7 +573,7 @@ fn build(
         );
     }
     if let Some(name) = &file.members_csv
-        && let Some((idx, text)) = read_csv(cx, t, name, "members_csv", base_dir)
+        && let Some((idx, text)) = read_csv(cx, t, name, "members_csv", tables)
     {
         member_entries += csv_members(
             cx,
@@ -461,7 +585,7 @@ fn build(
             &mut section_used,
         );
     }
-    check_size(cx, members.len(), "members");
+    check_size(cx, members.len(), MAX_MEMBERS, "members");
     let member_places = members.iter().map(|m: &Member| (m.label.as_str(), m.place));
     index_labels(cx, member_places, "member");
 
@@ -499,12 +623,12 @@ fn build(
     }
 }
 
-fn check_size(cx: &mut Ctx, n: usize, what: &str) {
-    if n > MAX_ITEMS {
+fn check_size(cx: &mut Ctx, n: usize, max: usize, what: &str) {
+    if n > max {
         cx.error(
             Src::default(),
             Item::Model,
-            format!("the model has more than {MAX_ITEMS} {what}"),
+            format!("the model has {n} {what}, more than the {max} tautline accepts"),
             "split the model; larger models are not supported",
         );
     }
@@ -543,6 +667,7 @@ fn section(cx: &mut Ctx, t: &Toml, s: &Spanned<super::file::SectionEntry>) -> Se
     let e = s.get_ref();
     let name = e.name.get_ref();
     let item = Item::Named("section", name);
+    check_label(cx, t.at(&e.name), item, "name", name);
     if name.is_empty() {
         cx.error(
             t.at(&e.name),
@@ -626,6 +751,7 @@ fn toml_node<'a>(t: &Toml, n: &'a Spanned<NodeEntry>) -> RawNode<'a> {
 
 fn add_node(cx: &mut Ctx, raw: RawNode, nodes: &mut Vec<Node>) {
     let item = Item::Named("node", raw.label);
+    check_label(cx, raw.place, item, "id", raw.label);
     if raw.label.is_empty() {
         cx.error(
             raw.place,
@@ -832,6 +958,7 @@ fn add_member(
     section_used: &mut [bool],
 ) {
     let item = Item::Named("member", raw.label);
+    check_label(cx, raw.place, item, "id", raw.label);
     if raw.label.is_empty() {
         cx.error(
             raw.place,
@@ -1074,7 +1201,7 @@ fn springs(
             });
         }
     }
-    check_size(cx, out.len(), "springs");
+    check_size(cx, out.len(), MAX_ITEMS, "springs");
     out
 }
 
@@ -1114,7 +1241,7 @@ fn loads(cx: &mut Ctx, t: &Toml, file: &ModelFile, refs: &Refs) -> Vec<NodalLoad
             });
         }
     }
-    check_size(cx, out.len(), "loads");
+    check_size(cx, out.len(), MAX_ITEMS, "loads");
     out
 }
 
@@ -1182,14 +1309,14 @@ fn analysis(
 
     let count_help = "write a whole number of at least 1";
     if let Some(v) = &e.steps {
-        a.steps = check_count(cx, t, v, "steps", 1, count_help).unwrap_or(a.steps);
+        a.steps = check_count(cx, t, v, "steps", 1, MAX_STEPS, count_help).unwrap_or(a.steps);
     }
     if let Some(v) = &e.max_steps {
-        a.max_steps = check_count(cx, t, v, "max_steps", 1, count_help).unwrap_or(a.max_steps);
+        a.max_steps = check_count(cx, t, v, "max_steps", 1, MAX_STEPS, count_help).unwrap_or(a.max_steps);
     }
     if let Some(v) = &e.max_iterations {
         a.max_iterations =
-            check_count(cx, t, v, "max_iterations", 1, count_help).unwrap_or(a.max_iterations);
+            check_count(cx, t, v, "max_iterations", 1, MAX_ITERATIONS, count_help).unwrap_or(a.max_iterations);
     }
     if let Some(v) = &e.max_cutbacks {
         a.max_cutbacks = check_count(
@@ -1198,6 +1325,7 @@ fn analysis(
             v,
             "max_cutbacks",
             0,
+            MAX_CUTBACKS,
             "write a whole number, 0 for no step halving",
         )
         .unwrap_or(a.max_cutbacks);
@@ -1233,14 +1361,14 @@ fn analysis(
         a.arc_variant_normal_plane = normal;
     }
     if let Some(v) = &e.refactor_after {
-        a.refactor_after = check_count(cx, t, v, "refactor_after", 1, "write the number of quasi-Newton updates kept before refactoring, at least 1")
+        a.refactor_after = check_count(cx, t, v, "refactor_after", 1, MAX_REFACTOR_AFTER, "write the number of quasi-Newton updates kept before refactoring, at least 1")
             .unwrap_or(a.refactor_after);
     }
     if let Some(v) = &e.refactor_each_step {
         a.refactor_each_step = *v.get_ref();
     }
     if let Some(v) = &e.line_search {
-        a.line_search = check_count(cx, t, v, "line_search", 0, "write the number of line-search trials, 0 to switch it off");
+        a.line_search = check_count(cx, t, v, "line_search", 0, MAX_LINE_SEARCH, "write the number of line-search trials, 0 to switch it off");
     }
     if let Some(v) = &e.stall_ratio {
         let x = *v.get_ref();
@@ -1538,49 +1666,73 @@ fn read_csv(
     t: &Toml,
     name: &Spanned<String>,
     key: &'static str,
-    base_dir: Option<&Path>,
+    tables: &Tables,
 ) -> Option<(u16, String)> {
     let src = t.at(name);
     let item = Item::Plain(key);
-    let Some(base) = base_dir else {
-        cx.error(
-            src,
-            item,
-            format!("cannot read {:?}: the model was not read from a file, so there is no folder to look in", name.get_ref()),
-            "load the model from a file, or list the items in the toml file itself",
-        );
-        return None;
-    };
-    let path = base.join(name.get_ref());
-    let shown = path.display().to_string();
-    let too_big = std::fs::metadata(&path)
-        .map(|m| m.len() > MAX_CSV_BYTES)
-        .unwrap_or(false);
-    if too_big {
-        cx.error(
-            src,
-            item,
-            format!("{shown:?} is larger than {} GiB", MAX_CSV_BYTES >> 30),
-            "split the model; larger tables are not supported",
-        );
-        return None;
-    }
-    match std::fs::read_to_string(&path) {
-        Ok(text) => {
-            let idx = u16::try_from(cx.files.len()).ok()?;
-            cx.files.push(shown);
-            Some((idx, text))
-        }
-        Err(e) => {
+    let (shown, text) = match tables {
+        Tables::None => {
             cx.error(
                 src,
                 item,
-                format!("cannot read {shown:?}: {}", lower_first(&e.to_string())),
-                "check the name; it is relative to the folder of the model file",
+                format!("cannot read {:?}: the model was not read from a file, so there is no folder to look in", name.get_ref()),
+                "load the model from a file, or list the items in the toml file itself",
             );
-            None
+            return None;
         }
-    }
+        Tables::Texts(given) => {
+            let Some((_, text)) = given.iter().find(|(n, _)| *n == name.get_ref().as_str()) else {
+                cx.error(
+                    src,
+                    item,
+                    format!("no table named {:?} was given", name.get_ref()),
+                    "give the table's text under the name written here",
+                );
+                return None;
+            };
+            if text.len() as u64 > MAX_CSV_BYTES {
+                cx.error(
+                    src,
+                    item,
+                    format!("{:?} is larger than {} GiB", name.get_ref(), MAX_CSV_BYTES >> 30),
+                    "split the model; larger tables are not supported",
+                );
+                return None;
+            }
+            (name.get_ref().clone(), text.to_string())
+        }
+        Tables::Folder(base) => {
+            let path = base.join(name.get_ref());
+            let shown = path.display().to_string();
+            let too_big = std::fs::metadata(&path)
+                .map(|m| m.len() > MAX_CSV_BYTES)
+                .unwrap_or(false);
+            if too_big {
+                cx.error(
+                    src,
+                    item,
+                    format!("{shown:?} is larger than {} GiB", MAX_CSV_BYTES >> 30),
+                    "split the model; larger tables are not supported",
+                );
+                return None;
+            }
+            match std::fs::read_to_string(&path) {
+                Ok(text) => (shown, text),
+                Err(e) => {
+                    cx.error(
+                        src,
+                        item,
+                        format!("cannot read {shown:?}: {}", lower_first(&e.to_string())),
+                        "check the name; it is relative to the folder of the model file; a table must be utf-8 text",
+                    );
+                    return None;
+                }
+            }
+        }
+    };
+    let idx = u16::try_from(cx.files.len()).ok()?;
+    cx.files.push(shown);
+    Some((idx, text))
 }
 
 /// Column names of a CSV table; the first `required` must be present.
@@ -1808,11 +1960,11 @@ impl Row<'_, '_> {
 
 fn csv_nodes(cx: &mut Ctx, file: u16, text: &str, nodes: &mut Vec<Node>) {
     each_row(cx, file, text, &NODE_COLUMNS, |cx, row| {
-        if nodes.len() >= MAX_ITEMS {
+        if nodes.len() >= MAX_NODES {
             cx.error(
                 row.whole(),
                 Item::Plain("row"),
-                format!("the model has more than {MAX_ITEMS} nodes"),
+                format!("the model has more than {MAX_NODES} nodes, the most tautline accepts"),
                 "split the model; larger models are not supported",
             );
             return false;
@@ -1865,11 +2017,11 @@ fn csv_members(
     let mut rows = 0;
     each_row(cx, file, text, &MEMBER_COLUMNS, |cx, row| {
         rows += 1;
-        if members.len() >= MAX_ITEMS {
+        if members.len() >= MAX_MEMBERS {
             cx.error(
                 row.whole(),
                 Item::Plain("row"),
-                format!("the model has more than {MAX_ITEMS} members"),
+                format!("the model has more than {MAX_MEMBERS} members, the most tautline accepts"),
                 "split the model; larger models are not supported",
             );
             return false;

@@ -22,6 +22,9 @@ pub enum Command {
     Check {
         /// Model file (TOML)
         model: PathBuf,
+        /// Print the summary or the errors as text or as one JSON object on stdout
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
     },
     /// Trace the load-deflection path of a model and write results to DIR
     Solve {
@@ -33,6 +36,9 @@ pub enum Command {
         /// Overwrite DIR even if it holds the results of another model
         #[arg(long)]
         force: bool,
+        /// Print the summary or the errors as text or as one JSON object on stdout
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
         #[command(flatten)]
         overrides: Overrides,
     },
@@ -67,6 +73,26 @@ pub enum Command {
         #[arg(long, default_value = "text")]
         format: String,
     },
+}
+
+/// How `check` and `solve` print their summary or errors.
+#[derive(clap::ValueEnum, Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub enum Format {
+    /// Lines for people (errors on stderr)
+    #[default]
+    Text,
+    /// One JSON object on stdout, for scripts
+    Json,
+}
+
+impl Command {
+    /// The output format asked for (text for the commands without the option).
+    pub fn format(&self) -> Format {
+        match self {
+            Command::Check { format, .. } | Command::Solve { format, .. } => *format,
+            _ => Format::Text,
+        }
+    }
 }
 
 /// Overrides of the model's `[analysis]` table.

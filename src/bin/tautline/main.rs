@@ -3,6 +3,7 @@
 
 mod args;
 mod bench;
+mod json;
 mod progress;
 mod run;
 mod threads;
@@ -27,9 +28,23 @@ fn main() -> ExitCode {
         eprintln!("{msg}\nnothing was written");
         return ExitCode::from(exit::BAD_INPUT);
     }
+    let format = cli.command.format();
     let code = match run::run(cli) {
         Ok(code) => code,
+        Err(failure) if format == args::Format::Json => {
+            let code = failure.exit_code();
+            println!("{}", json::failure(&failure, code));
+            code
+        }
         Err(run::Failure::BadInput(msg)) => {
+            eprintln!("{msg}");
+            if !msg.contains("nothing was written") {
+                eprintln!("nothing was written");
+            }
+            exit::BAD_INPUT
+        }
+        Err(run::Failure::Model(errors)) => {
+            let msg = errors.to_string();
             eprintln!("{msg}");
             if !msg.contains("nothing was written") {
                 eprintln!("nothing was written");

@@ -1,11 +1,12 @@
 //! Resolved run settings and the calls into the library.
 
-use crate::args::{Cli, Command, Generate, Overrides};
+use crate::args::{Cli, Command, Format, Generate, Overrides};
 use crate::exit;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 use tautline::assembly::System;
 use tautline::linalg::Ldlt;
+use tautline::model::validate::MAX_STEPS;
 use tautline::model::{self, Axis, Control, MemberKind, Method, Model, NodeDir, StrainMeasure};
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -22,7 +23,18 @@ const DEMO_MODEL: &str = include_str!("../../../models/courtyard_net.toml");
 pub enum Failure {
     /// The input is wrong: exit 2, nothing written.
     BadInput(String),
+    /// The model file is wrong (every problem found): exit 2, nothing written.
+    Model(model::ModelErrors),
     Internal(anyhow::Error),
+}
+
+impl Failure {
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            Failure::BadInput(_) | Failure::Model(_) => exit::BAD_INPUT,
+            Failure::Internal(_) => exit::INTERNAL,
+        }
+    }
 }
 
 impl From<anyhow::Error> for Failure {
@@ -34,15 +46,18 @@ impl From<anyhow::Error> for Failure {
 pub fn run(cli: Cli) -> Result<u8, Failure> {
     let quiet = cli.quiet;
     match cli.command {
-        Command::Check { model } => {
-            let m = load(&model)?;
-            print_summary(&m);
+        Command::Check { model, format } => {
+            let m = load(&model, format)?;
+            match format {
+                Format::Text => print_summary(&m),
+                Format::Json => println!("{}", crate::json::check(&m, &Counts::of(&m))),
+            }
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, force, overrides } => {
-            let mut m = load(&model)?;
+        Command::Solve { model, out, force, format, overrides } => {
+            let mut m = load(&model, format)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
-            solve(&m, &out, Some(&model), force, quiet)
+            solve(&m, &out, Some(&model), force, quiet, format)
         }
         Command::Form { model, out } => form(&model, &out),
         Command::Generate { what } => generate(what),
@@ -52,7 +67,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            let code = solve(&m, &out, None, false, quiet)?;
+            let code = solve(&m, &out, None, false, quiet, Format::Text)?;
             println!("report: {} (open it in a browser; it needs no network)", out.join("report.html").display());
             Ok(code)
         }
@@ -60,10 +75,14 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
     }
 }
 
-fn load(path: &Path) -> Result<Model, Failure> {
-    let m = model::load(path).map_err(|e| Failure::BadInput(e.to_string()))?;
-    for w in &m.warnings {
-        eprintln!("warning: {w}");
+/// Loads a model; in text mode its warnings go to stderr (JSON output
+/// carries them in the summary).
+fn load(path: &Path, format: Format) -> Result<Model, Failure> {
+    let m = model::load(path).map_err(Failure::Model)?;
+    if format == Format::Text {
+        for w in &m.warnings {
+            eprintln!("warning: {w}");
+        }
     }
     Ok(m)
 }
@@ -102,14 +121,14 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
         };
     }
     if let Some(n) = o.steps {
-        if n == 0 {
-            return Err("--steps must be at least 1".into());
+        if n == 0 || n > MAX_STEPS {
+            return Err(format!("--steps {n}: must be from 1 to {MAX_STEPS}"));
         }
         a.steps = n;
     }
     if let Some(n) = o.max_steps {
-        if n == 0 {
-            return Err("--max-steps must be at least 1".into());
+        if n == 0 || n > MAX_STEPS {
+            return Err(format!("--max-steps {n}: must be from 1 to {MAX_STEPS}"));
         }
         a.max_steps = n;
     }
@@ -151,17 +170,47 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
     Ok(())
 }
 
+/// What `check` reports about a model.
+pub struct Counts {
+    pub nodes: usize,
+    pub supported: usize,
+    pub fixed: usize,
+    pub members: usize,
+    pub bars: usize,
+    pub cables: usize,
+    pub catenaries: usize,
+    pub springs: usize,
+    pub loads: usize,
+    pub free_dofs: usize,
+}
+
+impl Counts {
+    pub fn of(m: &Model) -> Counts {
+        let bars = m.members.iter().filter(|x| x.kind == MemberKind::Bar).count();
+        let catenaries = m.members.iter().filter(|x| x.kind == MemberKind::Catenary).count();
+        Counts {
+            nodes: m.n_nodes(),
+            supported: m.nodes.iter().filter(|n| n.fixed.iter().any(|f| *f)).count(),
+            fixed: m.n_fixed(),
+            members: m.n_members(),
+            bars,
+            cables: m.n_members() - bars - catenaries,
+            catenaries,
+            springs: m.springs.len(),
+            loads: m.loads.len(),
+            free_dofs: 3 * m.n_nodes() - m.n_fixed(),
+        }
+    }
+}
+
 fn print_summary(m: &Model) {
     let u = m.units;
-    let bars = m.members.iter().filter(|x| x.kind == MemberKind::Bar).count();
-    let catenaries = m.members.iter().filter(|x| x.kind == MemberKind::Catenary).count();
-    let cables = m.n_members() - bars - catenaries;
-    let supported = m.nodes.iter().filter(|n| n.fixed.iter().any(|f| *f)).count();
-    let n_free = 3 * m.n_nodes() - m.n_fixed();
+    let c = Counts::of(m);
+    let (bars, cables, catenaries) = (c.bars, c.cables, c.catenaries);
     let t = m.total_reference_load();
     println!("model: {} ({})", m.title, m.files[0]);
     println!("units: force {}, length {}", u.force.name(), u.length.name());
-    println!("nodes: {} ({} supported, {} fixed directions)", m.n_nodes(), supported, m.n_fixed());
+    println!("nodes: {} ({} supported, {} fixed directions)", c.nodes, c.supported, c.fixed);
     if catenaries > 0 {
         println!("members: {} ({bars} bars, {cables} cables, {catenaries} catenaries)", m.n_members());
     } else {
@@ -176,10 +225,10 @@ fn print_summary(m: &Model) {
         };
         println!("self-weight: {how}");
     }
-    println!("free DOFs: {n_free}");
+    println!("free DOFs: {}", c.free_dofs);
     println!(
         "loads: {} nodal loads; total reference load [{:.6}, {:.6}, {:.6}] {}",
-        m.loads.len(),
+        c.loads,
         u.force_out(t[0]),
         u.force_out(t[1]),
         u.force_out(t[2]),
@@ -222,7 +271,7 @@ fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, forc
     })
 }
 
-fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: bool) -> Result<u8, Failure> {
+fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: bool, format: Format) -> Result<u8, Failure> {
     let system = System::new(m).map_err(|e| {
         Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
     })?;
@@ -268,13 +317,14 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
         ("convergence.svg", "Convergence: relative residual of every iteration", report::plot::convergence_svg(&res)),
     ];
     let mut drawn = Vec::new();
+    let mut plot_warnings = Vec::new();
     for (name, caption, svg) in plots {
         match svg {
             Ok(text) => {
                 write(&mut staged, name, text.clone())?;
                 drawn.push((caption, text));
             }
-            Err(e) => eprintln!("warning: {name} not drawn: {e}"),
+            Err(e) => plot_warnings.push(format!("{name} not drawn: {e}")),
         }
     }
     let figures: Vec<report::html::Figure> =
@@ -284,19 +334,29 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
         .commit()
         .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
 
-    if quiet {
-        let status = if res.converged { "done" } else { "stopped before the target" };
-        println!("{status}: {}", res.stop_message);
-    } else {
-        print_run_summary(m, &res);
-    }
-    println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
-    println!("{CAUTION}");
-    Ok(match path.stop {
+    let code = match path.stop {
         s if s.is_complete() => exit::DONE,
         StopReason::Interrupted => exit::INTERRUPTED,
         _ => exit::STOPPED,
-    })
+    };
+    let written: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
+    match format {
+        Format::Text => {
+            for w in &plot_warnings {
+                eprintln!("warning: {w}");
+            }
+            if quiet {
+                let status = if res.converged { "done" } else { "stopped before the target" };
+                println!("{status}: {}", res.stop_message);
+            } else {
+                print_run_summary(m, &res);
+            }
+            println!("wrote {}", written.join(", "));
+            println!("{CAUTION}");
+        }
+        Format::Json => println!("{}", crate::json::solve(m, &res, &written, &plot_warnings, code)),
+    }
+    Ok(code)
 }
 
 fn print_run_summary(m: &Model, r: &results::Results) {
@@ -440,7 +500,7 @@ impl Observer for Interrupt {
 
 /// `form`: force density form finding, then the formed model and its table.
 fn form(model_path: &Path, out: &Path) -> Result<u8, Failure> {
-    let m = load(model_path)?;
+    let m = load(model_path, Format::Text)?;
     let found = tautline::form::force_density(&m).map_err(|e| Failure::BadInput(format!("{}: {e}", model_path.display())))?;
     for w in &found.warnings {
         eprintln!("warning: {w}");
