@@ -67,9 +67,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            let code = solve(&m, &out, None, false, quiet, Format::Text)?;
-            println!("report: {} (open it in a browser; it needs no network)", out.join("report.html").display());
-            Ok(code)
+            solve(&m, &out, None, false, quiet, Format::Text)
         }
         Command::Verify { format } => verify(&format),
     }
@@ -352,6 +350,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
                 print_run_summary(m, &res);
             }
             println!("wrote {}", written.join(", "));
+            println!("report: {} (open it in a browser; it needs no network)", out.join("report.html").display());
             println!("{CAUTION}");
         }
         Format::Json => println!("{}", crate::json::solve(m, &res, &written, &plot_warnings, code)),
