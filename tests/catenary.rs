@@ -327,3 +327,26 @@ fn slack_cable_is_reported_with_its_step() {
     assert!((e.load_factor - 0.5).abs() < 1e-12);
     assert_eq!(r.slack_members, vec!["right".to_string()]);
 }
+
+/// Bad input about the new keys is reported with file, line and a fix.
+#[test]
+fn catenary_and_self_weight_input_errors_name_the_place() {
+    let base = "[[section]]\nname = \"r\"\nEA = 1.0e5\nweight = 1.0\n\
+        [[node]]\nid = \"A\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+        [[node]]\nid = \"B\"\nat = [4.0, 0.0, 1.0]\nfix = \"yz\"\n\
+        [[member]]\nid = \"s\"\nkind = \"catenary\"\nends = [\"A\", \"B\"]\nsection = \"r\"\nprestress = 10.0\n\
+        [analysis]\nself_weight = \"deadload\"\n";
+    let err = match tautline::model::load_str(base, "test.toml", None) {
+        Ok(_) => panic!("accepted a catenary with a prestress"),
+        Err(e) => e.to_string(),
+    };
+    assert!(err.contains("test.toml:18") && err.contains("rest_length"), "{err}");
+    assert!(err.contains("test.toml:20") && err.contains("unknown self_weight") && err.contains("dead, reference, none"), "{err}");
+    let fine = base.replace("prestress = 10.0", "rest_length = 4.2").replace("\"deadload\"", "\"reference\"");
+    let m = model(&fine);
+    assert_eq!(m.members[0].kind, tautline::model::MemberKind::Catenary);
+    // The written model reads back the same.
+    let again = model(&tautline::model::write::to_toml(&m));
+    assert_eq!(again.analysis.self_weight, tautline::model::SelfWeight::Reference);
+    assert_eq!(again.members[0].kind, tautline::model::MemberKind::Catenary);
+}
