@@ -350,3 +350,30 @@ fn catenary_and_self_weight_input_errors_name_the_place() {
     assert_eq!(again.analysis.self_weight, tautline::model::SelfWeight::Reference);
     assert_eq!(again.members[0].kind, tautline::model::MemberKind::Catenary);
 }
+
+/// A cable that starts slack and is pulled taut: its event ends at the step
+/// where it carries tension again. C is held by a spring k = 1e4 N/m and
+/// pulled away from A by λ·450 N; the right cable (rest 2.01 m over a 2 m
+/// chord) takes tension once u > 0.01 m, i.e. past λ = 0.222, first seen at
+/// step 3 (λ = 0.3); the left one, unstressed at the start, is slack from
+/// step 0 on (statics, common practice, no source).
+#[test]
+fn retensioned_cable_closes_its_slack_event() {
+    let text = "[[section]]\nname = \"r\"\nEA = 1.0e5\n\
+        [[node]]\nid = \"A\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+        [[node]]\nid = \"C\"\nat = [2.0, 0.0, 0.0]\nfix = \"yz\"\n\
+        [[node]]\nid = \"B\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+        [[member]]\nid = \"left\"\nkind = \"cable\"\nends = [\"A\", \"C\"]\nsection = \"r\"\n\
+        [[member]]\nid = \"right\"\nkind = \"cable\"\nends = [\"C\", \"B\"]\nsection = \"r\"\nrest_length = 2.01\n\
+        [[spring]]\nnode = \"C\"\ndir = \"x\"\nk = 1.0e4\n\
+        [[load]]\nnode = \"C\"\nforce = [-450.0, 0.0, 0.0]\n\
+        [analysis]\nstrain = \"engineering\"\nsteps = 10\ntolerance = 1e-12\n"
+        .replace("id = \"B\"\nat = [0.0, 0.0, 0.0]", "id = \"B\"\nat = [4.0, 0.0, 0.0]");
+    let run = solve_text(&text);
+    assert_eq!(run.path.stop, StopReason::TargetReached, "{:?}", run.path.last_failure);
+    let r = tautline::results::build(&run.model, &run.system, &run.path, &run.wasted, 0.0);
+    let summary: Vec<(&str, usize, Option<usize>)> =
+        r.slack_events.iter().map(|e| (e.member.as_str(), e.step, e.tensioned_step)).collect();
+    assert_eq!(summary, vec![("left", 0, None), ("right", 0, Some(3))], "{:?}", r.slack_events);
+    assert!((r.slack_events[1].tensioned_load_factor.unwrap() - 0.3).abs() < 1e-12);
+}
