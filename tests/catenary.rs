@@ -377,3 +377,34 @@ fn retensioned_cable_closes_its_slack_event() {
     assert_eq!(summary, vec![("left", 0, None), ("right", 0, Some(3))], "{:?}", r.slack_events);
     assert!((r.slack_events[1].tensioned_load_factor.unwrap() - 0.3).abs() < 1e-12);
 }
+
+/// A 20-bar chain drawn straight (prestress 1 kN) under a heavy self-weight
+/// (3 kN/m): with max_iterations = 6 one corrector solve cannot reach the
+/// dead-load state, so the dead load is stepped in; the state found is the
+/// one a single solve with 30 iterations reaches, and the supports carry the
+/// whole weight (statics, common practice, no source).
+#[test]
+fn dead_load_is_stepped_in_when_one_solve_fails() {
+    let chain = |max_iterations: usize| {
+        let mut s = String::from("[[section]]\nname = \"r\"\nEA = 1.0e6\nweight = 3000.0\n");
+        for i in 0..=20 {
+            let fix = if i == 0 || i == 20 { "xyz" } else { "y" };
+            let _ = write!(s, "[[node]]\nid = \"n{i}\"\nat = [{:?}, 0.0, 0.0]\nfix = \"{fix}\"\n", i as f64);
+        }
+        for i in 0..20 {
+            let _ = write!(s, "[[member]]\nid = \"c{i}\"\nkind = \"cable\"\nends = [\"n{i}\", \"n{}\"]\nsection = \"r\"\nprestress = 1000.0\n", i + 1);
+        }
+        let _ = write!(s, "[[load]]\nnode = \"n10\"\nforce = [0.0, 0.0, -100.0]\n[analysis]\nstrain = \"engineering\"\nsteps = 2\nmax_iterations = {max_iterations}\nwatch = [\"n10.z\"]\n");
+        solve_text(&s)
+    };
+    let (stepped, direct) = (chain(6), chain(30));
+    for run in [&stepped, &direct] {
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{:?}", run.path.last_failure);
+    }
+    assert!(stepped.wasted.iterations > 0 && direct.wasted.iterations == 0, "{} {}", stepped.wasted.iterations, direct.wasted.iterations);
+    let (z1, z2) = (stepped.path.points[0].watched[0], direct.path.points[0].watched[0]);
+    assert!(z2 < -1.0 && rel_err(z1, z2, 1e-9) < 1e-8, "dead-load sag {z1} vs {z2}");
+    let lift = reaction(&stepped, "n0", 2) + reaction(&stepped, "n20", 2);
+    // Weight per unstressed length: each rest length is 1 m·EA/(EA + N).
+    assert!(rel_err(lift, 3000.0 * 20.0 / 1.001 + 100.0, 1.0) < 1e-8, "{lift}");
+}
