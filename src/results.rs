@@ -152,11 +152,10 @@ pub fn slack_events(model: &Model, path: &Path) -> Vec<SlackEvent> {
             }
         }
         for &m in before {
-            if p.slack.binary_search(&m).is_err() {
-                if let Some(e) = open[m as usize].take() {
-                    events[e].tensioned_step = Some(p.step);
-                    events[e].tensioned_load_factor = Some(p.lambda);
-                }
+            let tensioned = p.slack.binary_search(&m).is_err();
+            if let Some(e) = open[m as usize].take_if(|_| tensioned) {
+                events[e].tensioned_step = Some(p.step);
+                events[e].tensioned_load_factor = Some(p.lambda);
             }
         }
         before = &p.slack;

@@ -793,3 +793,31 @@ fn formed_net_solves_from_equilibrium() {
     assert_eq!(r.code, 2, "{r}");
     assert!(!sc.path("no").exists());
 }
+
+/// A cable that goes slack is named in the summary with its step and load
+/// factor, and listed in results.json `slack_events`.
+#[test]
+fn slack_cables_are_reported_in_summary_and_results() {
+    let dir = Scratch::new("slack_events");
+    let model = dir.write(
+        "slack.toml",
+        "[[section]]\nname = \"r\"\nEA = 1.0e5\n\
+         [[node]]\nid = \"A\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+         [[node]]\nid = \"C\"\nat = [2.0, 0.0, 0.0]\nfix = \"yz\"\n\
+         [[node]]\nid = \"B\"\nat = [4.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+         [[member]]\nid = \"left\"\nkind = \"cable\"\nends = [\"A\", \"C\"]\nsection = \"r\"\nprestress = 1000.0\n\
+         [[member]]\nid = \"right\"\nkind = \"cable\"\nends = [\"C\", \"B\"]\nsection = \"r\"\nprestress = 1000.0\n\
+         [[load]]\nnode = \"C\"\nforce = [4400.0, 0.0, 0.0]\n\
+         [analysis]\nstrain = \"engineering\"\nsteps = 10\n",
+    );
+    let out = dir.path("out");
+    let r = solve(&model, &out, &[]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stdout.contains("1 cable went slack: right at step 5 (λ=0.5000)"), "{r}");
+    let json: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap();
+    let events = json["slack_events"].as_array().expect("slack_events list");
+    assert_eq!(events.len(), 1);
+    assert_eq!(events[0]["member"], "right");
+    assert_eq!(events[0]["step"], 5);
+    assert!(events[0]["tensioned_step"].is_null());
+}

@@ -1,8 +1,10 @@
 //! One integration-test binary. Modules:
 //! - `verification`: the main job checked against published or derived closed forms;
 //! - `properties`: solver facts that must hold on any model (equilibrium, method agreement);
-//! - `cli`: the command-line contract (exit codes, files, messages).
+//! - `cli`: the command-line contract (exit codes, files, messages);
+//! - `catenary`: self-weight, the elastic catenary, the parabolic cable, slack reporting.
 mod common;
+mod catenary;
 mod cli;
 mod form;
 mod plots;

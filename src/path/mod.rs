@@ -374,13 +374,16 @@ impl<'a> Tracer<'a> {
             let (term, rec) = solve::drive(&partial, ws, state, &start_u, state.lambda, &FixedLoad, &self.corrector, 0, observer);
             if term == Termination::Converged {
                 add_records(rec0, &rec);
-                first = false;
+                let was_first = std::mem::replace(&mut first, false);
                 mu = target;
                 halvings = 0;
                 if mu >= 1.0 {
                     return Termination::Converged;
                 }
-                d_mu = (1.5 * d_mu).min(1.0 - mu);
+                if !was_first {
+                    d_mu *= 1.5;
+                }
+                d_mu = d_mu.min(1.0 - mu);
             } else {
                 add_records(&mut self.wasted, &rec);
                 let lambda = state.lambda;
