@@ -3,6 +3,7 @@
 
 mod args;
 mod bench;
+mod relax;
 mod run;
 
 use clap::Parser;
