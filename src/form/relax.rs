@@ -305,9 +305,9 @@ impl Dynamics for Shape<'_> {
         for m in 0..self.model.members.len() {
             let [i, j] = self.model.members[m].ends;
             let (e, _, n) = self.member(m);
-            for a in 0..3 {
-                self.f[3 * i + a] -= n * e[a];
-                self.f[3 * j + a] += n * e[a];
+            for (a, ea) in e.iter().enumerate() {
+                self.f[3 * i + a] -= n * ea;
+                self.f[3 * j + a] += n * ea;
             }
         }
         let mut free2 = 0.0;
