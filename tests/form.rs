@@ -328,3 +328,25 @@ fn zero_force_densities_are_an_error_naming_a_node() {
     );
     assert!(msg.contains("add up to zero"), "{msg}");
 }
+
+#[test]
+fn formed_model_of_weighted_sections_leaves_self_weight_out_and_starts_in_equilibrium() {
+    // Form finding balances the given loads only (Schek 1974); a section
+    // weight applied as dead load on top would leave the formed shape out of
+    // equilibrium, so the formed model sets `self_weight = "none"` and says so.
+    let text = chain(6, 1.0, 500.0, 1000.0).replace("EA = 1.0e7\n", "EA = 1.0e7\nweight = 80.0\n");
+    let m = model::load_str(&text, "chain.toml", None).expect("chain loads");
+    assert_eq!(m.analysis.self_weight, model::SelfWeight::Dead);
+    let form = force_density(&m).expect("form");
+    let formed = formed_model(&m, &form);
+    assert_eq!(formed.analysis.self_weight, model::SelfWeight::None);
+    assert!(formed.warnings.iter().any(|w| w.to_string().contains("self_weight")), "{:?}", formed.warnings);
+    let m2 = model::load_str(&to_toml(&formed), "formed.toml", None).expect("formed reads back");
+    assert_eq!(m2.analysis.self_weight, model::SelfWeight::None);
+    let sys = System::new(&m2).expect("system");
+    let zeros = vec![0.0; sys.n_free()];
+    let mut r = vec![0.0; sys.n_free()];
+    let mut reactions = vec![0.0; 3 * m2.n_nodes()];
+    let norms = sys.residual(&zeros, 1.0, &mut r, &mut reactions);
+    assert!(norms.residual / sys.f_ref_norm() < 1e-9, "relative residual {}", norms.residual / sys.f_ref_norm());
+}

@@ -10,11 +10,12 @@
 //! free (node, axis) unknowns is assembled and factored once.
 
 pub mod relax;
+pub mod targets;
 
 use crate::assembly::Pattern;
 use crate::element::Bar;
 use crate::linalg::Ldlt;
-use crate::model::{Diagnostic, Model, RestSpec};
+use crate::model::{Diagnostic, FormTarget, MemberKind, Model, RestSpec, SelfWeight};
 use std::fmt;
 
 /// Geometry and forces found by [`force_density`].
@@ -49,6 +50,8 @@ pub enum FormError {
     Linalg(String),
     /// The solution is not finite.
     NotFinite { node: String },
+    /// The member asks for something this method does not do.
+    Unsupported { member: String, reason: String },
 }
 
 impl fmt::Display for FormError {
@@ -76,21 +79,29 @@ impl fmt::Display for FormError {
                 "form finding gave a position of node {node:?} that is not finite; the force \
                  densities are close to a singular combination"
             ),
+            FormError::Unsupported { member, reason } => write!(f, "member {member:?}: {reason}"),
         }
     }
 }
 
 impl std::error::Error for FormError {}
 
-/// Force density of each member, N/m: its own, else the `[form]` default.
+/// Force density of each member, N/m: its own, else the `[form]` default,
+/// else (a member with `target_force` T only) T over its drawn length.
 pub fn member_force_densities(model: &Model) -> Result<Vec<f64>, FormError> {
     model
         .members
         .iter()
-        .map(|m| {
+        .enumerate()
+        .map(|(k, m)| {
+            let from_target = match m.target {
+                Some(FormTarget::Force(t)) => Some(t / model.member_length(k)),
+                _ => None,
+            };
             let q = m
                 .force_density
                 .or(model.form.force_density)
+                .or(from_target)
                 .ok_or_else(|| FormError::NoForceDensity {
                     member: m.label.clone(),
                 })?;
@@ -111,7 +122,11 @@ const NONE: usize = usize::MAX;
 /// Finds the equilibrium shape of the model's members under its nodal loads
 /// (at load factor 1) for the given force densities.
 pub fn force_density(model: &Model) -> Result<FormResult, FormError> {
-    let q = member_force_densities(model)?;
+    force_density_with(model, member_force_densities(model)?)
+}
+
+/// [`force_density`] with the force densities `q` (N/m, one per member).
+pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, FormError> {
     let n_nodes = model.n_nodes();
 
     // Unknowns: free (node, axis) pairs, node by node.
@@ -298,6 +313,11 @@ pub fn formed_model(model: &Model, form: &FormResult) -> Model {
     let file = model.files.first().cloned().unwrap_or_default();
     let strain = model.analysis.strain;
     for (m, member) in out.members.iter_mut().enumerate() {
+        // A target is met (or not) once: the formed model carries the found
+        // state, its force density included, not the target.
+        if member.target.take().is_some() {
+            member.force_density = form.force_densities.get(m).copied().filter(|q| q.is_finite());
+        }
         let (Some(&l), Some(&n)) = (form.lengths.get(m), form.forces.get(m)) else {
             continue;
         };
@@ -323,6 +343,38 @@ pub fn formed_model(model: &Model, form: &FormResult) -> Model {
                 );
             }
         }
+    }
+    // Form finding balances the given loads only. Section weights and
+    // catenary sag are not part of it, so the formed model leaves them out:
+    // otherwise `solve` would not start in equilibrium.
+    let mut turned = Vec::new();
+    for member in out.members.iter_mut().filter(|m| m.kind == MemberKind::Catenary) {
+        member.kind = MemberKind::Cable;
+        turned.push(member.label.clone());
+    }
+    if !turned.is_empty() {
+        let shown: Vec<String> = turned.iter().take(5).map(|l| format!("{l:?}")).collect();
+        out.warnings.push(Diagnostic::new(
+            file.clone(),
+            format!(
+                "{} catenary member(s) ({}{}) were form-found as straight members and are written as \
+                 `kind = \"cable\"` in formed.toml; change them back by hand to analyse their sag",
+                turned.len(),
+                shown.join(", "),
+                if turned.len() > 5 { ", ..." } else { "" }
+            ),
+        ));
+    }
+    let weighted = out.sections.iter().any(|s| s.weight.is_some_and(|w| w > 0.0));
+    if weighted && out.analysis.self_weight != SelfWeight::None {
+        out.analysis.self_weight = SelfWeight::None;
+        out.warnings.push(Diagnostic::new(
+            file.clone(),
+            "section weights are not part of form finding: formed.toml sets `self_weight = \"none\"` \
+             so that `solve` starts in equilibrium; set it to \"dead\" to analyse the formed shape \
+             under its own weight as well"
+                .to_string(),
+        ));
     }
     if !out.loads.is_empty() {
         // The found shape balances the form-finding loads at full value:

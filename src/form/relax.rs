@@ -35,7 +35,9 @@
 //! ‖reactions‖). No allocation per time step: every vector lives in
 //! [`Relaxation`].
 
+use super::{FormError, FormResult};
 use crate::assembly::System;
+use crate::model::{FormTarget, MemberKind, Model};
 
 /// Settings of one relaxation run.
 #[derive(Clone, Copy, Debug)]
@@ -90,13 +92,133 @@ const DT: f64 = 1.0;
 /// this fraction of the largest mass, so it can still move.
 const MASS_FLOOR: f64 = 1e-6;
 
+/// A problem relaxed by kinetic damping: a residual and lumped masses.
+trait Dynamics {
+    /// r(u) into `r`; returns ‖r‖ / force scale.
+    fn residual(&mut self, u: &[f64], r: &mut [f64]) -> f64;
+    /// Row stiffness Σⱼ|Kᵢⱼ| at u into `row`.
+    fn row_stiffness(&mut self, u: &[f64], row: &mut [f64]);
+}
+
+/// The central-difference loop with kinetic-energy resets shared by the
+/// analysis and the form finding. `v`, `r`, `mass` have the length of `u`.
+fn kinetic_damping(
+    dynamics: &mut impl Dynamics,
+    u: &mut [f64],
+    v: &mut [f64],
+    r: &mut [f64],
+    mass: &mut [f64],
+    cfg: &RelaxConfig,
+) -> RelaxReport {
+    let mut report =
+        RelaxReport { stop: RelaxStop::StepCap, steps: 0, peaks: 0, mass_updates: 0, relative_residual: f64::INFINITY };
+    v.fill(0.0);
+    // Kinetic energies at the last two half steps; 0 at rest.
+    let (mut e0, mut e1) = (0.0, 0.0);
+    let mut from_rest = true;
+    loop {
+        if from_rest {
+            dynamics.row_stiffness(u, mass);
+            lumped_masses(mass);
+            report.mass_updates += 1;
+        }
+        report.relative_residual = dynamics.residual(u, r);
+        if !report.relative_residual.is_finite() {
+            report.stop = RelaxStop::NotFinite;
+            return report;
+        }
+        if report.relative_residual <= cfg.tolerance {
+            report.stop = RelaxStop::Converged;
+            return report;
+        }
+        if report.steps >= cfg.max_steps {
+            report.stop = RelaxStop::StepCap;
+            return report;
+        }
+        report.steps += 1;
+        // v^{t+Δt/2}; from rest the first step is a half step.
+        let h = if from_rest { 0.5 * DT } else { DT };
+        let mut e2 = 0.0;
+        for ((vi, ri), m) in v.iter().zip(r.iter()).zip(mass.iter()) {
+            let vn = vi - h * ri / m;
+            e2 += 0.5 * m * vn * vn;
+        }
+        if !from_rest && e2 < e1 {
+            // Peak passed: back to the interpolated peak, at rest.
+            let den = e0 - 2.0 * e1 + e2;
+            let s = if den < 0.0 { ((e0 - e2) / (2.0 * den)).clamp(-0.5, 0.5) } else { 0.0 };
+            let back = (0.5 - s) * DT;
+            for (ui, vi) in u.iter_mut().zip(v.iter()) {
+                *ui -= back * vi;
+            }
+            v.fill(0.0);
+            e0 = 0.0;
+            e1 = 0.0;
+            from_rest = true;
+            report.peaks += 1;
+            continue;
+        }
+        for ((vi, ri), m) in v.iter_mut().zip(r.iter()).zip(mass.iter()) {
+            *vi -= h * ri / m;
+        }
+        for (ui, vi) in u.iter_mut().zip(v.iter()) {
+            *ui += DT * vi;
+        }
+        e0 = e1;
+        e1 = e2;
+        from_rest = false;
+    }
+}
+
+/// mᵢ = (Δt²/2)·Σⱼ|Kᵢⱼ| in place of the row sums, with a floor.
+fn lumped_masses(row: &mut [f64]) {
+    let largest = row.iter().fold(0.0f64, |a, &b| a.max(b));
+    let floor = if largest > 0.0 { MASS_FLOOR * largest } else { 1.0 };
+    for m in row {
+        *m = (0.5 * DT * DT * *m).max(floor);
+    }
+}
+
 /// The buffers of a relaxation run on one [`System`], allocated once.
 pub struct Relaxation {
     v: Vec<f64>,
     r: Vec<f64>,
+    mass: Vec<f64>,
     reactions: Vec<f64>,
     k_values: Vec<f64>,
-    mass: Vec<f64>,
+}
+
+struct Analysis<'a> {
+    system: &'a System,
+    lambda: f64,
+    reactions: &'a mut [f64],
+    k_values: &'a mut [f64],
+}
+
+impl Dynamics for Analysis<'_> {
+    fn residual(&mut self, u: &[f64], r: &mut [f64]) -> f64 {
+        let n = self.system.residual(u, self.lambda, r, self.reactions);
+        relative(self.system, n.residual, n.force_scale)
+    }
+
+    /// Row sums of |K| from the tangent (upper triangle, so each
+    /// off-diagonal entry counts for its row and its column).
+    fn row_stiffness(&mut self, u: &[f64], row: &mut [f64]) {
+        // `row` doubles as the residual scratch: it is overwritten below.
+        self.system.residual_and_tangent(u, self.lambda, row, self.reactions, self.k_values);
+        let p = &self.system.pattern;
+        row.fill(0.0);
+        for c in 0..p.n {
+            for s in p.col_ptr[c]..p.col_ptr[c + 1] {
+                let i = p.row_idx[s];
+                let a = self.k_values[s].abs();
+                row[i] += a;
+                if i != c {
+                    row[c] += a;
+                }
+            }
+        }
+    }
 }
 
 impl Relaxation {
@@ -105,108 +227,17 @@ impl Relaxation {
         Relaxation {
             v: vec![0.0; n],
             r: vec![0.0; n],
+            mass: vec![0.0; n],
             reactions: vec![0.0; 3 * n_nodes],
             k_values: system.new_tangent_values(),
-            mass: vec![0.0; n],
         }
     }
 
     /// Relaxes the free displacements `u` (start values in, the state found
     /// out) to static equilibrium at load factor `lambda`.
     pub fn equilibrium(&mut self, system: &System, lambda: f64, u: &mut [f64], cfg: &RelaxConfig) -> RelaxReport {
-        let mut report = RelaxReport {
-            stop: RelaxStop::StepCap,
-            steps: 0,
-            peaks: 0,
-            mass_updates: 0,
-            relative_residual: f64::INFINITY,
-        };
-        if u.is_empty() {
-            report.stop = RelaxStop::Converged;
-            report.relative_residual = 0.0;
-            return report;
-        }
-        self.v.fill(0.0);
-        // Kinetic energies at the last two half steps; 0 at rest.
-        let (mut e0, mut e1) = (0.0, 0.0);
-        let mut from_rest = true;
-        loop {
-            let norms = if from_rest {
-                let n = system.residual_and_tangent(u, lambda, &mut self.r, &mut self.reactions, &mut self.k_values);
-                self.update_masses(system);
-                report.mass_updates += 1;
-                n
-            } else {
-                system.residual(u, lambda, &mut self.r, &mut self.reactions)
-            };
-            report.relative_residual = relative(system, norms.residual, norms.force_scale);
-            if !report.relative_residual.is_finite() {
-                report.stop = RelaxStop::NotFinite;
-                return report;
-            }
-            if report.relative_residual <= cfg.tolerance {
-                report.stop = RelaxStop::Converged;
-                return report;
-            }
-            if report.steps >= cfg.max_steps {
-                report.stop = RelaxStop::StepCap;
-                return report;
-            }
-            report.steps += 1;
-            // v^{t+Δt/2}; from rest the first step is a half step.
-            let h = if from_rest { 0.5 * DT } else { DT };
-            let mut e2 = 0.0;
-            for ((v, r), m) in self.v.iter().zip(&self.r).zip(&self.mass) {
-                let vn = v - h * r / m;
-                e2 += 0.5 * m * vn * vn;
-            }
-            if !from_rest && e2 < e1 {
-                // Peak passed: back to the interpolated peak, at rest.
-                let den = e0 - 2.0 * e1 + e2;
-                let s = if den < 0.0 { ((e0 - e2) / (2.0 * den)).clamp(-0.5, 0.5) } else { 0.0 };
-                let back = (0.5 - s) * DT;
-                for (ui, vi) in u.iter_mut().zip(&self.v) {
-                    *ui -= back * vi;
-                }
-                self.v.fill(0.0);
-                e0 = 0.0;
-                e1 = 0.0;
-                from_rest = true;
-                report.peaks += 1;
-                continue;
-            }
-            for ((v, r), m) in self.v.iter_mut().zip(&self.r).zip(&self.mass) {
-                *v -= h * r / m;
-            }
-            for (ui, vi) in u.iter_mut().zip(&self.v) {
-                *ui += DT * vi;
-            }
-            e0 = e1;
-            e1 = e2;
-            from_rest = false;
-        }
-    }
-
-    /// mᵢ = (Δt²/2)·Σⱼ|Kᵢⱼ| from the tangent values just assembled (upper
-    /// triangle, so each off-diagonal entry counts for its row and column).
-    fn update_masses(&mut self, system: &System) {
-        let p = &system.pattern;
-        self.mass.fill(0.0);
-        for c in 0..p.n {
-            for s in p.col_ptr[c]..p.col_ptr[c + 1] {
-                let r = p.row_idx[s];
-                let a = self.k_values[s].abs();
-                self.mass[r] += a;
-                if r != c {
-                    self.mass[c] += a;
-                }
-            }
-        }
-        let largest = self.mass.iter().fold(0.0f64, |a, &b| a.max(b));
-        let floor = if largest > 0.0 { MASS_FLOOR * largest } else { 1.0 };
-        for m in &mut self.mass {
-            *m = (0.5 * DT * DT * *m).max(floor);
-        }
+        let mut a = Analysis { system, lambda, reactions: &mut self.reactions, k_values: &mut self.k_values };
+        kinetic_damping(&mut a, u, &mut self.v, &mut self.r, &mut self.mass, cfg)
     }
 }
 
@@ -214,4 +245,200 @@ impl Relaxation {
 fn relative(system: &System, residual: f64, force_scale: f64) -> f64 {
     let scale = force_scale.max(1e-12 * system.f_ref_norm()).max(f64::MIN_POSITIVE);
     residual / scale
+}
+
+// ---------------------------------------------------------------------------
+// Form finding
+
+/// How a member pulls in the form finding by relaxation.
+#[derive(Clone, Copy, Debug)]
+enum Pull {
+    /// N = q·l: the force density method's member, solved dynamically.
+    Density(f64),
+    /// N = T whatever the length: a member with `target_force`.
+    Force(f64),
+}
+
+/// Node positions relaxed under member pulls and the form-finding loads.
+struct Shape<'a> {
+    model: &'a Model,
+    pulls: &'a [Pull],
+    /// Flat index 3·node + axis of each unknown.
+    owner: &'a [usize],
+    /// Position of every node, flat; free entries follow `u`.
+    x: &'a mut [f64],
+    /// Internal force minus load at every node, flat.
+    f: &'a mut [f64],
+    load_norm: f64,
+}
+
+impl Shape<'_> {
+    fn set_positions(&mut self, u: &[f64]) {
+        for (&k, &ui) in self.owner.iter().zip(u) {
+            self.x[k] = ui;
+        }
+    }
+
+    /// Unit vector i → j, length, and the member force there.
+    fn member(&self, m: usize) -> ([f64; 3], f64, f64) {
+        let [i, j] = self.model.members[m].ends;
+        let d: [f64; 3] = std::array::from_fn(|a| self.x[3 * j + a] - self.x[3 * i + a]);
+        let l = (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt();
+        let n = match self.pulls[m] {
+            Pull::Density(q) => q * l,
+            Pull::Force(t) => t,
+        };
+        let e = if l > 0.0 { d.map(|c| c / l) } else { [0.0; 3] };
+        (e, l, n)
+    }
+}
+
+impl Dynamics for Shape<'_> {
+    fn residual(&mut self, u: &[f64], r: &mut [f64]) -> f64 {
+        self.set_positions(u);
+        self.f.fill(0.0);
+        for l in &self.model.loads {
+            for a in 0..3 {
+                self.f[3 * l.node + a] -= l.force[a];
+            }
+        }
+        for m in 0..self.model.members.len() {
+            let [i, j] = self.model.members[m].ends;
+            let (e, _, n) = self.member(m);
+            for (a, ea) in e.iter().enumerate() {
+                self.f[3 * i + a] -= n * ea;
+                self.f[3 * j + a] += n * ea;
+            }
+        }
+        let mut free2 = 0.0;
+        for (ri, &k) in r.iter_mut().zip(self.owner) {
+            *ri = self.f[k];
+            free2 += *ri * *ri;
+            // What remains at the supports is their reaction.
+            self.f[k] = 0.0;
+        }
+        let reactions = self.f.iter().map(|v| v * v).sum::<f64>().sqrt();
+        let scale = (self.load_norm + reactions).max(f64::MIN_POSITIVE);
+        free2.sqrt() / scale
+    }
+
+    /// Tangent of N·e at each end: q·I for a force density member,
+    /// (T/l)(I − e eᵀ) for a fixed force; the block sits on the diagonal of
+    /// both ends and, negated, between them, so each end's row sum gets twice
+    /// the block's row sum.
+    fn row_stiffness(&mut self, u: &[f64], row: &mut [f64]) {
+        self.set_positions(u);
+        self.f.fill(0.0);
+        for m in 0..self.model.members.len() {
+            let [i, j] = self.model.members[m].ends;
+            let (e, l, _) = self.member(m);
+            for a in 0..3 {
+                let sum: f64 = match self.pulls[m] {
+                    Pull::Density(q) => q.abs(),
+                    Pull::Force(t) if l > 0.0 => {
+                        (0..3).map(|b| (t / l * (f64::from(u8::from(a == b)) - e[a] * e[b])).abs()).sum()
+                    }
+                    Pull::Force(_) => 0.0,
+                };
+                self.f[3 * i + a] += 2.0 * sum;
+                self.f[3 * j + a] += 2.0 * sum;
+            }
+        }
+        for (ri, &k) in row.iter_mut().zip(self.owner) {
+            *ri = self.f[k];
+        }
+    }
+}
+
+/// Form finding by dynamic relaxation: members with `target_force` pull
+/// with that force whatever their length, the others with their force
+/// density (N = q·l); supported coordinates stay, the model's loads are the
+/// form-finding loads. Starts from the drawn geometry. A run that stops
+/// before `cfg.tolerance` returns the shape it reached with its report.
+pub fn relax_form(model: &Model, cfg: &RelaxConfig) -> Result<(FormResult, RelaxReport), FormError> {
+    let mut pulls = Vec::with_capacity(model.n_members());
+    for member in &model.members {
+        pulls.push(match member.target {
+            Some(FormTarget::Force(t)) => Pull::Force(t),
+            Some(FormTarget::Length(_)) => {
+                return Err(FormError::Unsupported {
+                    member: member.label.clone(),
+                    reason: "`target_length` is met by the force density method; set \
+                             [form] method = \"force-density\""
+                        .into(),
+                });
+            }
+            None => {
+                let q = member.force_density.or(model.form.force_density).ok_or_else(|| {
+                    FormError::NoForceDensity { member: member.label.clone() }
+                })?;
+                if !q.is_finite() {
+                    return Err(FormError::BadForceDensity { member: member.label.clone(), value: q });
+                }
+                Pull::Density(q)
+            }
+        });
+    }
+    let mut x: Vec<f64> = model.nodes.iter().flat_map(|n| n.at).collect();
+    let owner: Vec<usize> = (0..3 * model.n_nodes()).filter(|&k| !model.nodes[k / 3].fixed[k % 3]).collect();
+    let mut attached = vec![false; model.n_nodes()];
+    for m in &model.members {
+        attached[m.ends[0]] = true;
+        attached[m.ends[1]] = true;
+    }
+    if let Some(&k) = owner.iter().find(|&&k| !attached[k / 3]) {
+        return Err(FormError::Singular {
+            node: model.nodes[k / 3].label.clone(),
+            axis: ['x', 'y', 'z'][k % 3],
+            reason: "the node is free but no member is attached to it".into(),
+        });
+    }
+    let mut u: Vec<f64> = owner.iter().map(|&k| x[k]).collect();
+    let n = u.len();
+    let (mut v, mut r, mut mass) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+    let mut f = vec![0.0; x.len()];
+    let t = model.total_reference_load();
+    let load_norm = model
+        .loads
+        .iter()
+        .map(|l| l.force.iter().map(|c| c * c).sum::<f64>())
+        .sum::<f64>()
+        .sqrt()
+        .max(1e-300 * (t[0].abs() + t[1].abs() + t[2].abs()));
+    let mut shape = Shape { model, pulls: &pulls, owner: &owner, x: &mut x, f: &mut f, load_norm };
+    let report = kinetic_damping(&mut shape, &mut u, &mut v, &mut r, &mut mass, cfg);
+    shape.set_positions(&u);
+    let positions: Vec<[f64; 3]> = (0..model.n_nodes()).map(|k| [x[3 * k], x[3 * k + 1], x[3 * k + 2]]).collect();
+    if let Some(k) = positions.iter().position(|p| p.iter().any(|c| !c.is_finite())) {
+        return Err(FormError::NotFinite { node: model.nodes[k].label.clone() });
+    }
+    let mut form = FormResult {
+        positions,
+        forces: Vec::with_capacity(model.n_members()),
+        lengths: Vec::with_capacity(model.n_members()),
+        force_densities: Vec::with_capacity(model.n_members()),
+        warnings: Vec::new(),
+    };
+    for (m, member) in model.members.iter().enumerate() {
+        let [i, j] = member.ends;
+        let (a, b) = (form.positions[i], form.positions[j]);
+        let l = ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2) + (b[2] - a[2]).powi(2)).sqrt();
+        let (force, q) = match pulls[m] {
+            Pull::Density(q) => (q * l, q),
+            Pull::Force(t) => (t, if l > 0.0 { t / l } else { f64::INFINITY }),
+        };
+        form.lengths.push(l);
+        form.forces.push(force);
+        form.force_densities.push(q);
+        if member.kind == MemberKind::Cable && force < 0.0 {
+            form.warnings.push(format!(
+                "member {:?} would carry compression ({force} N), which a cable cannot",
+                member.label
+            ));
+        }
+        if l == 0.0 {
+            form.warnings.push(format!("member {:?} has zero length in the found shape", member.label));
+        }
+    }
+    Ok((form, report))
 }

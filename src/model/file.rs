@@ -76,6 +76,8 @@ pub struct MemberEntry {
     pub prestress: Option<Spanned<f64>>,
     pub rest_length: Option<Spanned<f64>>,
     pub force_density: Option<Spanned<f64>>,
+    pub target_force: Option<Spanned<f64>>,
+    pub target_length: Option<Spanned<f64>>,
 }
 
 #[derive(Clone, Debug, Deserialize)]
@@ -129,6 +131,9 @@ pub struct AnalysisEntry {
 #[serde(deny_unknown_fields)]
 pub struct FormEntry {
     pub force_density: Option<Spanned<f64>>,
+    pub method: Option<Spanned<String>>,
+    pub tolerance: Option<Spanned<f64>>,
+    pub max_iterations: Option<Spanned<i64>>,
 }
 
 /// A key a table accepts and a short example of how to write it.
@@ -219,6 +224,8 @@ pub const MEMBER_SPEC: TableSpec = TableSpec {
         key("prestress", "prestress = 20.0"),
         key("rest_length", "rest_length = 4.98"),
         key("force_density", "force_density = 5.0"),
+        key("target_force", "target_force = 20.0"),
+        key("target_length", "target_length = 4.9"),
     ],
 };
 
@@ -272,7 +279,12 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
 
 pub const FORM_SPEC: TableSpec = TableSpec {
     name: "[form]",
-    keys: &[key("force_density", "force_density = 5.0")],
+    keys: &[
+        key("force_density", "force_density = 5.0"),
+        key("method", "method = \"force-density\""),
+        key("tolerance", "tolerance = 1e-9"),
+        key("max_iterations", "max_iterations = 200"),
+    ],
 };
 
 /// A problem found while reading the TOML text, before any model checks.

@@ -159,7 +159,18 @@ pub struct Member {
     pub rest: RestSpec,
     /// Force per length, N/m, for form finding.
     pub force_density: Option<f64>,
+    /// What form finding to targets must reach for this member.
+    pub target: Option<FormTarget>,
     pub place: Place,
+}
+
+/// A form-finding target of one member.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum FormTarget {
+    /// Axial force in the found shape, N.
+    Force(f64),
+    /// Length in the found shape, m.
+    Length(f64),
 }
 
 #[derive(Clone, Debug)]
@@ -348,11 +359,67 @@ impl Default for Analysis {
     }
 }
 
+/// How `form` finds the shape.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum FormMethod {
+    /// Linear force density solves (iterated when members have targets).
+    #[default]
+    ForceDensity,
+    /// Dynamic relaxation with kinetic damping.
+    Relax,
+}
+
+impl FormMethod {
+    pub const NAMES: [&'static str; 2] = ["force-density", "relax"];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            FormMethod::ForceDensity => "force-density",
+            FormMethod::Relax => "relax",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<FormMethod> {
+        match s {
+            "force-density" => Some(FormMethod::ForceDensity),
+            "relax" => Some(FormMethod::Relax),
+            _ => None,
+        }
+    }
+}
+
 /// Settings of the `[form]` table (form finding).
-#[derive(Clone, Debug, Default)]
+#[derive(Clone, Debug)]
 pub struct FormSettings {
     /// Default force density, N/m, for members that set none.
     pub force_density: Option<f64>,
+    pub method: FormMethod,
+    /// Largest relative target error accepted (targets), or relative
+    /// residual (relax).
+    pub tolerance: f64,
+    /// Largest number of force density updates (targets) or time steps (relax).
+    pub max_iterations: usize,
+}
+
+impl FormSettings {
+    /// Default `max_iterations` of each method.
+    pub fn default_max_iterations(method: FormMethod) -> usize {
+        match method {
+            FormMethod::ForceDensity => 200,
+            FormMethod::Relax => 200_000,
+        }
+    }
+}
+
+impl Default for FormSettings {
+    fn default() -> Self {
+        FormSettings {
+            force_density: None,
+            method: FormMethod::ForceDensity,
+            tolerance: 1e-9,
+            max_iterations: FormSettings::default_max_iterations(FormMethod::ForceDensity),
+        }
+    }
 }
 
 /// A validated model, SI units inside.

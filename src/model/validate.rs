@@ -18,9 +18,9 @@ use super::file::{
     UnitsEntry, lower_first,
 };
 use super::{
-    Analysis, Axis, Control, Diagnostic, ForceUnit, FormSettings, LengthUnit, Member, MemberKind,
-    Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section, SelfWeight,
-    Spring, StrainMeasure, Units,
+    Analysis, Axis, Control, Diagnostic, ForceUnit, FormMethod, FormSettings, FormTarget, LengthUnit,
+    Member, MemberKind, Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section,
+    SelfWeight, Spring, StrainMeasure, Units,
 };
 use csv::{Cell, CsvReader};
 
@@ -927,6 +927,8 @@ struct RawMember<'a> {
     prestress: Option<(f64, Src)>,
     rest_length: Option<(f64, Src)>,
     force_density: Option<(f64, Src)>,
+    target_force: Option<(f64, Src)>,
+    target_length: Option<(f64, Src)>,
 }
 
 fn toml_member<'a>(t: &Toml, m: &'a Spanned<MemberEntry>) -> RawMember<'a> {
@@ -946,6 +948,8 @@ fn toml_member<'a>(t: &Toml, m: &'a Spanned<MemberEntry>) -> RawMember<'a> {
         prestress: opt(&e.prestress),
         rest_length: opt(&e.rest_length),
         force_density: opt(&e.force_density),
+        target_force: opt(&e.target_force),
+        target_length: opt(&e.target_length),
     }
 }
 
@@ -1013,6 +1017,7 @@ fn add_member(
         }
         Some(cx.units.force_per_length_in(v))
     });
+    let target = form_target(cx, raw, refs, ends, item);
     if let (Some(kind), [Some(i), Some(j)], Some(section), true) =
         (kind, ends, section, geometry_ok)
     {
@@ -1023,8 +1028,94 @@ fn add_member(
             section,
             rest,
             force_density,
+            target,
             place: raw.place.place(),
         });
+    }
+}
+
+/// `target_force` / `target_length` → the member's form-finding target.
+fn form_target(
+    cx: &mut Ctx,
+    raw: &RawMember,
+    refs: &Refs,
+    ends: [Option<usize>; 2],
+    item: Item,
+) -> Option<FormTarget> {
+    let u = cx.units;
+    let held = |k: Option<usize>| k.is_some_and(|k| refs.nodes[k].fixed == [true; 3]);
+    let fixed_fixed = held(ends[0]) && held(ends[1]);
+    match (raw.target_force, raw.target_length) {
+        (Some(_), Some((_, src))) => {
+            cx.error(
+                src,
+                item,
+                "both `target_force` and `target_length` are given",
+                "give one target per member: the force or the length the found shape must have",
+            );
+            None
+        }
+        (Some((t, src)), None) => {
+            if !check_number(
+                cx,
+                t,
+                src,
+                item,
+                "target_force",
+                Rule::Positive,
+                "a target force is a tension, greater than zero",
+            ) {
+                return None;
+            }
+            if fixed_fixed {
+                cx.warn(
+                    src,
+                    item,
+                    "both ends are supported in x, y and z: the member does not shape the form",
+                    "its force is set directly as target_force / length; remove the target if that is not meant",
+                );
+            }
+            Some(FormTarget::Force(u.force_in(t)))
+        }
+        (None, Some((l, src))) => {
+            if !check_number(
+                cx,
+                l,
+                src,
+                item,
+                "target_length",
+                Rule::Positive,
+                "a target length is a positive length",
+            ) {
+                return None;
+            }
+            if fixed_fixed {
+                let drawn = match ends {
+                    [Some(i), Some(j)] => (0..3)
+                        .map(|k| (refs.nodes[j].at[k] - refs.nodes[i].at[k]).powi(2))
+                        .sum::<f64>()
+                        .sqrt(),
+                    _ => 0.0,
+                };
+                let target = u.length_in(l);
+                if (drawn - target).abs() > 1e-9 * drawn.max(target) {
+                    cx.error(
+                        src,
+                        item,
+                        format!(
+                            "both ends are supported in x, y and z, so the length stays {}; \
+                             form finding cannot make it {}",
+                            fmt_num(u.length_out(drawn)),
+                            fmt_num(l)
+                        ),
+                        "remove `target_length`, or free a direction of one end",
+                    );
+                    return None;
+                }
+            }
+            Some(FormTarget::Length(u.length_in(l)))
+        }
+        (None, None) => None,
     }
 }
 
@@ -1586,7 +1677,42 @@ fn largest_load(nodes: &[Node], loads: &[NodalLoad]) -> Option<NodeDir> {
 
 fn form(cx: &mut Ctx, t: &Toml, entry: Option<&Spanned<FormEntry>>) -> FormSettings {
     let mut f = FormSettings::default();
-    let Some(v) = entry.and_then(|e| e.get_ref().force_density.as_ref()) else {
+    let Some(e) = entry.map(|e| e.get_ref()) else {
+        return f;
+    };
+    let item = Item::Plain("[form]");
+    if let Some(v) = &e.method {
+        match FormMethod::parse(v.get_ref()) {
+            Some(m) => f.method = m,
+            None => cx.error(
+                t.at(v),
+                item,
+                format!("unknown method {:?}", v.get_ref()),
+                suggest::choice_help(v.get_ref(), &FormMethod::NAMES),
+            ),
+        }
+    }
+    f.max_iterations = FormSettings::default_max_iterations(f.method);
+    if let Some(v) = &e.tolerance {
+        let x = *v.get_ref();
+        if check_number(cx, x, t.at(v), item, "tolerance", Rule::Positive, "a relative tolerance, e.g. 1e-9")
+        {
+            if x > 0.1 {
+                cx.error(t.at(v), item, format!("`tolerance` must be at most 0.1, found {}", fmt_num(x)), "a relative tolerance, e.g. 1e-9");
+            } else {
+                f.tolerance = x;
+            }
+        }
+    }
+    if let Some(v) = &e.max_iterations {
+        let n = *v.get_ref();
+        if n < 1 {
+            cx.error(t.at(v), item, format!("`max_iterations` must be at least 1, found {n}"), "a whole number of iterations, e.g. 200");
+        } else {
+            f.max_iterations = usize::try_from(n).unwrap_or(usize::MAX);
+        }
+    }
+    let Some(v) = e.force_density.as_ref() else {
         return f;
     };
     let x = *v.get_ref();
@@ -1755,6 +1881,8 @@ const MEMBER_COLUMNS: Columns = Columns {
         "prestress",
         "rest_length",
         "force_density",
+        "target_force",
+        "target_length",
     ],
     required: 5,
 };
@@ -2072,6 +2200,8 @@ fn csv_members(
             prestress: opt(cx, 5),
             rest_length: opt(cx, 6),
             force_density: opt(cx, 7),
+            target_force: opt(cx, 8),
+            target_length: opt(cx, 9),
         };
         add_member(cx, &raw, refs, members, attached, section_used);
         true

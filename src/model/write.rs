@@ -1,7 +1,7 @@
 //! A model written back as a model file: the TOML format the loader reads,
 //! every node and member inline, values in the model's own units.
 
-use super::{Axis, Control, Model, RestSpec, StrainMeasure};
+use super::{Axis, Control, FormSettings, FormTarget, Model, RestSpec, StrainMeasure};
 use crate::form::FormResult;
 use std::fmt::Write;
 
@@ -118,6 +118,15 @@ pub fn to_toml(model: &Model) -> String {
         if let Some(q) = m.force_density {
             let _ = writeln!(s, "force_density = {}", num(u.force_per_length_out(q)));
         }
+        match m.target {
+            None => {}
+            Some(FormTarget::Force(t)) => {
+                let _ = writeln!(s, "target_force = {}", num(u.force_out(t)));
+            }
+            Some(FormTarget::Length(l)) => {
+                let _ = writeln!(s, "target_length = {}", num(u.length_out(l)));
+            }
+        }
     }
     for sp in &model.springs {
         let _ = writeln!(s, "\n[[spring]]");
@@ -202,9 +211,23 @@ pub fn to_toml(model: &Model) -> String {
     let _ = writeln!(s, "stability_check = {}", quote(check));
     let _ = writeln!(s, "pinpoint = {}", a.pinpoint);
 
-    if let Some(q) = model.form.force_density {
+    let f = &model.form;
+    let d = FormSettings::default();
+    let max_default = FormSettings::default_max_iterations(f.method);
+    if f.force_density.is_some() || f.method != d.method || f.tolerance != d.tolerance || f.max_iterations != max_default {
         let _ = writeln!(s, "\n[form]");
-        let _ = writeln!(s, "force_density = {}", num(u.force_per_length_out(q)));
+        if let Some(q) = f.force_density {
+            let _ = writeln!(s, "force_density = {}", num(u.force_per_length_out(q)));
+        }
+        if f.method != d.method {
+            let _ = writeln!(s, "method = {}", quote(f.method.name()));
+        }
+        if f.tolerance != d.tolerance {
+            let _ = writeln!(s, "tolerance = {}", num(f.tolerance));
+        }
+        if f.max_iterations != max_default {
+            let _ = writeln!(s, "max_iterations = {}", f.max_iterations);
+        }
     }
     s
 }

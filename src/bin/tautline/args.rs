@@ -50,6 +50,27 @@ pub enum Command {
         /// Output folder (created if missing)
         #[arg(short = 'o', long = "out", value_name = "DIR")]
         out: PathBuf,
+        /// force-density | relax (overrides [form] method)
+        #[arg(long)]
+        method: Option<String>,
+    },
+    /// Find the static equilibrium at one load factor by dynamic relaxation
+    /// (an independent check of `solve`); write DIR/relax.csv
+    Relax {
+        /// Model file (TOML)
+        model: PathBuf,
+        /// Output folder (created if missing)
+        #[arg(short = 'o', long = "out", value_name = "DIR")]
+        out: PathBuf,
+        /// Load factor (default: [analysis] target under load control, else 1)
+        #[arg(long = "load-factor", allow_negative_numbers = true)]
+        load_factor: Option<f64>,
+        /// Relative residual tolerance (default: [analysis] tolerance)
+        #[arg(long)]
+        tolerance: Option<f64>,
+        /// Largest number of time steps
+        #[arg(long = "max-steps", default_value_t = 1_000_000)]
+        max_steps: usize,
     },
     /// Write a parametric model file (saddle cable net or shallow lattice dome)
     Generate {

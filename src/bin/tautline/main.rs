@@ -5,6 +5,7 @@ mod args;
 mod bench;
 mod json;
 mod progress;
+mod relax;
 mod run;
 mod threads;
 

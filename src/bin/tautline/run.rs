@@ -59,7 +59,10 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
             solve(&m, &out, Some(&model), force, quiet, format)
         }
-        Command::Form { model, out } => form(&model, &out),
+        Command::Form { model, out, method } => form(&model, &out, method.as_deref()),
+        Command::Relax { model, out, load_factor, tolerance, max_steps } => {
+            crate::relax::relax(&model, &out, load_factor, tolerance, max_steps)
+        }
         Command::Generate { what } => generate(what),
         Command::Bench(a) => crate::bench::bench(&a),
         Command::BenchRun(a) => crate::bench::bench_run(&a),
@@ -75,7 +78,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
 
 /// Loads a model; in text mode its warnings go to stderr (JSON output
 /// carries them in the summary).
-fn load(path: &Path, format: Format) -> Result<Model, Failure> {
+pub(crate) fn load(path: &Path, format: Format) -> Result<Model, Failure> {
     let m = model::load(path).map_err(Failure::Model)?;
     if format == Format::Text {
         for w in &m.warnings {
@@ -242,7 +245,7 @@ fn previous_model(out: &Path) -> Option<String> {
     v.get("model_file")?.as_str().map(str::to_string)
 }
 
-fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, force: bool) -> Result<(), Failure> {
+pub(crate) fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, force: bool) -> Result<(), Failure> {
     if !force {
         if let Some(prev) = previous_model(out) {
             if prev != this_model {
@@ -497,10 +500,68 @@ impl Observer for Interrupt {
     }
 }
 
-/// `form`: force density form finding, then the formed model and its table.
-fn form(model_path: &Path, out: &Path) -> Result<u8, Failure> {
-    let m = load(model_path, Format::Text)?;
-    let found = tautline::form::force_density(&m).map_err(|e| Failure::BadInput(format!("{}: {e}", model_path.display())))?;
+/// `form`: force density form finding (iterated to member targets when
+/// there are any) or dynamic relaxation, then the formed model and its table.
+fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failure> {
+    use tautline::form::{relax, targets};
+    use tautline::model::{FormMethod, FormSettings};
+    let mut m = load(model_path, Format::Text)?;
+    if let Some(s) = method {
+        let chosen = FormMethod::parse(s).ok_or_else(|| {
+            Failure::BadInput(format!("--method {s}: expected one of {}", FormMethod::NAMES.join(", ")))
+        })?;
+        if chosen != m.form.method && m.form.max_iterations == FormSettings::default_max_iterations(m.form.method) {
+            m.form.max_iterations = FormSettings::default_max_iterations(chosen);
+        }
+        m.form.method = chosen;
+    }
+    let bad = |e: tautline::form::FormError| Failure::BadInput(format!("{}: {e}", model_path.display()));
+    let mut log_csv = None;
+    let mut stopped: Option<String> = None;
+    let (found, how) = match m.form.method {
+        FormMethod::Relax => {
+            let cfg = relax::RelaxConfig { tolerance: m.form.tolerance, max_steps: m.form.max_iterations };
+            let (found, rep) = relax::relax_form(&m, &cfg).map_err(bad)?;
+            println!(
+                "dynamic relaxation: {} time steps, {} kinetic-energy peaks, relative residual {:.2e}",
+                rep.steps, rep.peaks, rep.relative_residual
+            );
+            if !rep.converged() {
+                stopped = Some(format!(
+                    "dynamic relaxation stopped after {} time steps ([form] max_iterations) at a relative \
+                     residual of {:.3e}, above the tolerance {:.1e}",
+                    rep.steps, rep.relative_residual, m.form.tolerance
+                ));
+            }
+            (found, "dynamic relaxation")
+        }
+        FormMethod::ForceDensity if targets::has_targets(&m) => {
+            let run = targets::force_density_to_targets(&m).map_err(bad)?;
+            print_target_log(&m, &run.log);
+            log_csv = Some(target_log_csv(&m, &run.log));
+            if let Some(e) = &run.broke_off {
+                stopped = Some(format!(
+                    "targets not met: after {} updates {e}; member {:?} is furthest off, relative error \
+                     {:.3e}; the targets may be out of reach of the other members' force densities; the \
+                     best shape found is written",
+                    run.log.len(),
+                    m.members[run.worst_member].label,
+                    run.max_error
+                ));
+            } else if !run.converged {
+                stopped = Some(format!(
+                    "targets not met after {} updates ([form] max_iterations): member {:?} is furthest \
+                     off, relative error {:.3e} (tolerance {:.1e}); the best shape found is written",
+                    run.log.len().saturating_sub(1),
+                    m.members[run.worst_member].label,
+                    run.max_error,
+                    m.form.tolerance
+                ));
+            }
+            (run.form, "force density method, iterated to targets")
+        }
+        FormMethod::ForceDensity => (tautline::form::force_density(&m).map_err(bad)?, "force density method"),
+    };
     for w in &found.warnings {
         eprintln!("warning: {w}");
     }
@@ -513,14 +574,49 @@ fn form(model_path: &Path, out: &Path) -> Result<u8, Failure> {
     let io = |e: std::io::Error| Failure::Internal(anyhow::anyhow!("writing into {}: {e}", out.display()));
     staged.add(out, "formed.toml", model::write::to_toml(&formed).as_bytes()).map_err(io)?;
     staged.add(out, "form.csv", model::write::form_csv(&m, &found).as_bytes()).map_err(io)?;
+    if let Some(text) = &log_csv {
+        staged.add(out, "form_log.csv", text.as_bytes()).map_err(io)?;
+    }
     let written = staged.commit().map_err(io)?;
     let u = m.units;
     let (lo, hi) = found.forces.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), f| (a.min(*f), b.max(*f)));
-    println!("form: {} ({} members, force density method)", m.title, m.n_members());
+    println!("form: {} ({} members, {how})", m.title, m.n_members());
     if lo.is_finite() {
         println!("member forces {:.6} to {:.6} {}", u.force_out(lo), u.force_out(hi), u.force.name());
     }
     println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
     println!("{CAUTION}");
-    Ok(exit::DONE)
+    match stopped {
+        Some(msg) => {
+            println!("stopped before the target: {msg}");
+            Ok(exit::STOPPED)
+        }
+        None => Ok(exit::DONE),
+    }
+}
+
+/// The convergence table of a target iteration: all rows when short, else
+/// the first and last few.
+fn print_target_log(m: &Model, log: &[tautline::form::targets::TargetIteration]) {
+    println!("iteration  max target error  member");
+    let row = |t: &tautline::form::targets::TargetIteration| {
+        println!("{:>9}  {:>16.3e}  {}", t.iteration, t.max_error, m.members[t.worst_member].label);
+    };
+    if log.len() <= 12 {
+        log.iter().for_each(row);
+    } else {
+        log[..5].iter().for_each(row);
+        println!("      ...");
+        log[log.len() - 5..].iter().for_each(row);
+    }
+}
+
+fn target_log_csv(m: &Model, log: &[tautline::form::targets::TargetIteration]) -> String {
+    let mut s = String::from("iteration,max_error,member\n");
+    for t in log {
+        let label = &m.members[t.worst_member].label;
+        let label = if label.contains([',', '"']) { format!("\"{}\"", label.replace('"', "\"\"")) } else { label.clone() };
+        s += &format!("{},{:e},{}\n", t.iteration, t.max_error, label);
+    }
+    s
 }
