@@ -34,8 +34,11 @@ impl From<anyhow::Error> for Failure {
 pub fn run(cli: Cli) -> Result<u8, Failure> {
     match cli.command {
         Command::Check { model } => {
+            let started = Instant::now();
             let m = load(&model)?;
+            let read_s = started.elapsed().as_secs_f64();
             print_summary(&m);
+            println!("read and validated in {read_s:.2} s");
             Ok(exit::DONE)
         }
         Command::Solve { model, out, force, overrides } => {
