@@ -820,4 +820,53 @@ fn slack_cables_are_reported_in_summary_and_results() {
     assert_eq!(events[0]["member"], "right");
     assert_eq!(events[0]["step"], 5);
     assert!(events[0]["tensioned_step"].is_null());
+
+// -- threads -------------------------------------------------------------------
+
+/// `results.json` without its wall-clock fields.
+fn results_without_times(path: &Path) -> Value {
+    let mut v = json(path);
+    v["totals"]["seconds"] = Value::Null;
+    v
+}
+
+/// `--threads 1` and `TAUTLINE_THREADS=3` give byte-identical path and member
+/// tables and the same results.json (but for the wall time) on a net large
+/// enough that assembly runs on many parallel tasks; a bad thread count is
+/// bad input.
+#[test]
+fn results_do_not_depend_on_the_thread_count() {
+    let sc = Scratch::new("threads");
+    let model = sc.path("net.toml");
+    let r = tautline(&["generate", "net", "--nx", "70", "--ny", "70", "--load", "5", "-o", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    let (one, three) = (sc.path("one"), sc.path("three"));
+    let r = solve(&model, &one, &["--method", "bfgs", "--steps", "3", "--threads", "1"]);
+    assert_eq!(r.code, 0, "{r}");
+    let out = Command::new(BIN)
+        .args(["solve", s(&model), "-o", s(&three), "--method", "bfgs", "--steps", "3"])
+        .env("TAUTLINE_THREADS", "3")
+        .output()
+        .expect("run tautline");
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    for f in ["path.csv", "members.csv"] {
+        let (a, b) = (std::fs::read(one.join(f)).unwrap(), std::fs::read(three.join(f)).unwrap());
+        assert!(a == b, "{f} differs between 1 and 3 threads");
+    }
+    let res = results_without_times(&one.join("results.json"));
+    assert!(res["steps"].as_array().unwrap().len() >= 3, "{res}");
+    assert_eq!(res, results_without_times(&three.join("results.json")));
+
+    let bad = sc.path("bad");
+    let r = solve(&model, &bad, &["--threads", "0"]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("--threads"), "{r}");
+    let out = Command::new(BIN)
+        .args(["solve", s(&model), "-o", s(&bad)])
+        .env("TAUTLINE_THREADS", "many")
+        .output()
+        .expect("run tautline");
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("TAUTLINE_THREADS"));
+    assert!(!bad.exists(), "nothing written");
 }

@@ -43,7 +43,9 @@ struct MemberBuffers {
 }
 
 /// The member buffers behind a lock, so assembly can keep `&self`; a clone of
-/// the system gets fresh buffers of its own.
+/// the system gets fresh buffers of its own. One system assembles one state
+/// at a time: do not call its assembly from several rayon tasks at once (a
+/// task waiting on the lock could be the one holding it).
 #[derive(Debug, Default)]
 struct Scratch(Mutex<MemberBuffers>);
 

@@ -37,7 +37,14 @@ struct Pair {
 pub struct InverseTangent {
     pub method: Method,
     pub ldlt: Ldlt,
+    /// Pair storage, reused after every refactorization: only `pairs[..used]`
+    /// is part of H. Vectors are allocated once, the first time a slot is
+    /// needed, so iterations do not allocate.
     pairs: Vec<Pair>,
+    used: usize,
+    /// Per-pair coefficients of one application (b_i·x, or α_i of the
+    /// two-loop recursion), reused.
+    coeffs: Vec<f64>,
     /// Pairs stored before the memory bound forces a refactorization.
     pub max_pairs: usize,
     /// Inertia of the last factorization.
@@ -50,6 +57,8 @@ impl InverseTangent {
             method,
             ldlt,
             pairs: Vec::new(),
+            used: 0,
+            coeffs: Vec::new(),
             max_pairs,
             inertia: Inertia::default(),
         }
@@ -57,17 +66,17 @@ impl InverseTangent {
 
     /// Refactor K₀ := K and forget the stored pairs.
     pub fn refactor(&mut self, pattern: &Pattern, k_values: &[f64]) -> &Inertia {
-        self.pairs.clear();
+        self.used = 0;
         self.inertia = self.ldlt.factorize(pattern, k_values);
         &self.inertia
     }
 
     pub fn n_pairs(&self) -> usize {
-        self.pairs.len()
+        self.used
     }
 
     pub fn is_full(&self) -> bool {
-        self.pairs.len() >= self.max_pairs
+        self.used >= self.max_pairs
     }
 
     /// Whether this method stores updates at all.
@@ -81,9 +90,11 @@ impl InverseTangent {
             Method::Bfgs => self.apply_bfgs(x),
             _ => {
                 // H = K₀⁻¹ + Σ a_i b_iᵀ: the coefficients b_i·x use x as given.
-                let coeffs: Vec<f64> = self.pairs.iter().map(|p| dot(&p.b, x)).collect();
+                let pairs = &self.pairs[..self.used];
+                self.coeffs.clear();
+                self.coeffs.extend(pairs.iter().map(|p| dot(&p.b, x)));
                 self.ldlt.solve_in_place(x);
-                for (p, c) in self.pairs.iter().zip(coeffs) {
+                for (p, &c) in pairs.iter().zip(&self.coeffs) {
                     for (xi, ai) in x.iter_mut().zip(&p.a) {
                         *xi += c * ai;
                     }
@@ -95,9 +106,11 @@ impl InverseTangent {
     /// x := Hᵀ·x for the Broyden forms.
     fn apply_transpose(&mut self, x: &mut [f64]) {
         // Hᵀ = K₀⁻¹ + Σ b_i a_iᵀ (K₀ is symmetric).
-        let coeffs: Vec<f64> = self.pairs.iter().map(|p| dot(&p.a, x)).collect();
+        let pairs = &self.pairs[..self.used];
+        self.coeffs.clear();
+        self.coeffs.extend(pairs.iter().map(|p| dot(&p.a, x)));
         self.ldlt.solve_in_place(x);
-        for (p, c) in self.pairs.iter().zip(coeffs) {
+        for (p, &c) in pairs.iter().zip(&self.coeffs) {
             for (xi, bi) in x.iter_mut().zip(&p.b) {
                 *xi += c * bi;
             }
@@ -106,22 +119,31 @@ impl InverseTangent {
 
     fn apply_bfgs(&mut self, x: &mut [f64]) {
         // Two-loop recursion; `a` holds s, `b` holds y.
-        let n = self.pairs.len();
-        let mut alpha = vec![0.0; n];
-        for i in (0..n).rev() {
-            let p = &self.pairs[i];
-            alpha[i] = p.rho * dot(&p.a, x);
+        let pairs = &self.pairs[..self.used];
+        let alpha = &mut self.coeffs;
+        alpha.clear();
+        alpha.resize(pairs.len(), 0.0);
+        for (p, ai) in pairs.iter().zip(alpha.iter_mut()).rev() {
+            *ai = p.rho * dot(&p.a, x);
             for (xi, yi) in x.iter_mut().zip(&p.b) {
-                *xi -= alpha[i] * yi;
+                *xi -= *ai * yi;
             }
         }
         self.ldlt.solve_in_place(x);
-        for (i, p) in self.pairs.iter().enumerate() {
+        for (p, &ai) in pairs.iter().zip(alpha.iter()) {
             let beta = p.rho * dot(&p.b, x);
             for (xi, si) in x.iter_mut().zip(&p.a) {
-                *xi += (alpha[i] - beta) * si;
+                *xi += (ai - beta) * si;
             }
         }
+    }
+
+    /// The next free pair slot, allocated the first time it is reached.
+    fn next_slot(&mut self, n: usize) -> usize {
+        if self.used == self.pairs.len() {
+            self.pairs.push(Pair { a: vec![0.0; n], b: vec![0.0; n], rho: 0.0 });
+        }
+        self.used
     }
 
     /// Stores the secant pair (s, y). Returns false when the pair was not
@@ -136,28 +158,82 @@ impl InverseTangent {
                 if !(ys > 1e-12 * ss * yy) {
                     return false;
                 }
-                self.pairs.push(Pair { a: s.to_vec(), b: y.to_vec(), rho: 1.0 / ys });
+                let i = self.next_slot(s.len());
+                let p = &mut self.pairs[i];
+                p.a.copy_from_slice(s);
+                p.b.copy_from_slice(y);
+                p.rho = 1.0 / ys;
+                self.used += 1;
                 true
             }
             Method::Broyden | Method::BroydenBad => {
-                let mut hy = y.to_vec();
-                self.apply(&mut hy);
-                let (b, denom) = if self.method == Method::Broyden {
-                    let mut hts = s.to_vec();
-                    self.apply_transpose(&mut hts);
-                    let d = dot(&hts, y);
-                    (hts, d)
+                // The slot's vectors are taken out while H (pairs[..used],
+                // which excludes this slot) is applied, then put back.
+                let i = self.next_slot(s.len());
+                let mut a = std::mem::take(&mut self.pairs[i].a);
+                let mut b = std::mem::take(&mut self.pairs[i].b);
+                a.copy_from_slice(y);
+                self.apply(&mut a); // a = H·y
+                let denom = if self.method == Method::Broyden {
+                    b.copy_from_slice(s);
+                    self.apply_transpose(&mut b); // b = Hᵀ·s
+                    dot(&b, y)
                 } else {
-                    (y.to_vec(), dot(y, y))
+                    b.copy_from_slice(y);
+                    dot(y, y)
                 };
                 let scale = dot(s, s).sqrt() * dot(&b, &b).sqrt();
-                if !(denom.abs() > 1e-12 * scale) || !denom.is_finite() {
-                    return false;
+                let usable = denom.abs() > 1e-12 * scale && denom.is_finite();
+                if usable {
+                    for (ai, si) in a.iter_mut().zip(s) {
+                        *ai = (si - *ai) / denom;
+                    }
                 }
-                let a: Vec<f64> = s.iter().zip(&hy).map(|(si, hi)| (si - hi) / denom).collect();
-                self.pairs.push(Pair { a, b, rho: 0.0 });
-                true
+                let p = &mut self.pairs[i];
+                p.a = a;
+                p.b = b;
+                p.rho = 0.0;
+                if usable {
+                    self.used += 1;
+                }
+                usable
             }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Reused pair slots carry nothing over: after a refactorization the same
+    /// updates give bit-identical products, and for every method H·y = s
+    /// holds for the last stored pair (the secant condition).
+    #[test]
+    fn reused_pair_slots_forget_the_previous_cycle() {
+        let k = vec![vec![4.0, 1.0, 0.0], vec![1.0, 3.0, 0.5], vec![0.0, 0.5, 2.0]];
+        let (p, v) = Pattern::from_dense_upper(&k);
+        let pairs = [([0.3, -0.1, 0.2], [1.5, 0.1, 0.6]), ([0.05, 0.2, -0.1], [0.4, 0.7, -0.05])];
+        for method in [Method::Broyden, Method::BroydenBad, Method::Bfgs] {
+            let mut h = InverseTangent::new(method, Ldlt::new(&p, faer::Par::Seq).unwrap(), 4);
+            let mut cycle = || {
+                h.refactor(&p, &v);
+                for (s, y) in &pairs {
+                    assert!(h.update(s, y), "{method:?}");
+                }
+                let (s, y) = pairs[1];
+                let mut hy = y.to_vec();
+                h.apply(&mut hy);
+                for (a, b) in hy.iter().zip(s) {
+                    assert!((a - b).abs() < 1e-12, "{method:?}: H·y = {hy:?}, s = {s:?}");
+                }
+                let mut x = vec![1.0, -2.0, 0.5];
+                h.apply(&mut x);
+                (h.n_pairs(), x.iter().map(|v| v.to_bits()).collect::<Vec<_>>())
+            };
+            let first = cycle();
+            assert_eq!(first.0, 2);
+            assert_eq!(first, cycle(), "{method:?}");
         }
     }
 }

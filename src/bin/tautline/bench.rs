@@ -3,7 +3,7 @@
 //! Each run is a child process (`tautline bench-run`), so its peak memory
 //! (VmHWM) is its own. The figures printed are wall time, numeric
 //! factorizations, corrector iterations, residual evaluations, peak memory,
-//! the time of one factorization of the initial tangent and the path's time
+//! the time of one (warm) factorization of the initial tangent and the path's time
 //! as a multiple of it, the time of one assembly of residual and tangent on
 //! one and on two threads (and their ratio), residual evaluations per second,
 //! the largest change of a cable force along the path, and the largest
@@ -86,9 +86,15 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     let mut r = vec![0.0; system.n_free()];
     let mut react = vec![0.0; 3 * m.n_nodes()];
     system.residual_and_tangent(&u0, 0.0, &mut r, &mut react, &mut k);
-    let t_fac = Instant::now();
-    ldlt.factorize(&system.pattern, &k);
-    let factor_s = t_fac.elapsed().as_secs_f64();
+    // The first factorization also touches the factor's memory for the first
+    // time; the path's refactorizations find it warm, so the figure is the
+    // faster of two.
+    let mut factor_s = f64::INFINITY;
+    for _ in 0..2 {
+        let t_fac = Instant::now();
+        ldlt.factorize(&system.pattern, &k);
+        factor_s = factor_s.min(t_fac.elapsed().as_secs_f64());
+    }
     ldlt.n_factorizations = 0;
     let f0: Vec<f64> = system.member_results(&u0).iter().map(|r| r.force).collect();
 

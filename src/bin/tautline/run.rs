@@ -47,9 +47,14 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
     let quiet = cli.quiet;
     match cli.command {
         Command::Check { model, format } => {
+            let started = Instant::now();
             let m = load(&model, format)?;
+            let read_s = started.elapsed().as_secs_f64();
             match format {
-                Format::Text => print_summary(&m),
+                Format::Text => {
+                    print_summary(&m);
+                    println!("read and validated in {read_s:.2} s");
+                }
                 Format::Json => println!("{}", crate::json::check(&m, &Counts::of(&m))),
             }
             Ok(exit::DONE)

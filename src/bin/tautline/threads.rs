@@ -1,7 +1,12 @@
 //! Thread control: `--threads N` or the environment variable
-//! `TAUTLINE_THREADS` (the option wins) sets one count for both the rayon pool
-//! that assembles residual and tangent and faer's factorization. Without
-//! either, every core is used. Results do not depend on the count.
+//! `TAUTLINE_THREADS` (the option wins) sets the size of the rayon pool that
+//! assembles residual and tangent; without either, every core is used.
+//!
+//! faer's parallelism is set here too, and set to sequential: its parallel
+//! sparse LDLᵀ was measured to change the round-off of the results with the
+//! thread count (a 36k-DOF net, `solve` on 1 and 2 threads: residuals differ
+//! in the sixth digit), while assembly's fixed-order sums do not. Results
+//! therefore stay bit-identical on any number of threads.
 
 /// The environment variable read when `--threads` is not given.
 pub const ENV: &str = "TAUTLINE_THREADS";
@@ -21,8 +26,8 @@ pub fn requested(option: Option<usize>) -> Result<Option<usize>, String> {
     }
 }
 
-/// Builds the global rayon pool and sets faer's global parallelism to match.
-/// Returns the number of threads in use.
+/// Builds the global rayon pool and sets faer's global parallelism
+/// (sequential, see the module docs). Returns the number of threads in use.
 pub fn configure(option: Option<usize>) -> Result<usize, String> {
     let wanted = requested(option)?;
     let mut builder = rayon::ThreadPoolBuilder::new();
@@ -32,6 +37,6 @@ pub fn configure(option: Option<usize>) -> Result<usize, String> {
     // Fails only if a pool exists already, which then stays in use.
     let _ = builder.build_global();
     let n = rayon::current_num_threads();
-    faer::set_global_parallelism(if n == 1 { faer::Par::Seq } else { faer::Par::rayon(n) });
+    faer::set_global_parallelism(faer::Par::Seq);
     Ok(n)
 }
