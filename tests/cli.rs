@@ -820,6 +820,7 @@ fn slack_cables_are_reported_in_summary_and_results() {
     assert_eq!(events[0]["member"], "right");
     assert_eq!(events[0]["step"], 5);
     assert!(events[0]["tensioned_step"].is_null());
+}
 
 // -- threads -------------------------------------------------------------------
 
