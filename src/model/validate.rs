@@ -80,7 +80,7 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
         .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
         .into());
     }
-    let text = std::fs::read_to_string(path).map_err(|e| {
+    let bytes = std::fs::read(path).map_err(|e| {
         Diagnostic::new(
             &name,
             format!(
@@ -88,8 +88,9 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
                 lower_first(&e.to_string())
             ),
         )
-        .help("check that the path is right and that the file is readable utf-8 text")
+        .help("check that the path is right and that the file is readable")
     })?;
+    let text = utf8_text(bytes).map_err(|bad| bad.diagnostic(&name, "model file"))?;
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     load_str(&text, &name, Some(&base))
 }
@@ -121,6 +122,45 @@ pub fn load_texts(
     load_with(text, file_name, &Tables::Texts(tables))
 }
 
+/// The first byte of a file that is not UTF-8, with its place.
+struct NotUtf8 {
+    line: usize,
+    column: usize,
+    byte: u8,
+}
+
+impl NotUtf8 {
+    fn diagnostic(&self, file: &str, what: &str) -> Diagnostic {
+        Diagnostic::new(
+            file,
+            format!("byte 0x{:02x} is not utf-8 text; the file is not a text file or has another encoding", self.byte),
+        )
+        .at(self.line, Some(self.column))
+        .item(what)
+        .help("save the file as utf-8 text, and check that this is the file you meant (not a spreadsheet or a binary)")
+    }
+}
+
+/// Bytes → text, or the place of the first byte that is not UTF-8.
+fn utf8_text(bytes: Vec<u8>) -> Result<String, NotUtf8> {
+    String::from_utf8(bytes).map_err(|e| {
+        let good = e.utf8_error().valid_up_to();
+        let bytes = e.as_bytes();
+        let before = &bytes[..good];
+        let line = before.iter().filter(|b| **b == b'\n').count() + 1;
+        let line_start = before.iter().rposition(|b| *b == b'\n').map_or(0, |i| i + 1);
+        NotUtf8 { line, column: good - line_start + 1, byte: bytes[good] }
+    })
+}
+
+/// True if the text holds nothing but blank lines and comments.
+fn holds_nothing(text: &str) -> bool {
+    text.lines().all(|l| {
+        let l = l.trim_start_matches(['\u{feff}', ' ', '\t', '\r']);
+        l.is_empty() || l.starts_with('#')
+    })
+}
+
 /// Where the CSV tables named by a model come from.
 enum Tables<'a> {
     /// Not available: naming a table is an error.
@@ -139,6 +179,14 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
         )
         .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
         .into());
+    }
+    if holds_nothing(text) {
+        let what = if text.trim().is_empty() { "the file is empty" } else { "the file holds only comments and blank lines" };
+        return Err(Diagnostic::new(file_name, format!("{what}: there is no model in it"))
+            .at(1, None)
+            .item("model file")
+            .help("a model needs [[section]], [[node]] and [[member]] tables (see the model file section of the README)")
+            .into());
     }
     let toml = Toml {
         text,
@@ -1704,8 +1752,17 @@ fn read_csv(
                 );
                 return None;
             }
-            match std::fs::read_to_string(&path) {
-                Ok(text) => (shown, text),
+            match std::fs::read(&path) {
+                Ok(bytes) => match utf8_text(bytes) {
+                    Ok(text) => (shown, text),
+                    Err(bad) => {
+                        let file = u16::try_from(cx.files.len()).unwrap_or(u16::MAX);
+                        cx.files.push(shown.clone());
+                        let src = Src { file, line: to_u32(bad.line), col: to_u32(bad.column) };
+                        cx.push_error(src, bad.diagnostic(&shown, "table"));
+                        return None;
+                    }
+                },
                 Err(e) => {
                     cx.error(
                         src,
