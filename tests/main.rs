@@ -5,6 +5,8 @@
 mod common;
 mod cli;
 mod form;
+mod malformed;
+mod determinism;
 mod plots;
 mod properties;
 mod quasi_newton;

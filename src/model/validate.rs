@@ -153,6 +153,25 @@ fn utf8_text(bytes: Vec<u8>) -> Result<String, NotUtf8> {
     })
 }
 
+/// The table a line of broken TOML is in, for naming the item of a syntax
+/// error: the last `[header]` above the line (with its line), or the top level.
+fn enclosing_table(text: &str, line: u32) -> String {
+    let header = text
+        .lines()
+        .take(line as usize)
+        .enumerate()
+        .filter(|(_, l)| l.trim_start().starts_with('['))
+        .last();
+    match header {
+        Some((i, l)) => {
+            let l = l.trim();
+            let shown: String = l.chars().take(40).collect();
+            format!("{shown} (line {})", i + 1)
+        }
+        None => "top level".to_string(),
+    }
+}
+
 /// True if the text holds nothing but blank lines and comments.
 fn holds_nothing(text: &str) -> bool {
     text.lines().all(|l| {
@@ -196,7 +215,11 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
     let parsed = ModelFile::parse(text);
     for p in &parsed.problems {
         let src = p.span.as_ref().map(|s| toml.src(s)).unwrap_or_default();
-        let d = cx.diagnostic(src, p.item.clone(), p.message.clone(), p.help.clone());
+        let item = match &p.item {
+            None if parsed.syntax_error && src.line > 0 => Some(enclosing_table(text, src.line)),
+            item => item.clone(),
+        };
+        let d = cx.diagnostic(src, item, p.message.clone(), p.help.clone());
         cx.push_error(src, d);
     }
     if parsed.syntax_error {
