@@ -3067,6 +3067,36 @@ watch = ["B.x", "A.z"]
     // -- csv --------------------------------------------------------------
 
     #[test]
+    fn tables_given_as_text_are_read_and_checked() {
+        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
+        let nodes = "id,x,y,z\nC,2,0,0\nD,3,0,nan\n";
+        let ds = load_texts(&text, "m.toml", &[("n.csv", nodes)]).unwrap_err().diagnostics;
+        expect(&ds, "n.csv", 3, "node \"D\"", "finite");
+        let ds = load_texts(&text, "m.toml", &[]).unwrap_err().diagnostics;
+        expect(&ds, "m.toml", 1, "nodes_csv", "no table named");
+    }
+
+    #[test]
+    fn counts_above_their_caps_are_refused() {
+        for (key, v) in [("steps", MAX_STEPS + 1), ("max_iterations", MAX_ITERATIONS + 1), ("max_cutbacks", MAX_CUTBACKS + 1)] {
+            let text = with(&format!("[analysis]\n{key} = {v}\n"));
+            let ds = errors(&text);
+            expect(&ds, "m.toml", line_of(&text, key), "[analysis]", "must be at most");
+        }
+    }
+
+    #[test]
+    fn a_table_that_is_not_utf8_names_its_line() {
+        let dir = temp_dir();
+        std::fs::write(dir.join("n.csv"), b"id,x,y,z\nC,1,\xff,0\n").unwrap();
+        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
+        let ds = load_str(&text, "m.toml", Some(&dir)).unwrap_err().diagnostics;
+        let n = dir.join("n.csv").display().to_string();
+        let d = expect(&ds, &n, 2, "table", "not utf-8");
+        assert_eq!(d.column, Some(5));
+    }
+
+    #[test]
     fn csv_without_a_folder_is_an_error() {
         let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
         let ds = errors(&text);
