@@ -7,6 +7,8 @@ mod common;
 mod catenary;
 mod cli;
 mod form;
+mod malformed;
+mod determinism;
 mod plots;
 mod properties;
 mod quasi_newton;

@@ -80,7 +80,7 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
         .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
         .into());
     }
-    let text = std::fs::read_to_string(path).map_err(|e| {
+    let bytes = std::fs::read(path).map_err(|e| {
         Diagnostic::new(
             &name,
             format!(
@@ -88,8 +88,9 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
                 lower_first(&e.to_string())
             ),
         )
-        .help("check that the path is right and that the file is readable utf-8 text")
+        .help("check that the path is right and that the file is readable")
     })?;
+    let text = utf8_text(bytes).map_err(|bad| bad.diagnostic(&name, "model file"))?;
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     load_str(&text, &name, Some(&base))
 }
@@ -121,6 +122,64 @@ pub fn load_texts(
     load_with(text, file_name, &Tables::Texts(tables))
 }
 
+/// The first byte of a file that is not UTF-8, with its place.
+struct NotUtf8 {
+    line: usize,
+    column: usize,
+    byte: u8,
+}
+
+impl NotUtf8 {
+    fn diagnostic(&self, file: &str, what: &str) -> Diagnostic {
+        Diagnostic::new(
+            file,
+            format!("byte 0x{:02x} is not utf-8 text; the file is not a text file or has another encoding", self.byte),
+        )
+        .at(self.line, Some(self.column))
+        .item(what)
+        .help("save the file as utf-8 text, and check that this is the file you meant (not a spreadsheet or a binary)")
+    }
+}
+
+/// Bytes → text, or the place of the first byte that is not UTF-8.
+fn utf8_text(bytes: Vec<u8>) -> Result<String, NotUtf8> {
+    String::from_utf8(bytes).map_err(|e| {
+        let good = e.utf8_error().valid_up_to();
+        let bytes = e.as_bytes();
+        let before = &bytes[..good];
+        let line = before.iter().filter(|b| **b == b'\n').count() + 1;
+        let line_start = before.iter().rposition(|b| *b == b'\n').map_or(0, |i| i + 1);
+        NotUtf8 { line, column: good - line_start + 1, byte: bytes[good] }
+    })
+}
+
+/// The table a line of broken TOML is in, for naming the item of a syntax
+/// error: the last `[header]` above the line (with its line), or the top level.
+fn enclosing_table(text: &str, line: u32) -> String {
+    let header = text
+        .lines()
+        .take(line as usize)
+        .enumerate()
+        .filter(|(_, l)| l.trim_start().starts_with('['))
+        .last();
+    match header {
+        Some((i, l)) => {
+            let l = l.trim();
+            let shown: String = l.chars().take(40).collect();
+            format!("{shown} (line {})", i + 1)
+        }
+        None => "top level".to_string(),
+    }
+}
+
+/// True if the text holds nothing but blank lines and comments.
+fn holds_nothing(text: &str) -> bool {
+    text.lines().all(|l| {
+        let l = l.trim_start_matches(['\u{feff}', ' ', '\t', '\r']);
+        l.is_empty() || l.starts_with('#')
+    })
+}
+
 /// Where the CSV tables named by a model come from.
 enum Tables<'a> {
     /// Not available: naming a table is an error.
@@ -140,6 +199,14 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
         .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
         .into());
     }
+    if holds_nothing(text) {
+        let what = if text.trim().is_empty() { "the file is empty" } else { "the file holds only comments and blank lines" };
+        return Err(Diagnostic::new(file_name, format!("{what}: there is no model in it"))
+            .at(1, None)
+            .item("model file")
+            .help("a model needs [[section]], [[node]] and [[member]] tables (see the model file section of the README)")
+            .into());
+    }
     let toml = Toml {
         text,
         index: LineIndex::new(text),
@@ -148,7 +215,11 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
     let parsed = ModelFile::parse(text);
     for p in &parsed.problems {
         let src = p.span.as_ref().map(|s| toml.src(s)).unwrap_or_default();
-        let d = cx.diagnostic(src, p.item.clone(), p.message.clone(), p.help.clone());
+        let item = match &p.item {
+            None if parsed.syntax_error && src.line > 0 => Some(enclosing_table(text, src.line)),
+            item => item.clone(),
+        };
+        let d = cx.diagnostic(src, item, p.message.clone(), p.help.clone());
         cx.push_error(src, d);
     }
     if parsed.syntax_error {
@@ -1842,8 +1913,17 @@ fn read_csv(
                 );
                 return None;
             }
-            match std::fs::read_to_string(&path) {
-                Ok(text) => (shown, text),
+            match std::fs::read(&path) {
+                Ok(bytes) => match utf8_text(bytes) {
+                    Ok(text) => (shown, text),
+                    Err(bad) => {
+                        let file = u16::try_from(cx.files.len()).unwrap_or(u16::MAX);
+                        cx.files.push(shown.clone());
+                        let src = Src { file, line: to_u32(bad.line), col: to_u32(bad.column) };
+                        cx.push_error(src, bad.diagnostic(&shown, "table"));
+                        return None;
+                    }
+                },
                 Err(e) => {
                     cx.error(
                         src,
@@ -3127,6 +3207,36 @@ watch = ["B.x", "A.z"]
     }
 
     // -- csv --------------------------------------------------------------
+
+    #[test]
+    fn tables_given_as_text_are_read_and_checked() {
+        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
+        let nodes = "id,x,y,z\nC,2,0,0\nD,3,0,nan\n";
+        let ds = load_texts(&text, "m.toml", &[("n.csv", nodes)]).unwrap_err().diagnostics;
+        expect(&ds, "n.csv", 3, "node \"D\"", "finite");
+        let ds = load_texts(&text, "m.toml", &[]).unwrap_err().diagnostics;
+        expect(&ds, "m.toml", 1, "nodes_csv", "no table named");
+    }
+
+    #[test]
+    fn counts_above_their_caps_are_refused() {
+        for (key, v) in [("steps", MAX_STEPS + 1), ("max_iterations", MAX_ITERATIONS + 1), ("max_cutbacks", MAX_CUTBACKS + 1)] {
+            let text = with(&format!("[analysis]\n{key} = {v}\n"));
+            let ds = errors(&text);
+            expect(&ds, "m.toml", line_of(&text, key), "[analysis]", "must be at most");
+        }
+    }
+
+    #[test]
+    fn a_table_that_is_not_utf8_names_its_line() {
+        let dir = temp_dir();
+        std::fs::write(dir.join("n.csv"), b"id,x,y,z\nC,1,\xff,0\n").unwrap();
+        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
+        let ds = load_str(&text, "m.toml", Some(&dir)).unwrap_err().diagnostics;
+        let n = dir.join("n.csv").display().to_string();
+        let d = expect(&ds, &n, 2, "table", "not utf-8");
+        assert_eq!(d.column, Some(5));
+    }
 
     #[test]
     fn csv_without_a_folder_is_an_error() {
