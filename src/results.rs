@@ -235,11 +235,42 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 Termination::Jumped => "the step jumped to a distant part of the path (the structure snaps through here) or turned back on it".into(),
                 Termination::Converged | Termination::Stopped => "unknown".into(),
             };
-            let hint = match model.analysis.control {
-                crate::model::Control::Load => {
-                    "if the load has passed a limit point, load control cannot follow it: try control = \"displacement\" or \"arc-length\"; otherwise try more steps"
+            // What to try follows from the cause first, then the control.
+            let load_control = model.analysis.control == crate::model::Control::Load;
+            let slack: Vec<String> = path
+                .points
+                .last()
+                .map(|p| p.slack.iter().take(5).map(|&m| format!("{:?}", model.members[m as usize].label)).collect())
+                .unwrap_or_default();
+            let hint = match &f.termination {
+                Termination::SingularTangent { .. } if !slack.is_empty() => format!(
+                    "cables were slack at the last converged state ({}): raise their prestress, or model them as bars if they may carry compression",
+                    slack.join(", ")
+                ),
+                Termination::SingularTangent { .. } | Termination::Jumped if load_control => {
+                    "if the load has passed a limit point, load control cannot follow it: try control = \"arc-length\" (or \"displacement\")".into()
                 }
-                _ => "try a smaller step (more steps or a smaller arc) or more max_iterations",
+                Termination::SingularTangent { .. } => {
+                    "if this is a limit or bifurcation point, a smaller arc crosses it; otherwise add a support or bracing member".into()
+                }
+                Termination::MaxIterations => format!(
+                    "raise max_iterations (now {}) or take smaller steps (more steps{})",
+                    model.analysis.max_iterations,
+                    if load_control { "" } else { " or a smaller arc" }
+                ),
+                Termination::Diverged => {
+                    "take smaller steps, or use method = \"newton\", which refactors the tangent every iteration".into()
+                }
+                Termination::ConstraintFailed | Termination::Jumped => {
+                    "try a smaller arc, or arc_variant = \"normal-plane\"".into()
+                }
+                Termination::Converged | Termination::Stopped => {
+                    if load_control {
+                        "try more steps or control = \"arc-length\"".into()
+                    } else {
+                        "try a smaller step (more steps or a smaller arc) or more max_iterations".into()
+                    }
+                }
             };
             format!(
                 "step {} did not converge after {} halvings: {cause} while going to load factor {:.6} \

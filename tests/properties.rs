@@ -176,3 +176,26 @@ force = [1.0, 0.0, 0.0]
     let msg = tautline::results::stop_message(&run.model, &run.path);
     assert!(msg.contains("mechanism") && msg.contains("tip."), "{msg}");
 }
+
+/// A step that runs out of iterations is never reported as converged: the
+/// run stops with the step, the load factor tried, the residual, the cause
+/// and what to try (common practice, no source).
+#[test]
+fn iteration_cap_is_reported_with_its_cause_and_remedy() {
+    let text = PRETENSIONED_CABLE
+        .replace("steps = 4", "steps = 1\nmax_iterations = 1\nmax_cutbacks = 0")
+        .replace("tolerance = 1e-13", "tolerance = 1e-14");
+    for method in [Method::Newton, Method::Bfgs] {
+        let run = trace(model(&text), method);
+        assert_eq!(run.path.stop, StopReason::NoConvergence, "{method:?}");
+        assert_eq!(run.path.points.len(), 1, "only the unloaded state converged");
+        let msg = tautline::results::stop_message(&run.model, &run.path);
+        assert!(msg.contains("step 1 did not converge"), "{msg}");
+        assert!(msg.contains("relative residual"), "{msg}");
+        assert!(msg.contains("last converged load factor is 0.000000"), "{msg}");
+        assert!(msg.contains("ran out of iterations") || msg.contains("diverged"), "{msg}");
+        assert!(msg.contains("max_iterations") || msg.contains("smaller steps"), "{msg}");
+        let res = tautline::results::build(&run.model, &run.system, &run.path, &run.wasted, 0.0);
+        assert!(!res.converged);
+    }
+}
