@@ -8,5 +8,6 @@ mod form;
 mod plots;
 mod properties;
 mod quasi_newton;
+mod report;
 mod stability;
 mod verification;

@@ -52,9 +52,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            let code = solve(&m, &out, None, false, quiet)?;
-            println!("report: {} (open it in a browser; it needs no network)", out.join("report.html").display());
-            Ok(code)
+            solve(&m, &out, None, false, quiet)
         }
         Command::Verify { format } => verify(&format),
     }
@@ -278,6 +276,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
         print_run_summary(m, &res);
     }
     println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
+    println!("report: {} (open it in a browser; it needs no network)", out.join("report.html").display());
     println!("{CAUTION}");
     Ok(match path.stop {
         s if s.is_complete() => exit::DONE,
