@@ -9,5 +9,6 @@ mod plots;
 mod properties;
 mod quasi_newton;
 mod report;
+mod browser;
 mod stability;
 mod verification;
