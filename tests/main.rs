@@ -13,5 +13,7 @@ mod plots;
 mod properties;
 mod quasi_newton;
 mod relax;
+mod report;
+mod browser;
 mod stability;
 mod verification;

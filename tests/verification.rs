@@ -53,51 +53,27 @@ watch = ["C.z"]
     )
 }
 
-const EA: f64 = 1.28e9;
-const B: f64 = 5.0;
-const H: f64 = 1.0;
+// The arch of `arch_model` (EA = 1.28e9 N there) is `tautline::verify::ARCH`.
+const B: f64 = tautline::verify::ARCH.b;
+const H: f64 = tautline::verify::ARCH.h;
 
-/// Crown load P(w) of the two-bar arch for a crown deflection w (down positive).
-/// Engineering strain, N = EA (l − l₀)/l₀: P = 2EA (l₀ − l)/l₀ · z/l.
-/// Green-Lagrange, S = E·E_GL on the reference area: P = EA z (h² − z²)/l₀³.
-/// Both from equilibrium of the deformed crown (z = h − w, l = √(b² + z²));
-/// Z. P. Bažant and L. Cedolin, *Stability of Structures* (1991), §4.4.
+/// Crown load P(w) of the two-bar arch for a crown deflection w (down
+/// positive): the closed form of `tautline::verify::Arch::load`, from
+/// equilibrium of the deformed crown (Z. P. Bažant and L. Cedolin,
+/// *Stability of Structures* (1991), §4.4), written once there.
 fn arch_load(w: f64, green: bool) -> f64 {
-    let z = H - w;
-    let l0 = (B * B + H * H).sqrt();
-    if green {
-        EA * z * (H * H - z * z) / l0.powi(3)
-    } else {
-        let l = (B * B + z * z).sqrt();
-        2.0 * EA * (l0 - l) / l0 * z / l
-    }
+    tautline::verify::ARCH.load(w, green)
 }
 
-/// Limit load: engineering, P_lim = 2EA sin³θ_c with cos θ_c = (cos α)^(1/3)
-/// (Bažant & Cedolin 1991, eq. 4.4.5); Green-Lagrange, P_lim = 2EA h³/(3√3 l₀³)
-/// at z = h/√3 (derived from dP/dz = 0 of the relation above).
+/// Limit load and crown deflection at it (Bažant & Cedolin 1991, eq. 4.4.5;
+/// Green-Lagrange derived from dP/dz = 0): `tautline::verify::Arch::limit`.
 fn arch_limit(green: bool) -> (f64, f64) {
-    let l0 = (B * B + H * H).sqrt();
-    if green {
-        (2.0 * EA * H.powi(3) / (3.0 * 3f64.sqrt() * l0.powi(3)), H - H / 3f64.sqrt())
-    } else {
-        let cos_a = B / l0;
-        let cos_c = cos_a.cbrt();
-        let sin_c = (1.0 - cos_c * cos_c).sqrt();
-        // At the limit the bar angle θ_c gives z = b·tan θ_c.
-        (2.0 * EA * sin_c.powi(3), H - B * sin_c / cos_c)
-    }
+    tautline::verify::ARCH.limit(green)
 }
 
 /// Crown deflection for a load below the limit, by bisection on [0, w_lim].
 fn arch_deflection(p: f64, green: bool) -> f64 {
-    let (_, w_lim) = arch_limit(green);
-    let (mut lo, mut hi) = (0.0, w_lim);
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if arch_load(mid, green) < p { lo = mid } else { hi = mid }
-    }
-    0.5 * (lo + hi)
+    tautline::verify::ARCH.deflection(p, green)
 }
 
 /// The closed-form limit point reproduces the published rounded figures of

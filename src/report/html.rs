@@ -77,7 +77,8 @@ pub fn report_html(model: &Model, results: &Results, members: &[MemberOut], figu
     );
     let _ = writeln!(h, "<div id=\"caution\" class=\"caution\" role=\"note\">Caution: {}</div>", esc(&results.caution));
     let _ = writeln!(h, "<h1>{}</h1>", esc(&title));
-    let _ = writeln!(h, "<p>Model file: <code>{}</code>; {} {}.</p>", esc(&results.model_file), esc(&results.tool), outcome(results));
+    let _ = writeln!(h, "<p>Model file: <code>{}</code>; run by {}.</p>", esc(&results.model_file), esc(&results.tool));
+    let _ = writeln!(h, "<p id=\"outcome\"><strong>{}</strong></p>", outcome(results));
     summary(&mut h, model, results);
     settings(&mut h, results);
     figures_section(&mut h, figures);
@@ -91,8 +92,8 @@ pub fn report_html(model: &Model, results: &Results, members: &[MemberOut], figu
 }
 
 fn outcome(r: &Results) -> String {
-    let status = if r.converged { "reached the target" } else { "stopped before the target" };
-    format!("the run {status}: {}", esc(&r.stop_message))
+    let status = if r.converged { "Done" } else { "Stopped before the target" };
+    format!("{status}: {}", esc(&r.stop_message))
 }
 
 fn kv(h: &mut String, rows: &[(&str, String)]) {
