@@ -65,8 +65,7 @@ pub const CASES: &[fn() -> Case] = &[
     force_density_chain_sag,
     braced_strut_bifurcation,
     snap_back_limit,
-    // Elastic catenary (H. M. Irvine, Cable Structures, 1981): to be added
-    // here with the catenary member kind.
+    elastic_catenary_support_force,
 ];
 
 /// Runs every case.
@@ -159,6 +158,19 @@ pub fn chain_height(i: usize, n: usize, p: f64, q: f64) -> f64 {
 /// shortened l = L(1 − P/EA) vanishes at P_cr = (kL/2)/(1 + kL/(2EA)).
 pub fn braced_strut_critical_load(k: f64, l: f64, ea: f64) -> f64 {
     (k * l / 2.0) / (1.0 + k * l / (2.0 * ea))
+}
+
+/// Span l and rise h of an elastic catenary from its end forces: H. M.
+/// Irvine, *Cable Structures*, MIT Press, 1981, ch. 1 (the elastic
+/// catenary), with V the upward force of the support at the lower end A,
+/// W = w·L0 the cable's weight:
+/// l = H·L0/EA + (H/w)·[asinh(V/H) − asinh((V − W)/H)],
+/// h = (W·L0/EA)·(1/2 − V/W) + (1/w)·[√(H² + (W − V)²) − √(H² + V²)].
+pub fn irvine_span_rise(hh: f64, v: f64, l0: f64, ea: f64, w: f64) -> (f64, f64) {
+    let big_w = w * l0;
+    let span = hh * l0 / ea + hh / w * ((v / hh).asinh() - ((v - big_w) / hh).asinh());
+    let rise = big_w * l0 / ea * (0.5 - v / big_w) + ((hh * hh + (big_w - v).powi(2)).sqrt() - (hh * hh + v * v).sqrt()) / w;
+    (span, rise)
 }
 
 /// Root of an increasing function on [lo, hi] by bisection.
@@ -574,6 +586,39 @@ watch = ["S.z", "C.z"]
 }
 
 /// The cases as an aligned text table.
+/// One catenary member between a fixed support A and a node B placed where
+/// Irvine's equations put it for chosen end forces (H, V), B held in y and z
+/// and pulled by H in x: the solver must find B in place with A's vertical
+/// reaction equal to V. The geometry is computed forward from the published
+/// equations, so no root finder stands between the reference and the check.
+fn elastic_catenary_support_force() -> Case {
+    let (l0, ea, w, hh, v) = (100.0, 2.0e7, 50.0, 2.0e4, 3500.0);
+    let (span, rise) = irvine_span_rise(hh, v, l0, ea, w);
+    let text = format!(
+        "title = \"elastic catenary stay\"\n[[section]]\nname = \"rope\"\nEA = {ea:?}\nweight = {w:?}\n\
+         [[node]]\nid = \"A\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+         [[node]]\nid = \"B\"\nat = [{span:?}, 0.0, {rise:?}]\nfix = \"yz\"\n\
+         [[member]]\nid = \"stay\"\nkind = \"catenary\"\nends = [\"A\", \"B\"]\nsection = \"rope\"\nrest_length = {l0:?}\n\
+         [[load]]\nnode = \"B\"\nforce = [{hh:?}, 0.0, 0.0]\n\
+         [analysis]\nstrain = \"engineering\"\nstart_load_factor = 0.5\ntarget = 1.0\nsteps = 2\ntolerance = 1e-12\nwatch = [\"B.x\"]\n"
+    );
+    let computed = load(&text, "stay.toml").and_then(|m| {
+        let p = trace(&m)?;
+        reached(&p)?;
+        let a = m.node_index("A").ok_or("node A missing")?;
+        Ok(p.final_state.reactions[3 * a + 2])
+    });
+    Case::new(
+        "elastic catenary stay, one member",
+        "H. M. Irvine, Cable Structures, MIT Press, 1981, ch. 1 (elastic catenary: span and rise from the end forces)",
+        "vertical support force at the lower end",
+        "N",
+        v,
+        computed,
+        1e-9,
+    )
+}
+
 pub fn table(cases: &[Case]) -> String {
     let header = ["case", "source", "quantity", "reference", "computed", "rel. error", "tolerance", "result"];
     let rows: Vec<[String; 8]> = cases
