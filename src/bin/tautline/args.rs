@@ -30,6 +30,9 @@ pub enum Command {
         /// Overwrite DIR even if it holds the results of another model
         #[arg(long)]
         force: bool,
+        /// Also write path.png, shape.png and convergence.png
+        #[arg(long)]
+        png: bool,
         #[command(flatten)]
         overrides: Overrides,
     },
@@ -56,6 +59,9 @@ pub enum Command {
         /// Output folder
         #[arg(short = 'o', long = "out", value_name = "DIR", default_value = "tautline-demo")]
         out: PathBuf,
+        /// Also write path.png, shape.png and convergence.png
+        #[arg(long)]
+        png: bool,
     },
     /// Run the built-in textbook cases against their closed forms; print the
     /// table (exit 4 if any case fails)

@@ -39,20 +39,20 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             print_summary(&m);
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, force, overrides } => {
+        Command::Solve { model, out, force, png, overrides } => {
             let mut m = load(&model)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
-            solve(&m, &out, Some(&model), force, quiet)
+            solve(&m, &out, Some(&model), force, Outputs { quiet, png })
         }
         Command::Form { model, out } => form(&model, &out),
         Command::Generate { what } => generate(what),
         Command::Bench(a) => crate::bench::bench(&a),
         Command::BenchRun(a) => crate::bench::bench_run(&a),
-        Command::Demo { out } => {
+        Command::Demo { out, png } => {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            solve(&m, &out, None, false, quiet)
+            solve(&m, &out, None, false, Outputs { quiet, png })
         }
         Command::Verify { format } => verify(&format),
     }
@@ -207,7 +207,17 @@ fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, forc
     })
 }
 
-fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: bool) -> Result<u8, Failure> {
+/// What `solve` prints and writes besides the standard files.
+#[derive(Clone, Copy)]
+struct Outputs {
+    /// No progress bar, a one-line summary.
+    quiet: bool,
+    /// PNG copies of the plots.
+    png: bool,
+}
+
+fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs: Outputs) -> Result<u8, Failure> {
+    let Outputs { quiet, png } = outputs;
     let system = System::new(m).map_err(|e| {
         Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
     })?;
@@ -256,6 +266,15 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
     for (name, caption, svg) in plots {
         match svg {
             Ok(text) => {
+                if png {
+                    let png_name = name.replace(".svg", ".png");
+                    match report::png::svg_to_png(&text) {
+                        Ok(bytes) => staged.add(out, &png_name, &bytes).map_err(|e| {
+                            Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(&png_name).display()))
+                        })?,
+                        Err(e) => eprintln!("warning: {png_name} not drawn: {e}"),
+                    }
+                }
                 write(&mut staged, name, text.clone())?;
                 drawn.push((caption, text));
             }
