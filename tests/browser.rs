@@ -8,7 +8,7 @@ use crate::report::{Scratch, tautline};
 use std::process::Command;
 
 /// Distinct colours in an RGBA PNG, from the png crate's decoder.
-fn distinct_colours(path: &std::path::Path) -> (u32, u32, usize) {
+pub fn distinct_colours(path: &std::path::Path) -> (u32, u32, usize) {
     let file = std::fs::File::open(path).expect("screenshot");
     let decoder = png::Decoder::new(std::io::BufReader::new(file));
     let mut reader = decoder.read_info().expect("png header");

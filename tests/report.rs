@@ -306,3 +306,27 @@ fn verify_cases_each_pass_in_the_library() {
         assert!(case.relative_error <= case.tolerance && case.computed.is_finite());
     }
 }
+
+/// `--png`: each plot also as a PNG of the SVG's pixel size, decodable and
+/// not blank; without `--png` none is written.
+#[test]
+fn png_plots_on_request() {
+    let sc = Scratch::new("png");
+    let out = sc.0.join("out");
+    let (code, o, e) = tautline(&["solve", &model_path("roof_arch.toml"), "-o", out.to_str().unwrap(), "--png", "-q"]);
+    assert!(code == 0 || code == 3, "{o}{e}");
+    for name in ["path", "shape", "convergence"] {
+        let svg = read(&out.join(format!("{name}.svg")));
+        let attr = |a: &str| -> u32 {
+            let i = svg.find(&format!(" {a}=\"")).unwrap() + a.len() + 3;
+            svg[i..i + svg[i..].find('"').unwrap()].parse::<f64>().unwrap().round() as u32
+        };
+        let (w, h, colours) = crate::browser::distinct_colours(&out.join(format!("{name}.png")));
+        assert_eq!((w, h), (attr("width"), attr("height")), "{name}.png size");
+        assert!(colours > 20, "{name}.png looks blank: {colours} colours");
+    }
+    let out2 = sc.0.join("out2");
+    let (code, _, _) = tautline(&["solve", &model_path("roof_arch.toml"), "-o", out2.to_str().unwrap(), "-q"]);
+    assert!(code == 0 || code == 3);
+    assert!(!out2.join("path.png").exists());
+}

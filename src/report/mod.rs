@@ -4,6 +4,7 @@
 
 pub mod html;
 pub mod plot;
+pub mod png;
 
 use crate::results::{MemberOut, Results};
 use std::fmt::Write as _;

@@ -39,6 +39,9 @@ pub enum Command {
         /// Print the summary or the errors as text or as one JSON object on stdout
         #[arg(long, value_enum, default_value_t = Format::Text)]
         format: Format,
+        /// Also write path.png, shape.png and convergence.png
+        #[arg(long)]
+        png: bool,
         #[command(flatten)]
         overrides: Overrides,
     },
@@ -86,6 +89,9 @@ pub enum Command {
         /// Output folder
         #[arg(short = 'o', long = "out", value_name = "DIR", default_value = "tautline-demo")]
         out: PathBuf,
+        /// Also write path.png, shape.png and convergence.png
+        #[arg(long)]
+        png: bool,
     },
     /// Run the built-in textbook cases against their closed forms; print the
     /// table (exit 4 if any case fails)

@@ -59,10 +59,10 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             }
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, force, format, overrides } => {
+        Command::Solve { model, out, force, format, png, overrides } => {
             let mut m = load(&model, format)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
-            solve(&m, &out, Some(&model), force, quiet, format)
+            solve(&m, &out, Some(&model), force, Outputs { quiet, png, format })
         }
         Command::Form { model, out, method } => form(&model, &out, method.as_deref()),
         Command::Relax { model, out, load_factor, tolerance, max_steps } => {
@@ -71,11 +71,11 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
         Command::Generate { what } => generate(what),
         Command::Bench(a) => crate::bench::bench(&a),
         Command::BenchRun(a) => crate::bench::bench_run(&a),
-        Command::Demo { out } => {
+        Command::Demo { out, png } => {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            solve(&m, &out, None, false, quiet, Format::Text)
+            solve(&m, &out, None, false, Outputs { quiet, png, format: Format::Text })
         }
         Command::Verify { format } => verify(&format),
     }
@@ -277,7 +277,19 @@ pub(crate) fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model:
     })
 }
 
-fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: bool, format: Format) -> Result<u8, Failure> {
+/// What `solve` prints and writes besides the standard files.
+#[derive(Clone, Copy)]
+struct Outputs {
+    /// No progress bar, a one-line summary.
+    quiet: bool,
+    /// PNG copies of the plots.
+    png: bool,
+    /// Summary and errors as text or JSON.
+    format: Format,
+}
+
+fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs: Outputs) -> Result<u8, Failure> {
+    let Outputs { quiet, png, format } = outputs;
     let system = System::new(m).map_err(|e| {
         Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
     })?;
@@ -327,6 +339,15 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, quiet: b
     for (name, caption, svg) in plots {
         match svg {
             Ok(text) => {
+                if png {
+                    let png_name = name.replace(".svg", ".png");
+                    match report::png::svg_to_png(&text) {
+                        Ok(bytes) => staged.add(out, &png_name, &bytes).map_err(|e| {
+                            Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(&png_name).display()))
+                        })?,
+                        Err(e) => plot_warnings.push(format!("{png_name} not drawn: {e}")),
+                    }
+                }
                 write(&mut staged, name, text.clone())?;
                 drawn.push((caption, text));
             }
