@@ -779,6 +779,11 @@ fn formed_net_solves_from_equilibrium() {
     let (header, rows) = csv(&out.join("form.csv"));
     assert_eq!(header, ["id", "force_N", "length_m", "force_density_N/m"]);
     assert_eq!(rows.len(), 144);
+    // The found shape is drawn: one line per member in each view, shaded by force.
+    let shape = std::fs::read_to_string(out.join("shape.svg")).expect("form writes shape.svg");
+    assert!(shape.starts_with("<svg") || shape.starts_with("<?xml"), "not an SVG");
+    assert!(shape.contains("axial force"), "no force legend");
+    assert!(shape.matches("<line").count() >= 2 * 144, "members missing from the shape plot");
     let run = out.join("run");
     let r = solve(&out.join("formed.toml"), &run, &["--target", "2"]);
     assert_eq!(r.code, 0, "{r}");

@@ -603,6 +603,14 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
     if let Some(text) = &log_csv {
         staged.add(out, "form_log.csv", text.as_bytes()).map_err(io)?;
     }
+    // The found shape, members shaded by their found force: the formed model
+    // drawn at rest (no displacement), so it is the shape `solve` starts from.
+    let at_rest = vec![[0.0; 3]; formed.n_nodes()];
+    let slack: Vec<bool> = formed.members.iter().zip(&found.forces).map(|(mb, f)| mb.kind.tension_only() && *f <= 0.0).collect();
+    match report::plot::shape_svg(&formed, &at_rest, &found.forces, &slack) {
+        Ok(svg) => staged.add(out, "shape.svg", svg.as_bytes()).map_err(io)?,
+        Err(e) => eprintln!("warning: shape.svg not drawn: {e}"),
+    }
     let written = staged.commit().map_err(io)?;
     let u = m.units;
     let (lo, hi) = found.forces.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), f| (a.min(*f), b.max(*f)));
@@ -611,14 +619,11 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
         println!("member forces {:.6} to {:.6} {}", u.force_out(lo), u.force_out(hi), u.force.name());
     }
     println!("wrote {}", written.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", "));
-    println!("{CAUTION}");
-    match stopped {
-        Some(msg) => {
-            println!("stopped before the target: {msg}");
-            Ok(exit::STOPPED)
-        }
-        None => Ok(exit::DONE),
+    if let Some(msg) = &stopped {
+        println!("stopped before the target: {msg}");
     }
+    println!("{CAUTION}");
+    Ok(if stopped.is_some() { exit::STOPPED } else { exit::DONE })
 }
 
 /// The convergence table of a target iteration: all rows when short, else

@@ -41,10 +41,12 @@ pub fn distance(a: &str, b: &str, limit: usize) -> Option<usize> {
 }
 
 /// How many edits still count as a near miss for a word of this length:
-/// one for very short words (ids like "A2"), then about a third.
+/// none for one letter (any other letter would be one edit away), one for
+/// very short words (ids like "A2"), then about a third.
 fn closeness_limit(word: &str) -> usize {
     match word.chars().count() {
-        0..=3 => 1,
+        0..=1 => 0,
+        2..=3 => 1,
         n => (n / 3).max(2),
     }
 }
