@@ -56,42 +56,4 @@ pub const ALL_METHODS: [Method; 5] =
 /// VERIFICATION case 4: a straight cable of two 5 m halves (EA = 1e6 N,
 /// pretension 1e4 N, engineering strain) with a 1000 N midspan load, in 4
 /// load steps at a relative tolerance of 1e-13.
-pub const PRETENSIONED_CABLE: &str = r#"
-[[section]]
-name = "rope"
-EA = 1.0e6
-[[node]]
-id = "A"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "M"
-at = [5.0, 0.0, 0.0]
-fix = "y"
-[[node]]
-id = "B"
-at = [10.0, 0.0, 0.0]
-fix = "xyz"
-[[member]]
-id = "a"
-kind = "cable"
-ends = ["A", "M"]
-section = "rope"
-prestress = 1.0e4
-[[member]]
-id = "b"
-kind = "cable"
-ends = ["M", "B"]
-section = "rope"
-prestress = 1.0e4
-[[load]]
-node = "M"
-force = [0.0, 0.0, -1000.0]
-[analysis]
-strain = "engineering"
-steps = 4
-target = 1.0
-node = "M"
-dir = "z"
-tolerance = 1e-13
-"#;
+pub use tautline::verify::PRETENSIONED_CABLE;
