@@ -125,6 +125,7 @@ pub struct AnalysisEntry {
     pub pinpoint: Option<Spanned<bool>>,
     pub start_load_factor: Option<Spanned<f64>>,
     pub self_weight: Option<Spanned<String>>,
+    pub load_predictor: Option<Spanned<String>>,
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -274,6 +275,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("pinpoint", "pinpoint = true"),
         key("start_load_factor", "start_load_factor = 0.0"),
         key("self_weight", "self_weight = \"dead\""),
+        key("load_predictor", "load_predictor = \"secant\""),
     ],
 };
 

@@ -326,6 +326,10 @@ pub struct Analysis {
     pub arc_variant_normal_plane: bool,
     /// How section weights are applied (`self_weight`).
     pub self_weight: SelfWeight,
+    /// Load control starts each step's corrector from a predicted
+    /// displacement (`load_predictor = "secant"`) instead of the last state
+    /// (`"none"`).
+    pub load_predictor: bool,
 }
 
 impl Default for Analysis {
@@ -355,6 +359,7 @@ impl Default for Analysis {
             pinpoint: true,
             start_load_factor: 0.0,
             self_weight: SelfWeight::Dead,
+            load_predictor: true,
         }
     }
 }

@@ -1514,6 +1514,14 @@ fn analysis(
     }) {
         a.self_weight = sw;
     }
+    let predictors = ["secant", "none"];
+    if let Some(on) = choice(cx, t, &e.load_predictor, "load_predictor", &predictors, |s| match s {
+        "secant" => Some(true),
+        "none" => Some(false),
+        _ => None,
+    }) {
+        a.load_predictor = on;
+    }
     let variants = ["cylindrical", "normal-plane"];
     if let Some(normal) = choice(cx, t, &e.arc_variant, "arc_variant", &variants, |s| match s {
         "cylindrical" => Some(false),

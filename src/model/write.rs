@@ -210,6 +210,9 @@ pub fn to_toml(model: &Model) -> String {
     };
     let _ = writeln!(s, "stability_check = {}", quote(check));
     let _ = writeln!(s, "pinpoint = {}", a.pinpoint);
+    if !a.load_predictor {
+        let _ = writeln!(s, "load_predictor = \"none\"");
+    }
 
     let f = &model.form;
     let d = FormSettings::default();

@@ -488,6 +488,16 @@ impl<'a> Tracer<'a> {
             let (term, record) = match a.control {
                 Control::Load => {
                     let inc = stepper.towards(a.target - progress);
+                    if a.load_predictor {
+                        let du = load_predictor(sys, ws, inc, &last_increment, last_load_increment);
+                        let predicted: Vec<f64> = state.u.iter().zip(&du).map(|(u, d)| u + d).collect();
+                        // Extrapolation is only as good as the path is smooth:
+                        // a member going slack or taut is a kink in it, and the
+                        // corrector starts better from the last state.
+                        if sys.slack_members(&predicted) == sys.slack_members(&state.u) {
+                            state.u = predicted;
+                        }
+                    }
                     state.lambda += inc;
                     solve::drive(sys, ws, &mut state, &start_u, start_lambda, &FixedLoad, &self.corrector, step, observer)
                 }
@@ -683,6 +693,25 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 }
 
 /// δu_f = K⁻¹·f_ref with the current factor: the tangent direction of the path.
+/// The displacement increment expected for a load increment `inc` under load
+/// control. From the second step on: the last converged increment scaled by
+/// the ratio of the load increments, a secant (first-order extrapolation)
+/// predictor that costs nothing; its error is of the order of the path's
+/// curvature times the step squared, where keeping the last state (no
+/// predictor) errs by the whole increment. On the first step: the tangent
+/// solution K⁻¹·f_ref·inc with the factor of the start state, one solve.
+/// Either way only the corrector's starting point changes, not the state it
+/// converges to.
+fn load_predictor(sys: &System, ws: &mut Workspace, inc: f64, last_u: &[f64], last_lambda: f64) -> Vec<f64> {
+    if last_u.is_empty() || last_lambda == 0.0 {
+        let mut du = tangent_direction(sys, ws);
+        du.iter_mut().for_each(|d| *d *= inc);
+        return du;
+    }
+    let ratio = inc / last_lambda;
+    last_u.iter().map(|d| ratio * d).collect()
+}
+
 fn tangent_direction(sys: &System, ws: &mut Workspace) -> Vec<f64> {
     let mut du_f = sys.f_ref.clone();
     ws.h.apply(&mut du_f);
