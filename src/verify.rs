@@ -346,11 +346,12 @@ fn pretensioned_cable_deflection() -> Case {
     )
 }
 
-fn determinate_truss_force() -> Case {
-    // A(0,0) pinned, B(3,0), C(6,0) roller, D(3,4); P = 1 N down at B.
-    // Joints B and D give BD = P (small strains keep geometric effects far
-    // below the tolerance).
-    let text = r#"title = "determinate truss"
+/// A statically determinate plane truss: A(0,0) pinned, B(3,0), C(6,0) on a
+/// roller, D(3,4); P = 1 N down at B. Joints B and D give BD = P,
+/// AD = DC = −5P/8, joint A gives AB = BC = 3P/8 (R. C. Hibbeler,
+/// Engineering Mechanics: Statics, ch. 6, method of joints). EA = 1e9 N keeps
+/// strains near 1e-9, so geometric effects stay far below 1e-6.
+pub const DETERMINATE_TRUSS: &str = r#"title = "determinate truss"
 [[section]]
 name = "s"
 EA = 1.0e9
@@ -402,6 +403,127 @@ force = [0.0, 0.0, -1.0]
 steps = 1
 tolerance = 1e-12
 "#;
+
+/// A straight vertical strut of two bars (each L = 2 m, EA = 1e8 N), pinned
+/// at the base and held laterally at the top, braced at mid-height by a
+/// lateral spring k = 1e5 N/m, loaded at the top by 1e5 N per unit load
+/// factor, up to λ = 1.2: it bifurcates at [`braced_strut_critical_load`].
+pub const BRACED_STRUT: &str = r#"title = "braced strut"
+[[section]]
+name = "s"
+EA = 1.0e8
+[[node]]
+id = "B"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [0.0, 0.0, 2.0]
+fix = "y"
+[[node]]
+id = "T"
+at = [0.0, 0.0, 4.0]
+fix = "xy"
+[[member]]
+id = "lower"
+kind = "bar"
+ends = ["B", "M"]
+section = "s"
+[[member]]
+id = "upper"
+kind = "bar"
+ends = ["M", "T"]
+section = "s"
+[[spring]]
+node = "M"
+dir = "x"
+k = 1.0e5
+[[load]]
+node = "T"
+force = [0.0, 0.0, -1.0e5]
+[analysis]
+strain = "engineering"
+steps = 12
+target = 1.2
+node = "T"
+dir = "z"
+tolerance = 1e-12
+watch = ["T.z", "M.x"]
+"#;
+
+/// The two-bar arch ([`ARCH`], engineering strain) with a linear spring in
+/// series under the crown: a vertical bar of EA = 20 MN and length 10 m, i.e.
+/// k = 2 MN/m, which stays vertical by symmetry and so is an exact linear
+/// spring under engineering strain. The load, 1 MN per unit load factor,
+/// acts on the spring's free end S. `extra` is appended to `[analysis]`.
+pub fn spring_arch(control: &str, target: f64, steps: usize, extra: &str) -> String {
+    let a = ARCH;
+    format!(
+        r#"title = "arch with a spring in series"
+[[section]]
+name = "strut"
+EA = {ea:?}
+[[section]]
+name = "spring"
+EA = 2.0e7
+[[node]]
+id = "L"
+at = [{nb:?}, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "R"
+at = [{b:?}, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [0.0, 0.0, {h:?}]
+fix = "y"
+[[node]]
+id = "S"
+at = [0.0, 0.0, -9.0]
+fix = "xy"
+[[member]]
+id = "left"
+kind = "bar"
+ends = ["L", "C"]
+section = "strut"
+[[member]]
+id = "right"
+kind = "bar"
+ends = ["C", "R"]
+section = "strut"
+[[member]]
+id = "spring"
+kind = "bar"
+ends = ["C", "S"]
+section = "spring"
+[[load]]
+node = "S"
+force = [0.0, 0.0, -1.0e6]
+[analysis]
+strain = "engineering"
+control = "{control}"
+steps = {steps}
+target = {target:?}
+node = "S"
+dir = "z"
+max_steps = 2000
+tolerance = 1e-12
+watch = ["S.z", "C.z"]
+{extra}
+"#,
+        ea = a.ea,
+        nb = -a.b,
+        b = a.b,
+        h = a.h
+    )
+}
+
+fn determinate_truss_force() -> Case {
+    // A(0,0) pinned, B(3,0), C(6,0) roller, D(3,4); P = 1 N down at B.
+    // Joints B and D give BD = P (small strains keep geometric effects far
+    // below the tolerance).
+    let text = DETERMINATE_TRUSS;
     let computed = load(text, "truss.toml").and_then(|m| {
         let system = System::new(&m).map_err(|e| e.message.clone())?;
         let p = trace(&m)?;
@@ -449,48 +571,7 @@ fn force_density_chain_sag() -> Case {
 }
 
 fn braced_strut_bifurcation() -> Case {
-    let text = r#"title = "braced strut"
-[[section]]
-name = "s"
-EA = 1.0e8
-[[node]]
-id = "B"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "M"
-at = [0.0, 0.0, 2.0]
-fix = "y"
-[[node]]
-id = "T"
-at = [0.0, 0.0, 4.0]
-fix = "xy"
-[[member]]
-id = "lower"
-kind = "bar"
-ends = ["B", "M"]
-section = "s"
-[[member]]
-id = "upper"
-kind = "bar"
-ends = ["M", "T"]
-section = "s"
-[[spring]]
-node = "M"
-dir = "x"
-k = 1.0e5
-[[load]]
-node = "T"
-force = [0.0, 0.0, -1.0e5]
-[analysis]
-strain = "engineering"
-steps = 12
-target = 1.2
-node = "T"
-dir = "z"
-tolerance = 1e-12
-watch = ["T.z", "M.x"]
-"#;
+    let text = BRACED_STRUT;
     let computed = load(text, "strut.toml").and_then(|m| trace(&m)).and_then(|p| {
         reached(&p)?;
         p.critical
@@ -515,65 +596,7 @@ fn snap_back_limit() -> Case {
     // the crown, loaded at the bar's free end: the series spring does not
     // change the largest load the arch carries, only the path (snap-back).
     let a = ARCH;
-    let text = format!(
-        r#"title = "arch with a spring in series"
-[[section]]
-name = "strut"
-EA = {ea:?}
-[[section]]
-name = "spring"
-EA = 2.0e7
-[[node]]
-id = "L"
-at = [{nb:?}, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "R"
-at = [{b:?}, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "C"
-at = [0.0, 0.0, {h:?}]
-fix = "y"
-[[node]]
-id = "S"
-at = [0.0, 0.0, -9.0]
-fix = "xy"
-[[member]]
-id = "left"
-kind = "bar"
-ends = ["L", "C"]
-section = "strut"
-[[member]]
-id = "right"
-kind = "bar"
-ends = ["C", "R"]
-section = "strut"
-[[member]]
-id = "spring"
-kind = "bar"
-ends = ["C", "S"]
-section = "spring"
-[[load]]
-node = "S"
-force = [0.0, 0.0, -1.0e6]
-[analysis]
-strain = "engineering"
-control = "arc-length"
-arc = 0.05
-steps = 10
-target = 4.5
-node = "S"
-dir = "z"
-max_steps = 2000
-tolerance = 1e-12
-watch = ["S.z", "C.z"]
-"#,
-        ea = a.ea,
-        nb = -a.b,
-        b = a.b,
-        h = a.h
-    );
+    let text = spring_arch("arc-length", 4.5, 10, "arc = 0.05");
     let computed = load(&text, "snap_back.toml").and_then(|m| trace(&m)).and_then(|p| {
         reached(&p)?;
         Ok(first_limit(&p)? * 1.0e6 / 1.0e3)

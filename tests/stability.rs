@@ -4,71 +4,9 @@
 use crate::common::*;
 use tautline::model::Method;
 use tautline::path::{CriticalKind, StopReason};
-
-/// Two-bar arch (b = 5 m, h = 1 m, EA = 1280 MN, engineering strain) with a
-/// linear spring in series under the crown: a vertical bar of EA = 20 MN and
-/// length 10 m, i.e. k = 2 MN/m, which stays vertical by symmetry and so is an
-/// exact linear spring under engineering strain (long enough that its
-/// compression on the unstable branch, at most P_lim, stays far from the
-/// EA at which a bar would shrink to nothing). The load acts on the
-/// spring's free end S.
-fn spring_arch(control: &str, target: f64, steps: usize, extra: &str) -> String {
-    format!(
-        r#"
-[[section]]
-name = "strut"
-EA = 1.28e9
-[[section]]
-name = "spring"
-EA = 2.0e7
-[[node]]
-id = "L"
-at = [-5.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "R"
-at = [5.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "C"
-at = [0.0, 0.0, 1.0]
-fix = "y"
-[[node]]
-id = "S"
-at = [0.0, 0.0, -9.0]
-fix = "xy"
-[[member]]
-id = "left"
-kind = "bar"
-ends = ["L", "C"]
-section = "strut"
-[[member]]
-id = "right"
-kind = "bar"
-ends = ["C", "R"]
-section = "strut"
-[[member]]
-id = "spring"
-kind = "bar"
-ends = ["C", "S"]
-section = "spring"
-[[load]]
-node = "S"
-force = [0.0, 0.0, -1.0e6]
-[analysis]
-strain = "engineering"
-control = "{control}"
-steps = {steps}
-target = {target:?}
-node = "S"
-dir = "z"
-max_steps = 2000
-tolerance = 1e-12
-watch = ["S.z", "C.z"]
-{extra}
-"#
-    )
-}
+// The two-bar arch with a linear spring in series under the crown, shared
+// with `tautline verify`.
+use tautline::verify::spring_arch;
 
 const EA: f64 = 1.28e9;
 const K: f64 = 2.0e6;
@@ -139,48 +77,7 @@ fn load_control_stops_at_the_snap_back_limit() {
 /// 1e-6 of the closed form, with every corrector.
 #[test]
 fn braced_strut_bifurcates_at_closed_form_load() {
-    let text = r#"
-[[section]]
-name = "s"
-EA = 1.0e8
-[[node]]
-id = "B"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "M"
-at = [0.0, 0.0, 2.0]
-fix = "y"
-[[node]]
-id = "T"
-at = [0.0, 0.0, 4.0]
-fix = "xy"
-[[member]]
-id = "lower"
-kind = "bar"
-ends = ["B", "M"]
-section = "s"
-[[member]]
-id = "upper"
-kind = "bar"
-ends = ["M", "T"]
-section = "s"
-[[spring]]
-node = "M"
-dir = "x"
-k = 1.0e5
-[[load]]
-node = "T"
-force = [0.0, 0.0, -1.0e5]
-[analysis]
-strain = "engineering"
-steps = 12
-target = 1.2
-node = "T"
-dir = "z"
-tolerance = 1e-12
-watch = ["T.z", "M.x"]
-"#;
+    let text = tautline::verify::BRACED_STRUT;
     let (k, l, ea) = (1.0e5f64, 2.0f64, 1.0e8f64);
     let p_cr = (k * l / 2.0) / (1.0 + k * l / (2.0 * ea));
     for method in ALL_METHODS {

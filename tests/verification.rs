@@ -199,58 +199,7 @@ fn pretensioned_cable_midspan_load() {
 /// nonlinearity changes the forces by far less than the 1e-6 tolerance.
 #[test]
 fn determinate_truss_method_of_joints() {
-    let text = r#"
-[[section]]
-name = "s"
-EA = 1.0e9
-[[node]]
-id = "A"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "B"
-at = [3.0, 0.0, 0.0]
-fix = "y"
-[[node]]
-id = "C"
-at = [6.0, 0.0, 0.0]
-fix = "yz"
-[[node]]
-id = "D"
-at = [3.0, 0.0, 4.0]
-fix = "y"
-[[member]]
-id = "AB"
-kind = "bar"
-ends = ["A", "B"]
-section = "s"
-[[member]]
-id = "BC"
-kind = "bar"
-ends = ["B", "C"]
-section = "s"
-[[member]]
-id = "AD"
-kind = "bar"
-ends = ["A", "D"]
-section = "s"
-[[member]]
-id = "DC"
-kind = "bar"
-ends = ["D", "C"]
-section = "s"
-[[member]]
-id = "BD"
-kind = "bar"
-ends = ["B", "D"]
-section = "s"
-[[load]]
-node = "B"
-force = [0.0, 0.0, -1.0]
-[analysis]
-steps = 1
-tolerance = 1e-12
-"#;
+    let text = tautline::verify::DETERMINATE_TRUSS;
     let run = solve_text(text);
     assert_eq!(run.path.stop, StopReason::TargetReached);
     let expected = [("AB", 3.0 / 8.0), ("BC", 3.0 / 8.0), ("AD", -5.0 / 8.0), ("DC", -5.0 / 8.0), ("BD", 1.0)];
