@@ -193,6 +193,29 @@ fn roof_arch_path_plot() {
         assert!(s.contains(&label), "missing {label}");
     }
     assert!(s.contains("limit λ = "));
+    // No step marker lies under a critical point's label (its box estimated
+    // as 0.6 em per character by 1 em, from the baseline up).
+    let tags = |class: &str| -> Vec<String> {
+        s.split('<').filter(|t| t.contains(&format!(r#"class="{class}"#))).map(str::to_string).collect()
+    };
+    let attr = |tag: &str, name: &str| -> f64 {
+        let k = format!(r#" {name}=""#);
+        let i = tag.find(&k).unwrap_or_else(|| panic!("{name} in {tag}")) + k.len();
+        tag[i..tag[i..].find('"').unwrap() + i].parse().unwrap_or(f64::NAN)
+    };
+    let labels = tags("crit-label");
+    assert_eq!(labels.len(), r.critical_points.len());
+    for l in &labels {
+        let (x, y, size) = (attr(l, "x"), attr(l, "y"), attr(l, "font-size"));
+        let text = &l[l.find('>').unwrap() + 1..];
+        let w = 0.6 * size * text.chars().count() as f64;
+        let x0 = if l.contains(r#"text-anchor="end""#) { x - w } else if l.contains(r#"text-anchor="middle""#) { x - w / 2.0 } else { x };
+        for m in tags("pt ") {
+            let (cx, cy, rr) = (attr(&m, "cx"), attr(&m, "cy"), attr(&m, "r"));
+            let clear = cx + rr < x0 || cx - rr > x0 + w || cy + rr < y - size || cy - rr > y + 0.25 * size;
+            assert!(clear, "label {text:?} at ({x}, {y}) covers the marker at ({cx}, {cy})");
+        }
+    }
 }
 
 #[test]

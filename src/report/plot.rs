@@ -127,6 +127,13 @@ fn ticks(lo: f64, hi: f64, n: f64) -> (f64, f64, Vec<f64>) {
     (a, b, t)
 }
 
+/// Whether the path turns back upwards at limit point `c` (a minimum of λ,
+/// as the lower limit of a snap-through): the first step past the point
+/// carries a larger load factor than the point itself.
+fn crit_below(results: &Results, c: &crate::results::CriticalPoint) -> bool {
+    c.kind == "limit" && results.steps.iter().find(|s| s.step == c.step).is_some_and(|s| s.load_factor > c.load_factor)
+}
+
 /// A tick label with as many decimals as the step needs.
 fn tick_label(v: f64, step: f64) -> String {
     if v == 0.0 {
@@ -246,6 +253,14 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
     let Some((y0, y1)) = extent(ys.chain(crit_y).chain([0.0])) else {
         return Ok(no_data(PLOT_W, PLOT_H, heading, "no finite points"));
     };
+    // A critical point's label goes on the outer side of its turn (below a
+    // minimum of λ, above a maximum), where the path leaves the space free:
+    // leave room for it there.
+    let room = 0.1 * (y1 - y0);
+    let outward = |c: &crate::results::CriticalPoint| crit_below(results, c);
+    let y0 = if results.critical_points.iter().any(|c| c.load_factor.is_finite() && outward(c)) { y0 - room } else { y0 };
+    let y1 = if results.critical_points.iter().any(|c| c.load_factor.is_finite() && !outward(c)) { y1 + room } else { y1 };
+    let turn = |c: &crate::results::CriticalPoint| c.kind == "limit";
     let any_finite = results.steps.iter().any(|s| s.watched.iter().any(|x| point_ok(*x, s.load_factor)));
     if !any_finite {
         return Ok(no_data(PLOT_W, PLOT_H, heading, "no finite points"));
@@ -318,10 +333,24 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
             let (px, py) = (x.at(*xv), y.at(c.load_factor));
             svg.marker(Shape::Circle, px, py, 8.0, INK, false, "crit");
             if !labelled {
-                // Above the ring, unless that leaves the frame.
-                let dy = if py - 14.0 > f.top + 12.0 { -14.0 } else { 22.0 };
-                let anchor = if px > f.left + 0.7 * f.width { Anchor::End } else { Anchor::Start };
-                let dx = if matches!(anchor, Anchor::End) { -10.0 } else { 10.0 };
+                // Centred on the outer side of the turn (room was left
+                // there), unless that leaves the frame.
+                let below = crit_below(results, c);
+                let dy = match below {
+                    true if py + 22.0 < f.bottom() - 4.0 => 22.0,
+                    false if py - 14.0 > f.top + 12.0 => -14.0,
+                    true => -14.0,
+                    false => 22.0,
+                };
+                // A path that goes on through the point (a bifurcation)
+                // keeps its label beside the ring instead.
+                let (anchor, dx) = if px > f.left + 0.85 * f.width || (!turn(c) && px > f.left + 0.7 * f.width) {
+                    (Anchor::End, -10.0)
+                } else if px < f.left + 0.15 * f.width || !turn(c) {
+                    (Anchor::Start, 10.0)
+                } else {
+                    (Anchor::Middle, 0.0)
+                };
                 svg.text_halo(px + dx, py + dy, &format!("{} λ = {:.4}", c.kind, c.load_factor), 11.5, anchor, "crit-label");
                 labelled = true;
             }
