@@ -4,9 +4,10 @@
 
 pub mod dofs;
 pub mod gather;
+pub mod member_table;
 pub mod pattern;
 pub mod system;
 
 pub use dofs::DofMap;
 pub use pattern::Pattern;
-pub use system::{MemberResult, System};
+pub use system::{MemberResult, System, SystemMemory};

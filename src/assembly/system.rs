@@ -18,6 +18,7 @@
 
 use super::dofs::{DofMap, FIXED};
 use super::gather::{Gather, sym_index};
+use super::member_table::MemberTable;
 use super::pattern::Pattern;
 use crate::element::{AxialState, Bar, Catenary};
 use crate::model::{MemberKind, Model, RestSpec, SelfWeight, StrainMeasure};
@@ -56,30 +57,6 @@ impl Clone for Scratch {
     }
 }
 
-/// One member's kernel.
-#[derive(Clone, Copy, Debug)]
-enum Element {
-    Bar(Bar),
-    Catenary(Catenary),
-}
-
-impl Element {
-    #[inline]
-    fn state(&self, du: &[f64; 3], strain: StrainMeasure) -> AxialState {
-        match self {
-            Element::Bar(b) => b.state(du, strain),
-            Element::Catenary(c) => c.state(du),
-        }
-    }
-
-    fn rest(&self) -> f64 {
-        match self {
-            Element::Bar(b) => b.rest,
-            Element::Catenary(c) => c.rest,
-        }
-    }
-}
-
 /// A load on a supported direction: it goes straight into the reaction.
 #[derive(Clone, Copy, Debug)]
 struct SupportLoad {
@@ -107,6 +84,21 @@ struct GroundSpring {
     k: f64,
 }
 
+/// Bytes of a system's arrays, by what they hold (see [`System::memory`]).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct SystemMemory {
+    pub pattern: usize,
+    pub gather: usize,
+    pub members: usize,
+    pub buffers: usize,
+}
+
+impl SystemMemory {
+    pub fn total(&self) -> usize {
+        self.pattern + self.gather + self.members + self.buffers
+    }
+}
+
 /// Norms that come with a residual evaluation.
 #[derive(Clone, Copy, Debug, Default)]
 pub struct ResidualNorms {
@@ -121,8 +113,8 @@ pub struct System {
     pub dofs: DofMap,
     pub pattern: Pattern,
     pub strain: StrainMeasure,
-    /// The member kernels.
-    bars: Vec<Element>,
+    /// The member kernels' data, one row per member.
+    members: MemberTable,
     ends: Vec<[u32; 2]>,
     springs: Vec<GroundSpring>,
     /// Reference load on the free DOFs, N.
@@ -153,9 +145,10 @@ pub struct BuildError {
 impl System {
     pub fn new(model: &Model) -> Result<System, BuildError> {
         let dofs = DofMap::new(model);
-        let pattern = Pattern::new(model, &dofs);
+        let pattern = Pattern::new(model, &dofs)
+            .map_err(|e| BuildError { member: String::new(), message: e.to_string() })?;
         let strain = model.analysis.strain;
-        let mut bars = Vec::with_capacity(model.n_members());
+        let mut members = MemberTable::with_capacity(model.n_members());
         // Self-weight lumped to the nodes, 3 per node, before splitting into
         // free and supported directions.
         let mut dead_nodal = vec![0.0; 3 * model.n_nodes()];
@@ -192,11 +185,11 @@ impl System {
                 SelfWeight::None => 0.0,
                 _ => section.weight.unwrap_or(0.0),
             };
-            bars.push(if member.kind == MemberKind::Catenary {
-                Element::Catenary(Catenary::new(d, rest, ea, weight))
+            if member.kind == MemberKind::Catenary {
+                members.push_catenary(Catenary::new(d, rest, ea, weight));
             } else {
-                Element::Bar(Bar::with_rest_length(d, rest, ea, cable))
-            });
+                members.push_bar(Bar::with_rest_length(d, rest, ea, cable));
+            }
             ends.push([i as u32, j as u32]);
             let dead = member.kind == MemberKind::Catenary || model.analysis.self_weight == SelfWeight::Dead;
             let lumped = if dead { &mut dead_nodal } else { &mut ref_nodal };
@@ -235,13 +228,13 @@ impl System {
             member: String::new(),
             message: "the model is too large for the 32-bit assembly lists (over 350 million members)".into(),
         })?;
-        let n = bars.len();
+        let n = members.len();
         let scratch = Scratch(Mutex::new(MemberBuffers { f: vec![[0.0; 3]; n], k: vec![[0.0; 6]; n] }));
         Ok(System {
             dofs,
             pattern,
             strain,
-            bars,
+            members,
             ends,
             springs,
             f_ref,
@@ -290,12 +283,12 @@ impl System {
     }
 
     pub fn n_members(&self) -> usize {
-        self.bars.len()
+        self.members.len()
     }
 
     /// Unstressed length of each member, m.
     pub fn rest_lengths(&self) -> impl Iterator<Item = f64> + '_ {
-        self.bars.iter().map(Element::rest)
+        self.members.rest_lengths().iter().copied()
     }
 
     /// A fresh value array for the tangent pattern.
@@ -320,7 +313,7 @@ impl System {
 
     #[inline]
     fn member_state(&self, u: &[f64], m: usize) -> AxialState {
-        self.bars[m].state(&self.end_difference(u, m), self.strain)
+        self.members.state(m, &self.end_difference(u, m), self.strain)
     }
 
     /// Evaluates r(u, λ) into `r` (free DOFs) and the support reactions into
@@ -400,7 +393,7 @@ impl System {
                 }
             });
             for s in &self.springs {
-                kv[self.pattern.diag_slot[s.dof]] += s.k;
+                kv[self.pattern.diag_slot[s.dof] as usize] += s.k;
             }
         }
         drop(guard);
@@ -425,14 +418,22 @@ impl System {
         ResidualNorms { residual, force_scale: load2.sqrt() + react }
     }
 
-    /// Bytes of the assembly's own arrays (gather lists and member buffers).
-    pub fn assembly_bytes(&self) -> usize {
-        self.gather.bytes() + self.bars.len() * (3 + 6) * 8
+    /// Bytes of the system's index and member arrays: the pattern with its
+    /// scatter map, the gather lists, the member table with the member ends,
+    /// and the per-member result buffers (what grows with the model besides
+    /// the vectors of length n and the factor).
+    pub fn memory(&self) -> SystemMemory {
+        SystemMemory {
+            pattern: self.pattern.bytes(),
+            gather: self.gather.bytes(),
+            members: self.members.bytes() + std::mem::size_of_val(self.ends.as_slice()),
+            buffers: self.members.len() * (3 + 6) * 8,
+        }
     }
 
     /// Force, strain, length and slack state of every member at `u`.
     pub fn member_results(&self, u: &[f64]) -> Vec<MemberResult> {
-        (0..self.bars.len())
+        (0..self.members.len())
             .into_par_iter()
             .map(|m| {
                 let st = self.member_state(u, m);
@@ -443,7 +444,7 @@ impl System {
 
     /// Indices of the members that carry no tension at `u` (slack cables).
     pub fn slack_members(&self, u: &[f64]) -> Vec<u32> {
-        (0..self.bars.len()).filter(|&m| self.member_state(u, m).slack).map(|m| m as u32).collect()
+        (0..self.members.len()).filter(|&m| self.member_state(u, m).slack).map(|m| m as u32).collect()
     }
 
     /// Force each spring exerts on the structure, N (−k·u), with its node DOF.
@@ -456,8 +457,8 @@ impl System {
         y.fill(0.0);
         let p = &self.pattern;
         for c in 0..p.n {
-            for s in p.col_ptr[c]..p.col_ptr[c + 1] {
-                let r = p.row_idx[s];
+            for s in p.column(c) {
+                let r = p.row_idx[s] as usize;
                 let v = k_values[s];
                 y[r] += v * x[c];
                 if r != c {
@@ -490,6 +491,22 @@ mod tests {
     fn dome() -> Model {
         let g = lattice_dome(&DomeOptions { rings: 6, sectors: 16, ..DomeOptions::default() }, "dome").unwrap();
         crate::model::load_str(&g.toml, "dome.toml", None).unwrap()
+    }
+
+    /// The net with every seventh member an elastic catenary (1.002 times
+    /// its chord, weighted), so catenary rows sit between cable rows.
+    fn net_with_catenaries() -> Model {
+        let mut m = net(14, 500.0);
+        m.analysis.self_weight = SelfWeight::Dead;
+        for s in &mut m.sections {
+            s.weight = Some(40.0);
+        }
+        for k in (3..m.members.len()).step_by(7) {
+            let l = m.member_length(k);
+            m.members[k].kind = MemberKind::Catenary;
+            m.members[k].rest = RestSpec::Length(1.002 * l);
+        }
+        m
     }
 
     /// A displacement with no symmetry, large enough to stretch and slacken members.
@@ -548,20 +565,21 @@ mod tests {
         }
         for s in &sys.springs {
             r[s.dof] += s.k * u[s.dof];
-            k[sys.pattern.diag_slot[s.dof]] += s.k;
+            k[sys.pattern.diag_slot[s.dof] as usize] += s.k;
         }
-        for (ri, fi) in r.iter_mut().zip(&sys.f_ref) {
-            *ri -= 0.7 * fi;
+        for ((ri, fi), fd) in r.iter_mut().zip(&sys.f_ref).zip(&sys.f_dead) {
+            *ri -= 0.7 * fi + sys.dead_factor * fd;
         }
         (r, k)
     }
 
     /// Residual, reactions and tangent values are bit-identical on 1, 2 and 3
     /// threads, and equal to the serial member-by-member scatter, for a cable
-    /// net (some cables slack at this displacement) and a bar dome.
+    /// net (some cables slack at this displacement), the net with catenaries
+    /// among its cables, and a bar dome.
     #[test]
     fn assembly_is_bit_identical_on_any_thread_count() {
-        for m in [net(14, 500.0), dome()] {
+        for m in [net(14, 500.0), net_with_catenaries(), dome()] {
             let sys = System::new(&m).unwrap();
             let u = wobble(sys.n_free(), 0.05);
             let one = assemble_on(1, &sys, m.n_nodes(), &u);

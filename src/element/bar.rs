@@ -53,6 +53,15 @@ pub struct AxialState {
     pub k: [[f64; 3]; 3],
 }
 
+impl AxialState {
+    /// A member that carries no tension (a slack cable or catenary): zero
+    /// force and a zero tangent block. Its matrix slots stay in the pattern
+    /// as explicit zeros.
+    pub fn slack(length: f64, strain: f64) -> AxialState {
+        AxialState { length, strain, slack: true, ..AxialState::default() }
+    }
+}
+
 fn dot(a: &[f64; 3], b: &[f64; 3]) -> f64 {
     a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
 }
@@ -120,17 +129,16 @@ impl Bar {
         let l2 = dot(&x, &x);
         let l = l2.sqrt();
         let lr = self.rest;
-        let mut st = AxialState { length: l, ..AxialState::default() };
         if self.cable && stretch2 <= 0.0 {
-            // A slack cable: no force, no stiffness. Its matrix slots stay in
-            // the pattern as explicit zeros.
-            st.slack = true;
-            st.strain = match strain {
-                StrainMeasure::Green => stretch2 / (2.0 * lr * lr),
-                StrainMeasure::Engineering => stretch2 / ((l + lr) * lr),
-            };
-            return st;
+            return AxialState::slack(
+                l,
+                match strain {
+                    StrainMeasure::Green => stretch2 / (2.0 * lr * lr),
+                    StrainMeasure::Engineering => stretch2 / ((l + lr) * lr),
+                },
+            );
         }
+        let mut st = AxialState { length: l, ..AxialState::default() };
         match strain {
             StrainMeasure::Green => {
                 let e = stretch2 / (2.0 * lr * lr);

@@ -47,6 +47,9 @@
 //! only when weightless and shorter than L0, or vertical and too short to
 //! hang straight.
 
+use super::{AxialState, Bar};
+use crate::model::StrainMeasure;
+
 /// The data of one catenary member, precomputed once.
 #[derive(Clone, Copy, Debug)]
 pub struct Catenary {
@@ -236,13 +239,13 @@ impl Catenary {
 
     /// Internal force (antisymmetric part, on node j) and tangent block for
     /// the end displacement difference `du` (node j minus node i).
-    pub fn state(&self, du: &[f64; 3]) -> super::AxialState {
+    pub fn state(&self, du: &[f64; 3]) -> AxialState {
         let x = [self.d[0] + du[0], self.d[1] + du[1], self.d[2] + du[2]];
         let chord = (x[0] * x[0] + x[1] * x[1] + x[2] * x[2]).sqrt();
-        let mut st = super::AxialState { length: chord, ..Default::default() };
         if self.w == 0.0 {
-            return self.weightless(du, &x, chord, st);
+            return self.weightless(du);
         }
+        let mut st = AxialState { length: chord, ..Default::default() };
         let span = x[0].hypot(x[1]);
         // A is the lower end: node i when x_z ≥ 0, else node j (then P and
         // the coupling K12 change sign; H and the rest do not).
@@ -250,9 +253,7 @@ impl Catenary {
         let sol = self.solve(span, sign * x[2]);
         let vertical = span <= VERTICAL * self.rest.max(chord);
         if vertical && !sol.converged {
-            st.slack = true;
-            st.strain = (chord - self.rest) / self.rest;
-            return st;
+            return AxialState::slack(chord, (chord - self.rest) / self.rest);
         }
         let big_w = self.weight();
         let t_upper = sol.h.hypot(sol.p + 0.5 * big_w);
@@ -281,36 +282,17 @@ impl Catenary {
         st
     }
 
-    /// w = 0: the tension-only bar with engineering strain, T = EA(l − L0)/L0.
-    fn weightless(&self, du: &[f64; 3], x: &[f64; 3], chord: f64, mut st: super::AxialState) -> super::AxialState {
-        let d = &self.d;
-        let stretch2 = self.c0 + 2.0 * (d[0] * du[0] + d[1] * du[1] + d[2] * du[2]) + (du[0] * du[0] + du[1] * du[1] + du[2] * du[2]);
-        let eps = stretch2 / ((chord + self.rest) * self.rest);
-        st.strain = eps;
-        if stretch2 <= 0.0 || chord == 0.0 {
-            st.slack = true;
-            return st;
-        }
-        let n = self.ea * eps;
-        let nv = [x[0] / chord, x[1] / chord, x[2] / chord];
-        let (km, kg) = (self.ea / self.rest, n / chord);
-        st.force = n;
-        for r in 0..3 {
-            st.f[r] = n * nv[r];
-            for c in 0..3 {
-                let nn = nv[r] * nv[c];
-                st.k[r][c] = km * nn + kg * (if r == c { 1.0 } else { 0.0 } - nn);
-            }
-        }
-        st
+    /// w = 0: the tension-only bar with engineering strain, T = EA(l − L0)/L0
+    /// (the bar kernel itself, so the two cannot drift apart).
+    fn weightless(&self, du: &[f64; 3]) -> AxialState {
+        let bar = Bar { d: self.d, rest: self.rest, c0: self.c0, ea: self.ea, cable: true };
+        bar.state(du, StrainMeasure::Engineering)
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::element::Bar;
-    use crate::model::StrainMeasure;
 
     struct Lcg(u64);
     impl Lcg {

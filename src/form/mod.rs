@@ -182,13 +182,10 @@ pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, Form
             row_idx.extend_from_slice(&rows);
             col_ptr.push(row_idx.len());
         }
-        let slot_of = |r: usize, c: usize| -> Option<usize> {
-            let (r, c) = if r <= c { (r, c) } else { (c, r) };
-            let col = &row_idx[col_ptr[c]..col_ptr[c + 1]];
-            col.binary_search(&r).ok().map(|p| col_ptr[c] + p)
-        };
-        let diag_slot: Vec<usize> = (0..n).map(|d| col_ptr[d + 1] - 1).collect();
-        let mut values = vec![0.0; row_idx.len()];
+        let pattern =
+            Pattern::from_upper_csc(n, &col_ptr, &row_idx).map_err(|e| FormError::Linalg(e.to_string()))?;
+        let diag_slot = |d: usize| pattern.diag_slot[d] as usize;
+        let mut values = vec![0.0; pattern.nnz()];
         let mut rhs = vec![0.0; n];
         for l in &model.loads {
             for a in 0..3 {
@@ -207,15 +204,15 @@ pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, Form
             for a in 0..3 {
                 let (di, dj) = (index[3 * i + a], index[3 * j + a]);
                 if di != NONE {
-                    values[diag_slot[di]] += qm;
+                    values[diag_slot(di)] += qm;
                 }
                 if dj != NONE {
-                    values[diag_slot[dj]] += qm;
+                    values[diag_slot(dj)] += qm;
                 }
                 match (di != NONE, dj != NONE) {
                     (true, true) => {
-                        if let Some(s) = slot_of(di, dj) {
-                            values[s] -= qm;
+                        if let Some(s) = pattern.slot(di, dj) {
+                            values[s as usize] -= qm;
                         }
                     }
                     (true, false) => rhs[di] += qm * model.nodes[j].at[a],
@@ -224,19 +221,12 @@ pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, Form
                 }
             }
         }
-        let pattern = Pattern {
-            n,
-            col_ptr: col_ptr.clone(),
-            row_idx: row_idx.clone(),
-            member_slots: Vec::new(),
-            diag_slot,
-        };
         let mut ldlt =
             Ldlt::new(&pattern, faer::Par::Seq).map_err(|e| FormError::Linalg(e.to_string()))?;
         let inertia = ldlt.factorize(&pattern, &values);
         if let Some(&d) = inertia.zero_dofs.first() {
             let (k, a) = owner[d];
-            let reason = if values[pattern.diag_slot[d]] == 0.0 {
+            let reason = if values[diag_slot(d)] == 0.0 {
                 "the force densities of its members add up to zero"
             } else {
                 "the force densities leave it (or a part of the net around it) without a \

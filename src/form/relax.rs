@@ -209,8 +209,8 @@ impl Dynamics for Analysis<'_> {
         let p = &self.system.pattern;
         row.fill(0.0);
         for c in 0..p.n {
-            for s in p.col_ptr[c]..p.col_ptr[c + 1] {
-                let i = p.row_idx[s];
+            for s in p.column(c) {
+                let i = p.row_idx[s] as usize;
                 let a = self.k_values[s].abs();
                 row[i] += a;
                 if i != c {

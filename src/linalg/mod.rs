@@ -2,6 +2,12 @@
 //! talks to faer. The symbolic analysis (AMD ordering, elimination tree,
 //! supernodes) runs once per pattern; each refactorization is numeric only.
 //!
+//! Indices go to faer as u32, as the pattern stores them (faer's symbolic
+//! and numeric LDLᵀ are generic over the index type): no usize copy of the
+//! pattern is made, and the symbolic factor's own index arrays are u32 too.
+//! A factor with more entries than u32 indices hold is refused at the
+//! symbolic analysis with [`LinalgError::Analysis`].
+//!
 //! Every factorization reports its inertia (the number of negative pivots of
 //! D, by Sylvester's law of inertia the number of negative eigenvalues of K):
 //! it is how limit points and bifurcations are seen.
@@ -60,7 +66,7 @@ impl std::error::Error for LinalgError {}
 /// tangent.
 pub struct Ldlt {
     n: usize,
-    symbolic: SymbolicCholesky<usize>,
+    symbolic: SymbolicCholesky<u32>,
     l_values: Vec<f64>,
     factor_mem: MemBuffer,
     solve_mem: MemBuffer,
@@ -71,7 +77,7 @@ pub struct Ldlt {
     pub n_factorizations: usize,
 }
 
-fn symbolic_view(p: &Pattern) -> SymbolicSparseColMatRef<'_, usize> {
+fn symbolic_view(p: &Pattern) -> SymbolicSparseColMatRef<'_, u32> {
     SymbolicSparseColMatRef::new_checked(p.n, p.n, &p.col_ptr, None, &p.row_idx)
 }
 
@@ -84,7 +90,14 @@ impl Ldlt {
             SymmetricOrdering::Amd,
             CholeskySymbolicParams::default(),
         )
-        .map_err(|e| LinalgError::Analysis(format!("{e:?}")))?;
+        .map_err(|e| match e {
+            faer::sparse::FaerError::IndexOverflow => LinalgError::Analysis(
+                "the factor of this tangent needs more entries than 32-bit indices hold; \
+                 the model is too large for tautline's factorization"
+                    .into(),
+            ),
+            e => LinalgError::Analysis(format!("{e:?}")),
+        })?;
         let factor_mem = MemBuffer::try_new(
             symbolic.factorize_numeric_ldlt_scratch::<f64>(par, Spec::<LdltParams, f64>::default()),
         )
@@ -123,7 +136,7 @@ impl Ldlt {
     /// whose solves amplify the null direction (for mechanism and mode
     /// detection by inverse iteration).
     pub fn factorize_regularized(&mut self, pattern: &Pattern, k_values: &[f64]) -> Inertia {
-        let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s].abs()).fold(0.0, f64::max);
+        let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s as usize].abs()).fold(0.0, f64::max);
         let signs = vec![1i8; self.n];
         self.factorize_with(pattern, k_values, Some((signs, max_diag)))
     }
@@ -177,7 +190,7 @@ impl Ldlt {
 
     fn original_index(&self, permuted: usize) -> usize {
         match self.symbolic.perm() {
-            Some(p) => p.arrays().0[permuted],
+            Some(p) => p.arrays().0[permuted] as usize,
             None => permuted,
         }
     }
@@ -193,7 +206,7 @@ impl Ldlt {
                 for (j, dj) in d.iter_mut().enumerate() {
                     // The first entry of each column of L is its diagonal, which
                     // holds d_j (L has a unit diagonal that is not stored).
-                    *dj = vals[col_ptr[j]];
+                    *dj = vals[col_ptr[j] as usize];
                 }
             }
             SymbolicCholeskyRaw::Supernodal(s) => {
@@ -212,11 +225,11 @@ impl Ldlt {
     }
 
     fn inertia(&self, pattern: &Pattern, k_values: &[f64]) -> Inertia {
-        let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s].abs()).fold(0.0, f64::max);
+        let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s as usize].abs()).fold(0.0, f64::max);
         let mut inertia = Inertia::default();
         for (j, dj) in self.pivots().into_iter().enumerate() {
             let dof = self.original_index(j);
-            let kjj = k_values[pattern.diag_slot[dof]].abs();
+            let kjj = k_values[pattern.diag_slot[dof] as usize].abs();
             let scale = if kjj > ZERO_PIVOT_RATIO * max_diag { kjj } else { max_diag };
             if !(dj.abs() > ZERO_PIVOT_RATIO * scale) {
                 inertia.zero_dofs.push(dof);

@@ -3,7 +3,7 @@
 //! Each run is a child process (`tautline bench-run`), so its peak memory
 //! (VmHWM) is its own. The figures printed are wall time, numeric
 //! factorizations, corrector iterations, residual evaluations, peak memory,
-//! the time of one (warm) factorization of the initial tangent and the path's time
+//! the bytes of the system's pattern, gather lists and member arrays, the time of one (warm) factorization of the initial tangent and the path's time
 //! as a multiple of it, the time of one assembly of residual and tangent on
 //! one and on two threads (and their ratio), residual evaluations per second,
 //! the largest change of a cable force along the path, and the largest
@@ -127,7 +127,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     println!(
         "dofs={} nnz={} factor_nnz={} stop={} seconds={seconds:.3} symbolic={symbolic_s:.3} factor={factor_s:.3} \
          iterations={} factorizations={} evaluations={} max_force_change={max_change:.3} peak={} \
-         threads={} assembly1={assembly_1:.5} assembly2={assembly_2:.5} residuals_per_s={:.1}",
+         system_bytes={} threads={} assembly1={assembly_1:.5} assembly2={assembly_2:.5} residuals_per_s={:.1}",
         system.n_free(),
         system.pattern.nnz(),
         ws.h.ldlt.factor_nnz(),
@@ -136,6 +136,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         facs + w.factorizations,
         evals + w.residual_evaluations,
         peak_memory(),
+        system.memory().total(),
         rayon::current_num_threads(),
         1.0 / residual_s
     );
@@ -167,8 +168,8 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
     std::fs::create_dir_all(&dir).map_err(|e| Failure::Internal(e.into()))?;
     println!("threads: {} (assembly also timed on 1 and 2)", rayon::current_num_threads());
     println!(
-        "{:>8} {:>16} {:>9} {:>6} {:>6} {:>6} {:>8} {:>8} {:>7} {:>8} {:>8} {:>5} {:>6} {:>9} {:>9} {:>9}",
-        "DOF", "method", "time s", "facts", "iters", "evals", "peak MB", "1 fac s", "×fac", "asm1 ms", "asm2 ms",
+        "{:>8} {:>16} {:>9} {:>6} {:>6} {:>6} {:>8} {:>7} {:>8} {:>7} {:>8} {:>8} {:>5} {:>6} {:>9} {:>9} {:>9}",
+        "DOF", "method", "time s", "facts", "iters", "evals", "peak MB", "sys MB", "1 fac s", "×fac", "asm1 ms", "asm2 ms",
         "×2", "asm%", "res/s", "ΔN max", "Δu/|u|"
     );
     for &target in &a.dofs {
@@ -222,12 +223,13 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
             let secs: f64 = field(&line, "seconds").parse().unwrap_or(f64::NAN);
             let fac: f64 = field(&line, "factor").parse().unwrap_or(f64::NAN);
             let peak: f64 = field(&line, "peak").parse::<f64>().unwrap_or(0.0) / 1e6;
+            let sys: f64 = field(&line, "system_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e6;
             let asm1: f64 = field(&line, "assembly1").parse().unwrap_or(f64::NAN);
             let asm2: f64 = field(&line, "assembly2").parse().unwrap_or(f64::NAN);
             let asm_here = if field(&line, "threads") == "1" { asm1 } else { asm2 };
             let rate: f64 = field(&line, "residuals_per_s").parse().unwrap_or(f64::NAN);
             println!(
-                "{:>8} {:>16} {:>9.2} {:>6} {:>6} {:>6} {:>8.0} {:>8.3} {:>7.1} {:>8.1} {:>8.1} {:>5.2} {:>6.1} {:>9.0} {:>9} {:>9}{}",
+                "{:>8} {:>16} {:>9.2} {:>6} {:>6} {:>6} {:>8.0} {:>7.1} {:>8.3} {:>7.1} {:>8.1} {:>8.1} {:>5.2} {:>6.1} {:>9.0} {:>9} {:>9}{}",
                 field(&line, "dofs"),
                 method,
                 secs,
@@ -235,6 +237,7 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 field(&line, "iterations"),
                 field(&line, "evaluations"),
                 peak,
+                sys,
                 fac,
                 secs / fac,
                 1e3 * asm1,
