@@ -125,6 +125,38 @@ pub struct AnalysisEntry {
     pub pinpoint: Option<Spanned<bool>>,
     pub start_load_factor: Option<Spanned<f64>>,
     pub self_weight: Option<Spanned<String>>,
+    pub keep_fields: Option<Spanned<KeepFieldsEntry>>,
+}
+
+/// `keep_fields`: a policy name or an array of step numbers, as written.
+#[derive(Clone, Debug)]
+pub enum KeepFieldsEntry {
+    Name(String),
+    /// Read as signed integers so that `-1` gets a clear message.
+    Steps(Vec<Spanned<i64>>),
+}
+
+impl<'de> Deserialize<'de> for KeepFieldsEntry {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Visit;
+        impl<'de> serde::de::Visitor<'de> for Visit {
+            type Value = KeepFieldsEntry;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("\"auto\", \"all\", \"ends\", \"none\" or an array of step numbers")
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> Result<Self::Value, E> {
+                Ok(KeepFieldsEntry::Name(v.to_string()))
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<Self::Value, A::Error> {
+                let mut steps = Vec::new();
+                while let Some(s) = seq.next_element::<Spanned<i64>>()? {
+                    steps.push(s);
+                }
+                Ok(KeepFieldsEntry::Steps(steps))
+            }
+        }
+        d.deserialize_any(Visit)
+    }
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -274,6 +306,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("pinpoint", "pinpoint = true"),
         key("start_load_factor", "start_load_factor = 0.0"),
         key("self_weight", "self_weight = \"dead\""),
+        key("keep_fields", "keep_fields = \"auto\""),
     ],
 };
 

@@ -276,6 +276,75 @@ impl Control {
     }
 }
 
+/// Free DOFs up to which `keep_fields = "auto"` keeps every step's field;
+/// above it, only the ends and critical steps. At 30,000 DOFs a field is
+/// 240 kB in memory and 10,000 rows of `fields.csv`, so the default 200
+/// steps stay under 50 MB and 2 million rows (a choice of this project, no
+/// source).
+pub const AUTO_ALL_FIELDS_MAX_DOFS: usize = 30_000;
+
+/// Which converged steps keep their whole displacement field for
+/// `fields.csv` (`keep_fields`).
+#[derive(Clone, Debug, PartialEq, Eq, Default)]
+pub enum KeepFields {
+    /// `All` up to [`AUTO_ALL_FIELDS_MAX_DOFS`] free DOFs, else `Ends`.
+    #[default]
+    Auto,
+    /// Every converged step.
+    All,
+    /// Step 0, the last converged step, and the converged step at or after
+    /// each change of the tangent's negative pivot count (a critical point),
+    /// plus each pinpointed critical state.
+    Ends,
+    /// No field.
+    None,
+    /// These steps, ascending, without repeats; steps never reached are
+    /// simply absent.
+    Steps(Vec<usize>),
+}
+
+impl KeepFields {
+    pub const NAMES: [&'static str; 4] = ["auto", "all", "ends", "none"];
+
+    pub fn parse(s: &str) -> Option<KeepFields> {
+        Some(match s {
+            "auto" => KeepFields::Auto,
+            "all" => KeepFields::All,
+            "ends" => KeepFields::Ends,
+            "none" => KeepFields::None,
+            _ => return None,
+        })
+    }
+
+    /// A list of steps, sorted and without repeats.
+    pub fn steps(mut steps: Vec<usize>) -> KeepFields {
+        steps.sort_unstable();
+        steps.dedup();
+        KeepFields::Steps(steps)
+    }
+
+    /// The policy for a system of `n_free` free DOFs: `Auto` becomes `All`
+    /// or `Ends`; the others stay.
+    pub fn resolve(&self, n_free: usize) -> KeepFields {
+        match self {
+            KeepFields::Auto if n_free <= AUTO_ALL_FIELDS_MAX_DOFS => KeepFields::All,
+            KeepFields::Auto => KeepFields::Ends,
+            other => other.clone(),
+        }
+    }
+
+    /// `"auto"`, `"all"`, `"ends"`, `"none"`, or `"list"` for a list of steps.
+    pub fn name(&self) -> &'static str {
+        match self {
+            KeepFields::Auto => "auto",
+            KeepFields::All => "all",
+            KeepFields::Ends => "ends",
+            KeepFields::None => "none",
+            KeepFields::Steps(_) => "list",
+        }
+    }
+}
+
 /// The `[analysis]` table, in SI.
 #[derive(Clone, Debug)]
 pub struct Analysis {
@@ -326,6 +395,8 @@ pub struct Analysis {
     pub arc_variant_normal_plane: bool,
     /// How section weights are applied (`self_weight`).
     pub self_weight: SelfWeight,
+    /// Steps whose whole displacement field is kept (`keep_fields`).
+    pub keep_fields: KeepFields,
 }
 
 impl Default for Analysis {
@@ -355,6 +426,7 @@ impl Default for Analysis {
             pinpoint: true,
             start_load_factor: 0.0,
             self_weight: SelfWeight::Dead,
+            keep_fields: KeepFields::Auto,
         }
     }
 }

@@ -149,6 +149,10 @@ pub struct Overrides {
     /// Largest number of steps
     #[arg(long = "max-steps")]
     pub max_steps: Option<usize>,
+    /// Steps whose whole displacement field goes to fields.csv: auto | all |
+    /// ends | none, or step numbers separated by commas (e.g. 0,5,10)
+    #[arg(long = "keep-fields", value_name = "POLICY")]
+    pub keep_fields: Option<String>,
     /// Watched displacement NODE.DIR (repeatable; replaces the model's watch list)
     #[arg(long = "watch", value_name = "NODE.DIR")]
     pub watch: Vec<String>,
