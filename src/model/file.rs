@@ -306,7 +306,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("pinpoint", "pinpoint = true"),
         key("start_load_factor", "start_load_factor = 0.0"),
         key("self_weight", "self_weight = \"dead\""),
-        key("keep_fields", "keep_fields = \"auto\""),
+        key("keep_fields", "keep_fields = [0, 5, 10]"),
     ],
 };
 

@@ -560,3 +560,50 @@ impl Model {
         ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2) + (b[2] - a[2]).powi(2)).sqrt()
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn auto_keeps_all_steps_up_to_the_threshold_then_the_ends() {
+        let auto = KeepFields::Auto;
+        assert_eq!(auto.resolve(1), KeepFields::All);
+        assert_eq!(auto.resolve(AUTO_ALL_FIELDS_MAX_DOFS), KeepFields::All);
+        assert_eq!(auto.resolve(AUTO_ALL_FIELDS_MAX_DOFS + 1), KeepFields::Ends);
+        assert_eq!(auto.resolve(1_000_000), KeepFields::Ends);
+        // The other policies are what they say whatever the size.
+        for k in [KeepFields::All, KeepFields::Ends, KeepFields::None, KeepFields::steps(vec![3, 1])] {
+            assert_eq!(k.resolve(1), k);
+            assert_eq!(k.resolve(1_000_000), k);
+        }
+    }
+
+    #[test]
+    fn policy_names_and_step_lists() {
+        for name in KeepFields::NAMES {
+            assert_eq!(KeepFields::parse(name).map(|k| k.name()), Some(name));
+        }
+        assert_eq!(KeepFields::parse("end"), None);
+        assert_eq!(KeepFields::steps(vec![5, 0, 5, 2]), KeepFields::Steps(vec![0, 2, 5]));
+        assert_eq!(KeepFields::steps(vec![4]).name(), "list");
+    }
+
+    #[test]
+    fn keep_fields_survives_writing_the_model_back() {
+        let base = "[[section]]\nname = \"s\"\nEA = 1.0\n[[node]]\nid = \"A\"\nat = [0, 0, 0]\nfix = \"xyz\"\n\
+                    [[node]]\nid = \"B\"\nat = [1, 0, 0]\n[[member]]\nid = \"m\"\nkind = \"bar\"\nends = [\"A\", \"B\"]\n\
+                    section = \"s\"\n[analysis]\n";
+        for (line, want) in [
+            ("", KeepFields::Auto),
+            ("keep_fields = \"ends\"", KeepFields::Ends),
+            ("keep_fields = \"none\"", KeepFields::None),
+            ("keep_fields = [7, 0, 3]", KeepFields::Steps(vec![0, 3, 7])),
+        ] {
+            let m = load_str(&format!("{base}{line}\n"), "t.toml", None).expect("valid model");
+            assert_eq!(m.analysis.keep_fields, want, "{line}");
+            let again = load_str(&write::to_toml(&m), "formed.toml", None).expect("written model reads back");
+            assert_eq!(again.analysis.keep_fields, want, "{line} written back");
+        }
+    }
+}
