@@ -28,11 +28,26 @@ impl NodeLabels {
 }
 
 /// One row per node: `prefix`, the node, its three displacements in model
-/// length units (0 in supported directions).
+/// length units (0 in supported directions). Each row is formatted into one
+/// reused line and written with one call: formatting straight into the
+/// buffered file costs a call per piece.
 fn rows(w: &mut impl Write, prefix: &str, labels: &NodeLabels, dofs: &DofMap, u: &[f64], to_si: f64) -> io::Result<()> {
+    use std::fmt::Write as _;
+    let mut line = String::with_capacity(128);
     for (node, label) in labels.0.iter().enumerate() {
-        let [x, y, z] = std::array::from_fn(|a| dofs.displacement(u, node, a) / to_si);
-        writeln!(w, "{prefix}{label},{},{},{}", num(x), num(y), num(z))?;
+        line.clear();
+        line.push_str(prefix);
+        line.push_str(label);
+        for a in 0..3 {
+            match dofs.dof(node, a) {
+                Some(d) => {
+                    let _ = write!(line, ",{:?}", u[d] / to_si);
+                }
+                None => line.push_str(",0.0"),
+            }
+        }
+        line.push('\n');
+        w.write_all(line.as_bytes())?;
     }
     Ok(())
 }

@@ -250,6 +250,9 @@ pub struct BenchArgs {
     /// without slackening any cable of the default net
     #[arg(long, default_value_t = 60.0)]
     pub pressure: f64,
+    /// Steps whose fields the timed fields.csv holds: all | ends | none
+    #[arg(long = "keep-fields", default_value = "ends")]
+    pub keep_fields: String,
 }
 
 #[derive(Args, Debug, Clone)]
@@ -261,4 +264,6 @@ pub struct BenchRunArgs {
     pub u_out: PathBuf,
     #[arg(long)]
     pub check_every_step: bool,
+    #[arg(long = "keep-fields", default_value = "ends")]
+    pub keep_fields: String,
 }

@@ -71,9 +71,12 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     m.analysis.steps = a.steps;
     m.analysis.tolerance = a.tolerance;
     m.analysis.max_steps = 10 * a.steps;
-    // The policy a large model gets by default: the output files are timed
-    // below as `solve` would write them.
-    m.analysis.keep_fields = KeepFields::Ends;
+    // "ends" is what a large model gets by default; the output files are
+    // timed below as `solve` would write them.
+    m.analysis.keep_fields = match KeepFields::parse(&a.keep_fields) {
+        Some(k @ (KeepFields::All | KeepFields::Ends | KeepFields::None)) => k,
+        _ => return Err(Failure::BadInput(format!("--keep-fields {}: expected all, ends or none", a.keep_fields))),
+    };
     if method != Method::Newton && !a.check_every_step {
         // The lean quasi-Newton set-up: one factor carried across steps,
         // refactored only by the policy's guards.
@@ -203,6 +206,9 @@ fn read_u(path: &Path) -> Vec<f64> {
 }
 
 pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
+    if !["all", "ends", "none"].contains(&a.keep_fields.as_str()) {
+        return Err(Failure::BadInput(format!("--keep-fields {}: expected all, ends or none", a.keep_fields)));
+    }
     for m in &a.methods {
         if Method::parse(m).is_none() {
             return Err(Failure::BadInput(format!("--methods: unknown method {m}; expected {}", Method::NAMES.join(", "))));
@@ -246,6 +252,8 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 .arg(a.steps.to_string())
                 .arg(a.tolerance.to_string())
                 .arg(&u_out)
+                .arg("--keep-fields")
+                .arg(&a.keep_fields)
                 .output()
                 .map_err(|e| Failure::Internal(e.into()))?;
             let line = String::from_utf8_lossy(&out.stdout).to_string();
@@ -293,11 +301,12 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }
             );
             println!(
-                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"ends\": steps {}) {} rows, {:.1} MB in {} s",
+                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s",
                 "",
                 "",
                 field(&line, "json_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e3,
                 field(&line, "json_s"),
+                a.keep_fields,
                 field(&line, "fields_steps"),
                 field(&line, "fields_rows"),
                 field(&line, "fields_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e6,
