@@ -208,7 +208,11 @@ fn auto_keeps_only_the_ends_above_the_threshold() {
     // above tautline::model::AUTO_ALL_FIELDS_MAX_DOFS.
     let (code, stdout, stderr) = tautline(&["generate", "net", "--nx", "103", "--ny", "103", "-o", s(&model)]);
     assert_eq!(code, 0, "{stdout}{stderr}");
-    assert!(3 * 101 * 101 > tautline::model::AUTO_ALL_FIELDS_MAX_DOFS);
+    let (code, stdout, _) = tautline(&["check", s(&model)]);
+    assert_eq!(code, 0);
+    let free: usize = stdout.lines().find_map(|l| l.strip_prefix("free DOFs: ")).unwrap().trim().parse().unwrap();
+    assert_eq!(free, 3 * 101 * 101);
+    assert!(free > tautline::model::AUTO_ALL_FIELDS_MAX_DOFS, "{free} free DOFs");
     let out = sc.0.join("out");
     // Two small load steps keep the run short.
     let args = ["solve", s(&model), "-q", "-o", s(&out), "--steps", "2", "--target", "0.02"];

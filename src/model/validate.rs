@@ -1541,10 +1541,8 @@ fn analysis(
     }) {
         a.self_weight = sw;
     }
-    if let Some(v) = &e.keep_fields {
-        if let Some(k) = keep_fields(cx, t, v) {
-            a.keep_fields = k;
-        }
+    if let Some(k) = e.keep_fields.as_ref().and_then(|v| keep_fields(cx, t, v)) {
+        a.keep_fields = k;
     }
     let variants = ["cylindrical", "normal-plane"];
     if let Some(normal) = choice(cx, t, &e.arc_variant, "arc_variant", &variants, |s| match s {

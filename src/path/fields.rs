@@ -60,10 +60,10 @@ impl Keeper {
     /// state (`last`: its step, λ and displacements) is added unless it is
     /// already there.
     pub(super) fn finish(mut self, last: Option<(usize, f64, &[f64])>) -> (KeepFields, Vec<Field>) {
-        if let (KeepFields::Ends, Some((step, lambda, u))) = (&self.policy, last) {
-            if self.fields.last().is_none_or(|f| f.step != step) {
-                self.fields.push(Field { step, lambda, u: u.to_vec() });
-            }
+        if let (KeepFields::Ends, Some((step, lambda, u))) = (&self.policy, last)
+            && self.fields.last().is_none_or(|f| f.step != step)
+        {
+            self.fields.push(Field { step, lambda, u: u.to_vec() });
         }
         (self.policy, self.fields)
     }

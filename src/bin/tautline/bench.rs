@@ -8,6 +8,8 @@
 //! one and on two threads (and their ratio), residual evaluations per second,
 //! the largest change of a cable force along the path, and the largest
 //! difference of the final displacements from Newton's.
+//! A second line per run gives the size and write time of `results.json` and
+//! `fields.csv` (`--keep-fields`, default "ends") as `solve` writes them.
 
 use crate::args::{BenchArgs, BenchRunArgs};
 use crate::run::Failure;
@@ -63,6 +65,14 @@ fn assembly_time(system: &System, u: &[f64], n_nodes: usize, threads: usize) -> 
     })))
 }
 
+/// `bench --keep-fields`: a policy that does not depend on the net's size.
+fn keep_policy(s: &str) -> Result<KeepFields, Failure> {
+    match KeepFields::parse(s) {
+        Some(k @ (KeepFields::All | KeepFields::Ends | KeepFields::None)) => Ok(k),
+        _ => Err(Failure::BadInput(format!("--keep-fields {s}: expected all, ends or none"))),
+    }
+}
+
 /// One run, printed as one line of `key=value` pairs for the parent.
 pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     let mut m = model::load(&a.model).map_err(|e| Failure::BadInput(e.to_string()))?;
@@ -73,10 +83,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     m.analysis.max_steps = 10 * a.steps;
     // "ends" is what a large model gets by default; the output files are
     // timed below as `solve` would write them.
-    m.analysis.keep_fields = match KeepFields::parse(&a.keep_fields) {
-        Some(k @ (KeepFields::All | KeepFields::Ends | KeepFields::None)) => k,
-        _ => return Err(Failure::BadInput(format!("--keep-fields {}: expected all, ends or none", a.keep_fields))),
-    };
+    m.analysis.keep_fields = keep_policy(&a.keep_fields)?;
     if method != Method::Newton && !a.check_every_step {
         // The lean quasi-Newton set-up: one factor carried across steps,
         // refactored only by the policy's guards.
@@ -206,9 +213,7 @@ fn read_u(path: &Path) -> Vec<f64> {
 }
 
 pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
-    if !["all", "ends", "none"].contains(&a.keep_fields.as_str()) {
-        return Err(Failure::BadInput(format!("--keep-fields {}: expected all, ends or none", a.keep_fields)));
-    }
+    keep_policy(&a.keep_fields)?;
     for m in &a.methods {
         if Method::parse(m).is_none() {
             return Err(Failure::BadInput(format!("--methods: unknown method {m}; expected {}", Method::NAMES.join(", "))));
