@@ -32,7 +32,47 @@ pub struct Results {
     /// Every time a member went slack along the path, in step order.
     pub slack_events: Vec<SlackEvent>,
     pub mechanism: Option<MechanismOut>,
+    /// Where the whole displacement fields are (never inline here).
+    pub fields: FieldsOut,
     pub totals: Totals,
+}
+
+/// The sidecar files of whole displacement fields (`keep_fields`).
+#[derive(Clone, Debug, Serialize)]
+pub struct FieldsOut {
+    /// `fields.csv`: one row per node and kept step.
+    pub file: String,
+    /// The policy as resolved: "all", "ends", "none" or "list".
+    pub keep: String,
+    /// The steps in `file`, ascending.
+    pub steps: Vec<usize>,
+    /// Data rows of `file` (the header not counted).
+    pub rows: usize,
+    /// `critical_fields.csv`: the pinpointed critical states.
+    pub critical_file: String,
+    /// Indices into `critical_points` of the states in `critical_file`.
+    pub critical: Vec<usize>,
+    /// Data rows of `critical_file`.
+    pub critical_rows: usize,
+}
+
+/// Names of the two field files.
+pub const FIELDS_FILE: &str = "fields.csv";
+pub const CRITICAL_FIELDS_FILE: &str = "critical_fields.csv";
+
+/// What the field files of `path` hold.
+pub fn fields_out(model: &Model, path: &Path) -> FieldsOut {
+    let critical: Vec<usize> =
+        path.critical.iter().enumerate().filter(|(_, c)| c.field.is_some()).map(|(i, _)| i).collect();
+    FieldsOut {
+        file: FIELDS_FILE.into(),
+        keep: path.keep.name().into(),
+        steps: path.fields.iter().map(|f| f.step).collect(),
+        rows: path.fields.len() * model.n_nodes(),
+        critical_file: CRITICAL_FIELDS_FILE.into(),
+        critical_rows: critical.len() * model.n_nodes(),
+        critical,
+    }
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -448,6 +488,7 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             load_factor: m.lambda,
             moving: m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect(),
         }),
+        fields: fields_out(model, path),
         totals: Totals {
             iterations: iterations + wasted.iterations,
             factorizations: factorizations + wasted.factorizations,

@@ -2,10 +2,12 @@
 //! - `verification`: the main job checked against published or derived closed forms;
 //! - `properties`: solver facts that must hold on any model (equilibrium, method agreement);
 //! - `cli`: the command-line contract (exit codes, files, messages);
-//! - `catenary`: self-weight, the elastic catenary, the parabolic cable, slack reporting.
+//! - `catenary`: self-weight, the elastic catenary, the parabolic cable, slack reporting;
+//! - `fields`: `keep_fields` and the whole displacement fields in `fields.csv`.
 mod common;
 mod catenary;
 mod cli;
+mod fields;
 mod form;
 mod malformed;
 mod determinism;

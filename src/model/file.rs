@@ -126,6 +126,38 @@ pub struct AnalysisEntry {
     pub start_load_factor: Option<Spanned<f64>>,
     pub self_weight: Option<Spanned<String>>,
     pub load_predictor: Option<Spanned<String>>,
+    pub keep_fields: Option<Spanned<KeepFieldsEntry>>,
+}
+
+/// `keep_fields`: a policy name or an array of step numbers, as written.
+#[derive(Clone, Debug)]
+pub enum KeepFieldsEntry {
+    Name(String),
+    /// Read as signed integers so that `-1` gets a clear message.
+    Steps(Vec<Spanned<i64>>),
+}
+
+impl<'de> Deserialize<'de> for KeepFieldsEntry {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Visit;
+        impl<'de> serde::de::Visitor<'de> for Visit {
+            type Value = KeepFieldsEntry;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("\"auto\", \"all\", \"ends\", \"none\" or an array of step numbers")
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> Result<Self::Value, E> {
+                Ok(KeepFieldsEntry::Name(v.to_string()))
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<Self::Value, A::Error> {
+                let mut steps = Vec::new();
+                while let Some(s) = seq.next_element::<Spanned<i64>>()? {
+                    steps.push(s);
+                }
+                Ok(KeepFieldsEntry::Steps(steps))
+            }
+        }
+        d.deserialize_any(Visit)
+    }
 }
 
 #[derive(Clone, Debug, Default, Deserialize)]
@@ -276,6 +308,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("start_load_factor", "start_load_factor = 0.0"),
         key("self_weight", "self_weight = \"dead\""),
         key("load_predictor", "load_predictor = \"secant\""),
+        key("keep_fields", "keep_fields = [0, 5, 10]"),
     ],
 };
 

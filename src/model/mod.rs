@@ -276,6 +276,75 @@ impl Control {
     }
 }
 
+/// Free DOFs up to which `keep_fields = "auto"` keeps every step's field;
+/// above it, only the ends and critical steps. At 30,000 DOFs a field is
+/// 240 kB in memory and 10,000 rows of `fields.csv`, so the default 200
+/// steps stay under 50 MB and 2 million rows (a choice of this project, no
+/// source).
+pub const AUTO_ALL_FIELDS_MAX_DOFS: usize = 30_000;
+
+/// Which converged steps keep their whole displacement field for
+/// `fields.csv` (`keep_fields`).
+#[derive(Clone, Debug, PartialEq, Eq, Default)]
+pub enum KeepFields {
+    /// `All` up to [`AUTO_ALL_FIELDS_MAX_DOFS`] free DOFs, else `Ends`.
+    #[default]
+    Auto,
+    /// Every converged step.
+    All,
+    /// Step 0, the last converged step, and the converged step at or after
+    /// each change of the tangent's negative pivot count (a critical point),
+    /// plus each pinpointed critical state.
+    Ends,
+    /// No field.
+    None,
+    /// These steps, ascending, without repeats; steps never reached are
+    /// simply absent.
+    Steps(Vec<usize>),
+}
+
+impl KeepFields {
+    pub const NAMES: [&'static str; 4] = ["auto", "all", "ends", "none"];
+
+    pub fn parse(s: &str) -> Option<KeepFields> {
+        Some(match s {
+            "auto" => KeepFields::Auto,
+            "all" => KeepFields::All,
+            "ends" => KeepFields::Ends,
+            "none" => KeepFields::None,
+            _ => return None,
+        })
+    }
+
+    /// A list of steps, sorted and without repeats.
+    pub fn steps(mut steps: Vec<usize>) -> KeepFields {
+        steps.sort_unstable();
+        steps.dedup();
+        KeepFields::Steps(steps)
+    }
+
+    /// The policy for a system of `n_free` free DOFs: `Auto` becomes `All`
+    /// or `Ends`; the others stay.
+    pub fn resolve(&self, n_free: usize) -> KeepFields {
+        match self {
+            KeepFields::Auto if n_free <= AUTO_ALL_FIELDS_MAX_DOFS => KeepFields::All,
+            KeepFields::Auto => KeepFields::Ends,
+            other => other.clone(),
+        }
+    }
+
+    /// `"auto"`, `"all"`, `"ends"`, `"none"`, or `"list"` for a list of steps.
+    pub fn name(&self) -> &'static str {
+        match self {
+            KeepFields::Auto => "auto",
+            KeepFields::All => "all",
+            KeepFields::Ends => "ends",
+            KeepFields::None => "none",
+            KeepFields::Steps(_) => "list",
+        }
+    }
+}
+
 /// The `[analysis]` table, in SI.
 #[derive(Clone, Debug)]
 pub struct Analysis {
@@ -330,6 +399,8 @@ pub struct Analysis {
     /// displacement (`load_predictor = "secant"`) instead of the last state
     /// (`"none"`).
     pub load_predictor: bool,
+    /// Steps whose whole displacement field is kept (`keep_fields`).
+    pub keep_fields: KeepFields,
 }
 
 impl Default for Analysis {
@@ -360,6 +431,7 @@ impl Default for Analysis {
             start_load_factor: 0.0,
             self_weight: SelfWeight::Dead,
             load_predictor: true,
+            keep_fields: KeepFields::Auto,
         }
     }
 }
@@ -491,5 +563,52 @@ impl Model {
         let [i, j] = self.members[m].ends;
         let (a, b) = (self.nodes[i].at, self.nodes[j].at);
         ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2) + (b[2] - a[2]).powi(2)).sqrt()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn auto_keeps_all_steps_up_to_the_threshold_then_the_ends() {
+        let auto = KeepFields::Auto;
+        assert_eq!(auto.resolve(1), KeepFields::All);
+        assert_eq!(auto.resolve(AUTO_ALL_FIELDS_MAX_DOFS), KeepFields::All);
+        assert_eq!(auto.resolve(AUTO_ALL_FIELDS_MAX_DOFS + 1), KeepFields::Ends);
+        assert_eq!(auto.resolve(1_000_000), KeepFields::Ends);
+        // The other policies are what they say whatever the size.
+        for k in [KeepFields::All, KeepFields::Ends, KeepFields::None, KeepFields::steps(vec![3, 1])] {
+            assert_eq!(k.resolve(1), k);
+            assert_eq!(k.resolve(1_000_000), k);
+        }
+    }
+
+    #[test]
+    fn policy_names_and_step_lists() {
+        for name in KeepFields::NAMES {
+            assert_eq!(KeepFields::parse(name).map(|k| k.name()), Some(name));
+        }
+        assert_eq!(KeepFields::parse("end"), None);
+        assert_eq!(KeepFields::steps(vec![5, 0, 5, 2]), KeepFields::Steps(vec![0, 2, 5]));
+        assert_eq!(KeepFields::steps(vec![4]).name(), "list");
+    }
+
+    #[test]
+    fn keep_fields_survives_writing_the_model_back() {
+        let base = "[[section]]\nname = \"s\"\nEA = 1.0\n[[node]]\nid = \"A\"\nat = [0, 0, 0]\nfix = \"xyz\"\n\
+                    [[node]]\nid = \"B\"\nat = [1, 0, 0]\n[[member]]\nid = \"m\"\nkind = \"bar\"\nends = [\"A\", \"B\"]\n\
+                    section = \"s\"\n[analysis]\n";
+        for (line, want) in [
+            ("", KeepFields::Auto),
+            ("keep_fields = \"ends\"", KeepFields::Ends),
+            ("keep_fields = \"none\"", KeepFields::None),
+            ("keep_fields = [7, 0, 3]", KeepFields::Steps(vec![0, 3, 7])),
+        ] {
+            let m = load_str(&format!("{base}{line}\n"), "t.toml", None).expect("valid model");
+            assert_eq!(m.analysis.keep_fields, want, "{line}");
+            let again = load_str(&write::to_toml(&m), "formed.toml", None).expect("written model reads back");
+            assert_eq!(again.analysis.keep_fields, want, "{line} written back");
+        }
     }
 }

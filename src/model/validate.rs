@@ -14,12 +14,12 @@ use std::path::Path;
 use toml::Spanned;
 
 use super::file::{
-    AnalysisEntry, FormEntry, LineIndex, LostItems, MemberEntry, ModelFile, NodeEntry, Span,
+    AnalysisEntry, FormEntry, KeepFieldsEntry, LineIndex, LostItems, MemberEntry, ModelFile, NodeEntry, Span,
     UnitsEntry, lower_first,
 };
 use super::{
     Analysis, Axis, Control, Diagnostic, ForceUnit, FormMethod, FormSettings, FormTarget, LengthUnit,
-    Member, MemberKind, Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section,
+    KeepFields, Member, MemberKind, Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section,
     SelfWeight, Spring, StrainMeasure, Units,
 };
 use csv::{Cell, CsvReader};
@@ -1428,6 +1428,33 @@ fn choice<T>(
     parsed
 }
 
+/// `keep_fields`: a policy name, or step numbers from 0 to [`MAX_STEPS`].
+fn keep_fields(cx: &mut Ctx, t: &Toml, v: &Spanned<KeepFieldsEntry>) -> Option<KeepFields> {
+    match v.get_ref() {
+        KeepFieldsEntry::Name(name) => {
+            let parsed = KeepFields::parse(name);
+            if parsed.is_none() {
+                cx.error(
+                    t.at(v),
+                    Item::Plain("[analysis]"),
+                    format!("unknown keep_fields {name:?}"),
+                    format!(
+                        "{}, or an array of step numbers such as [0, 5, 10]",
+                        suggest::choice_help(name, &KeepFields::NAMES)
+                    ),
+                );
+            }
+            parsed
+        }
+        KeepFieldsEntry::Steps(list) => {
+            let help = "write step numbers, 0 being the initial state, e.g. keep_fields = [0, 5, 10]";
+            let steps: Vec<Option<usize>> =
+                list.iter().map(|s| check_count(cx, t, s, "keep_fields", 0, MAX_STEPS, help)).collect();
+            steps.into_iter().collect::<Option<Vec<usize>>>().map(KeepFields::steps)
+        }
+    }
+}
+
 fn analysis(
     cx: &mut Ctx,
     t: &Toml,
@@ -1521,6 +1548,9 @@ fn analysis(
         _ => None,
     }) {
         a.load_predictor = on;
+    }
+    if let Some(k) = e.keep_fields.as_ref().and_then(|v| keep_fields(cx, t, v)) {
+        a.keep_fields = k;
     }
     let variants = ["cylindrical", "normal-plane"];
     if let Some(normal) = choice(cx, t, &e.arc_variant, "arc_variant", &variants, |s| match s {

@@ -188,6 +188,16 @@ pub fn to_toml(model: &Model) -> String {
     if a.self_weight != super::SelfWeight::Dead {
         let _ = writeln!(s, "self_weight = {}", quote(a.self_weight.name()));
     }
+    match &a.keep_fields {
+        super::KeepFields::Auto => {}
+        super::KeepFields::Steps(steps) => {
+            let list: Vec<String> = steps.iter().map(|n| n.to_string()).collect();
+            let _ = writeln!(s, "keep_fields = [{}]", list.join(", "));
+        }
+        k => {
+            let _ = writeln!(s, "keep_fields = {}", quote(k.name()));
+        }
+    }
     if a.start_load_factor != 0.0 {
         let _ = writeln!(s, "start_load_factor = {}", num(a.start_load_factor));
     }

@@ -11,12 +11,14 @@
 //! nonlinear problems", Int. J. Numer. Meth. Eng. 14 (1979).
 
 pub mod constraints;
+pub mod fields;
 
 use crate::assembly::System;
-use crate::model::{Control, Model, NodeDir};
+use crate::model::{Control, KeepFields, Model, NodeDir};
 use crate::observe::{Control as Answer, Observer, StepEvent};
 use crate::solve::{self, CorrectorConfig, FixedLoad, State, StepRecord, Termination, Workspace};
 use constraints::{Cylindrical, NormalPlane, PrescribedDisplacement};
+use fields::{Field, Keeper};
 
 /// Why the path ended.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -95,6 +97,10 @@ pub struct Path {
     pub n_cutbacks: usize,
     /// Critical points pinpointed along the path.
     pub critical: Vec<Critical>,
+    /// The `keep_fields` policy as resolved for this system (never `Auto`).
+    pub keep: KeepFields,
+    /// Whole displacement fields of the steps the policy keeps, ascending.
+    pub fields: Vec<Field>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -127,6 +133,9 @@ pub struct Critical {
     /// Bisections done, and the arc length still bracketing the point, m.
     pub bisections: usize,
     pub bracket: f64,
+    /// The free-DOF displacements at the point (the middle of the final
+    /// bracket), m, when the `keep_fields` policy keeps critical states.
+    pub field: Option<Vec<f64>>,
 }
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
@@ -284,7 +293,7 @@ impl<'a> Tracer<'a> {
     /// converges). The critical mode φ comes from inverse iteration with the
     /// factorization at the end of the bracket, and the kind from φ's
     /// alignment with the reference load.
-    fn pinpoint(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, observer: &mut dyn Observer) -> Critical {
+    fn pinpoint(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Critical {
         let sys = self.system;
         let (ua, la, na) = a_state;
         let (mut ua, mut la) = (ua.to_vec(), la);
@@ -340,6 +349,7 @@ impl<'a> Tracer<'a> {
             lambda: 0.5 * (la + lb),
             step: 0,
             watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
+            field: keep_field.then_some(mid),
             mode: dominant_dirs(sys, &phi),
             mode_watched: self
                 .model
@@ -411,6 +421,7 @@ impl<'a> Tracer<'a> {
         let mut mechanism = None;
         let mut last_failure = None;
         let mut n_cutbacks = 0;
+        let mut keeper = Keeper::new(a.keep_fields.resolve(sys.n_free()));
 
         // Step 0: the initial state, with its inertia. A prestressed structure
         // may be out of balance here only if the model is; the residual says.
@@ -418,6 +429,8 @@ impl<'a> Tracer<'a> {
         if solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some() {
             let moving = find_mechanism(sys, ws, &state);
             let p = self.make_point(&state, 0, rec0, 0);
+            keeper.offer(0, state.lambda, &state.u, false);
+            let (keep, fields) = keeper.finish(Some((0, state.lambda, &state.u)));
             return Path {
                 points: vec![p],
                 stop: StopReason::Mechanism,
@@ -426,6 +439,8 @@ impl<'a> Tracer<'a> {
                 last_failure: None,
                 n_cutbacks,
                 critical: Vec::new(),
+                keep,
+                fields,
             };
         }
         ws.fresh = true;
@@ -462,12 +477,15 @@ impl<'a> Tracer<'a> {
                     last_failure: Some(failure),
                     n_cutbacks,
                     critical: Vec::new(),
+                    keep: keeper.policy().clone(),
+                    fields: Vec::new(),
                 };
             }
             ws.fresh = true;
         }
         let neg0 = ws.h.inertia.negative;
         points.push(self.make_point(&state, 0, rec0, neg0));
+        keeper.offer(0, state.lambda, &state.u, false);
 
         let mut stepper = Stepper::new(&a, sys, ws);
         let mut last_increment: Vec<f64> = Vec::new();
@@ -604,7 +622,8 @@ impl<'a> Tracer<'a> {
                     let pinpoint = a.pinpoint && check && !singular;
                     if let (true, Some((n_before, true))) = (pinpoint, before) {
                         if n_before != neg {
-                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, observer);
+                            let keep_field = keeper.keeps_critical();
+                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, keep_field, observer);
                             c.step = step;
                             critical.push(c);
                             // Back to the factor of the converged state.
@@ -614,6 +633,8 @@ impl<'a> Tracer<'a> {
                             ws.fresh = true;
                         }
                     }
+                    let pivots_changed = before.is_some_and(|(n, _)| n != neg);
+                    keeper.offer(step, state.lambda, &state.u, pivots_changed);
                     points.push(point);
                     last_increment = state.u.iter().zip(&start_u).map(|(a, b)| a - b).collect();
                     last_load_increment = state.lambda - start_lambda;
@@ -671,7 +692,10 @@ impl<'a> Tracer<'a> {
                 }
             }
         };
-        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical }
+        // The last converged state is `state` (a failed step restored it).
+        let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
+        let (keep, fields) = keeper.finish(last);
+        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields }
     }
 }
 

@@ -2,6 +2,7 @@
 //! all files of a run are first written under temporary names in the output
 //! folder, then renamed into place.
 
+pub mod fields;
 pub mod html;
 pub mod plot;
 pub mod png;
@@ -24,6 +25,24 @@ impl Staged {
         let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
         std::fs::write(&tmp, contents)?;
         self.files.push((tmp, final_path));
+        Ok(())
+    }
+
+    /// Streams a file to a temporary name beside `dir/name` through a
+    /// buffered writer: for files too large to build in memory first.
+    pub fn add_with(
+        &mut self,
+        dir: &Path,
+        name: &str,
+        write: impl FnOnce(&mut io::BufWriter<std::fs::File>) -> io::Result<()>,
+    ) -> io::Result<()> {
+        let final_path = dir.join(name);
+        let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+        // Registered first, so a failed write is removed by `drop`.
+        self.files.push((tmp.clone(), final_path));
+        let mut w = io::BufWriter::with_capacity(1 << 20, std::fs::File::create(&tmp)?);
+        write(&mut w)?;
+        w.into_inner().map_err(|e| e.into_error())?;
         Ok(())
     }
 

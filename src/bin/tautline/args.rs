@@ -149,6 +149,10 @@ pub struct Overrides {
     /// Largest number of steps
     #[arg(long = "max-steps")]
     pub max_steps: Option<usize>,
+    /// Steps whose whole displacement field goes to fields.csv: auto | all |
+    /// ends | none, or step numbers separated by commas (e.g. 0,5,10)
+    #[arg(long = "keep-fields", value_name = "POLICY")]
+    pub keep_fields: Option<String>,
     /// Watched displacement NODE.DIR (repeatable; replaces the model's watch list)
     #[arg(long = "watch", value_name = "NODE.DIR")]
     pub watch: Vec<String>,
@@ -246,6 +250,9 @@ pub struct BenchArgs {
     /// without slackening any cable of the default net
     #[arg(long, default_value_t = 60.0)]
     pub pressure: f64,
+    /// Steps whose fields the timed fields.csv holds: all | ends | none
+    #[arg(long = "keep-fields", default_value = "ends")]
+    pub keep_fields: String,
 }
 
 #[derive(Args, Debug, Clone)]
@@ -257,4 +264,6 @@ pub struct BenchRunArgs {
     pub u_out: PathBuf,
     #[arg(long)]
     pub check_every_step: bool,
+    #[arg(long = "keep-fields", default_value = "ends")]
+    pub keep_fields: String,
 }

@@ -8,6 +8,8 @@
 //! one and on two threads (and their ratio), residual evaluations per second,
 //! the largest change of a cable force along the path, and the largest
 //! difference of the final displacements from Newton's.
+//! A second line per run gives the size and write time of `results.json` and
+//! `fields.csv` (`--keep-fields`, default "ends") as `solve` writes them.
 
 use crate::args::{BenchArgs, BenchRunArgs};
 use crate::run::Failure;
@@ -17,9 +19,11 @@ use std::time::Instant;
 use tautline::assembly::System;
 use tautline::generate::{NetOptions, saddle_net};
 use tautline::linalg::Ldlt;
-use tautline::model::{self, Method};
+use tautline::model::{self, KeepFields, Method};
 use tautline::observe::Silent;
 use tautline::path::Tracer;
+use tautline::report::{self, Staged, fields::NodeLabels};
+use tautline::results;
 use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
 
 /// Peak resident memory of this process, bytes (Linux; 0 elsewhere).
@@ -61,6 +65,14 @@ fn assembly_time(system: &System, u: &[f64], n_nodes: usize, threads: usize) -> 
     })))
 }
 
+/// `bench --keep-fields`: a policy that does not depend on the net's size.
+fn keep_policy(s: &str) -> Result<KeepFields, Failure> {
+    match KeepFields::parse(s) {
+        Some(k @ (KeepFields::All | KeepFields::Ends | KeepFields::None)) => Ok(k),
+        _ => Err(Failure::BadInput(format!("--keep-fields {s}: expected all, ends or none"))),
+    }
+}
+
 /// One run, printed as one line of `key=value` pairs for the parent.
 pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     let mut m = model::load(&a.model).map_err(|e| Failure::BadInput(e.to_string()))?;
@@ -69,6 +81,9 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     m.analysis.steps = a.steps;
     m.analysis.tolerance = a.tolerance;
     m.analysis.max_steps = 10 * a.steps;
+    // "ends" is what a large model gets by default; the output files are
+    // timed below as `solve` would write them.
+    m.analysis.keep_fields = keep_policy(&a.keep_fields)?;
     if method != Method::Newton && !a.check_every_step {
         // The lean quasi-Newton set-up: one factor carried across steps,
         // refactored only by the policy's guards.
@@ -122,12 +137,16 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     let residual_s = mean_time(|| {
         system.residual(u1, 1.0, &mut r, &mut react);
     });
+    let (json_s, json_bytes, fields_s, fields_bytes) = write_outputs(&m, &system, &path, &tracer.wasted, seconds, &a.u_out)?;
+    let kept: Vec<String> = path.fields.iter().map(|f| f.step.to_string()).collect();
     let bytes: Vec<u8> = path.final_state.u.iter().flat_map(|v| v.to_le_bytes()).collect();
     std::fs::write(&a.u_out, bytes).map_err(|e| Failure::Internal(e.into()))?;
     println!(
         "dofs={} nnz={} factor_nnz={} stop={} seconds={seconds:.3} symbolic={symbolic_s:.3} factor={factor_s:.3} \
          iterations={} factorizations={} evaluations={} max_force_change={max_change:.3} peak={} \
-         system_bytes={} threads={} assembly1={assembly_1:.5} assembly2={assembly_2:.5} residuals_per_s={:.1}",
+         system_bytes={} threads={} assembly1={assembly_1:.5} assembly2={assembly_2:.5} residuals_per_s={:.1} \
+         json_s={json_s:.3} json_bytes={json_bytes} fields_s={fields_s:.3} fields_bytes={fields_bytes} \
+         fields_rows={} fields_steps={}",
         system.n_free(),
         system.pattern.nnz(),
         ws.h.ldlt.factor_nnz(),
@@ -138,9 +157,46 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         peak_memory(),
         system.memory().total(),
         rayon::current_num_threads(),
-        1.0 / residual_s
+        1.0 / residual_s,
+        path.fields.len() * m.n_nodes(),
+        kept.join(","),
     );
     Ok(0)
+}
+
+/// Writes `results.json`, `fields.csv` and `critical_fields.csv` beside
+/// `u_out` as `solve` does (staged, renamed together) and returns the time
+/// and size of `results.json` (built and written), the time of the two
+/// field files and the size of `fields.csv`, seconds and bytes.
+fn write_outputs(
+    m: &model::Model,
+    system: &System,
+    path: &tautline::path::Path,
+    wasted: &tautline::solve::StepRecord,
+    seconds: f64,
+    u_out: &Path,
+) -> Result<(f64, u64, f64, u64), Failure> {
+    let dir = u_out.parent().unwrap_or(Path::new("."));
+    let io = |e: std::io::Error| Failure::Internal(e.into());
+    let mut staged = Staged::default();
+    let t = Instant::now();
+    let res = results::build(m, system, path, wasted, seconds);
+    staged.add(dir, "results.json", report::results_json(&res).as_bytes()).map_err(io)?;
+    let json_s = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let labels = NodeLabels::of(m);
+    staged
+        .add_with(dir, results::FIELDS_FILE, |w| report::fields::fields_csv(w, m, &system.dofs, &labels, &path.fields))
+        .map_err(io)?;
+    staged
+        .add_with(dir, results::CRITICAL_FIELDS_FILE, |w| {
+            report::fields::critical_fields_csv(w, m, &system.dofs, &labels, &path.critical)
+        })
+        .map_err(io)?;
+    let fields_s = t.elapsed().as_secs_f64();
+    let written = staged.commit().map_err(io)?;
+    let size = |name: &str| written.iter().find(|p| p.ends_with(name)).and_then(|p| p.metadata().ok()).map_or(0, |md| md.len());
+    Ok((json_s, size("results.json"), fields_s, size(results::FIELDS_FILE)))
 }
 
 fn field<'a>(line: &'a str, key: &str) -> &'a str {
@@ -158,6 +214,7 @@ fn read_u(path: &Path) -> Vec<f64> {
 }
 
 pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
+    keep_policy(&a.keep_fields)?;
     for m in &a.methods {
         if Method::parse(m).is_none() {
             return Err(Failure::BadInput(format!("--methods: unknown method {m}; expected {}", Method::NAMES.join(", "))));
@@ -201,6 +258,8 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 .arg(a.steps.to_string())
                 .arg(a.tolerance.to_string())
                 .arg(&u_out)
+                .arg("--keep-fields")
+                .arg(&a.keep_fields)
                 .output()
                 .map_err(|e| Failure::Internal(e.into()))?;
             let line = String::from_utf8_lossy(&out.stdout).to_string();
@@ -248,6 +307,18 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 field(&line, "max_force_change"),
                 diff,
                 if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }
+            );
+            println!(
+                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s",
+                "",
+                "",
+                field(&line, "json_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e3,
+                field(&line, "json_s"),
+                a.keep_fields,
+                field(&line, "fields_steps"),
+                field(&line, "fields_rows"),
+                field(&line, "fields_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e6,
+                field(&line, "fields_s"),
             );
             let _ = std::io::stdout().flush();
         }

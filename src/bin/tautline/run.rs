@@ -7,7 +7,7 @@ use std::time::Instant;
 use tautline::assembly::System;
 use tautline::linalg::Ldlt;
 use tautline::model::validate::MAX_STEPS;
-use tautline::model::{self, Axis, Control, MemberKind, Method, Model, NodeDir, StrainMeasure};
+use tautline::model::{self, Axis, Control, KeepFields, MemberKind, Method, Model, NodeDir, StrainMeasure};
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
 use tautline::observe::{Control as Answer, IterEvent, Observer, StepEvent};
@@ -106,6 +106,24 @@ fn parse_node_dir(m: &Model, s: &str) -> Result<NodeDir, String> {
     Ok(NodeDir { node, axis })
 }
 
+/// `--keep-fields`: a policy name, or step numbers separated by commas.
+fn parse_keep_fields(s: &str) -> Result<KeepFields, String> {
+    if let Some(k) = KeepFields::parse(s) {
+        return Ok(k);
+    }
+    let names = KeepFields::NAMES.join(", ");
+    if !s.starts_with(|c: char| c.is_ascii_digit()) {
+        return Err(format!("--keep-fields {s}: expected one of {names}, or step numbers such as 0,5,10"));
+    }
+    s.split(',')
+        .map(|p| match p.trim().parse::<usize>() {
+            Ok(n) if n <= MAX_STEPS => Ok(n),
+            _ => Err(format!("--keep-fields {s}: {p:?} is not a step number from 0 to {MAX_STEPS}; write e.g. 0,5,10")),
+        })
+        .collect::<Result<Vec<_>, _>>()
+        .map(KeepFields::steps)
+}
+
 /// Applies the command-line overrides of `[analysis]`, checking each like the
 /// model file's own value.
 fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
@@ -155,6 +173,9 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
             return Err(format!("--arc {arc}: must be positive"));
         }
         a.arc = Some(arc * len_in);
+    }
+    if let Some(s) = &o.keep_fields {
+        a.keep_fields = parse_keep_fields(s)?;
     }
     if !o.watch.is_empty() {
         let watch = o.watch.iter().map(|w| parse_node_dir(m, w)).collect::<Result<Vec<_>, _>>()?;
@@ -321,6 +342,16 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     write(&mut staged, "results.json", report::results_json(&res))?;
     write(&mut staged, "path.csv", report::path_csv(&res))?;
     write(&mut staged, "members.csv", report::members_csv(&members, m.units.force.name(), m.units.length.name()))?;
+    let labels = report::fields::NodeLabels::of(m);
+    let stream = |staged: &mut report::Staged, name: &str, f: &dyn Fn(&mut std::io::BufWriter<std::fs::File>) -> std::io::Result<()>| {
+        staged
+            .add_with(out, name, f)
+            .map_err(|e| Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(name).display())))
+    };
+    stream(&mut staged, results::FIELDS_FILE, &|w| report::fields::fields_csv(w, m, &system.dofs, &labels, &path.fields))?;
+    stream(&mut staged, results::CRITICAL_FIELDS_FILE, &|w| {
+        report::fields::critical_fields_csv(w, m, &system.dofs, &labels, &path.critical)
+    })?;
     // Plots: a plot that cannot be drawn is reported and left out; the
     // numbers above are written regardless.
     let node_u: Vec<[f64; 3]> = (0..m.n_nodes())
