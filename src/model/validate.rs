@@ -68,7 +68,7 @@ type LabelMap<'a> = HashMap<&'a str, usize>;
 pub fn load(path: &Path) -> Result<Model, ModelErrors> {
     let name = path.display().to_string();
     if csv_given::has_csv_name(path) {
-        return Err(csv_given::diagnostic(&name, csv_given::naming_model(path).as_deref()).into());
+        return Err(csv_given::diagnostic(&name, 1, csv_given::naming_model(path).as_deref()).into());
     }
     if let Ok(meta) = std::fs::metadata(path)
         && meta.is_file()
@@ -96,8 +96,8 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
         .help("check that the path is right and that the file is readable")
     })?;
     let text = utf8_text(bytes).map_err(|bad| bad.diagnostic(&name, "model file"))?;
-    if csv_given::starts_like_csv(&text) {
-        return Err(csv_given::diagnostic(&name, csv_given::naming_model(path).as_deref()).into());
+    if let Some(line) = csv_given::csv_header_line(&text) {
+        return Err(csv_given::diagnostic(&name, line, csv_given::naming_model(path).as_deref()).into());
     }
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     load_str(&text, &name, Some(&base))
@@ -215,8 +215,8 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
             .help("a model needs [[section]], [[node]] and [[member]] tables (see the model file section of the README)")
             .into());
     }
-    if csv_given::starts_like_csv(text) {
-        return Err(csv_given::diagnostic(file_name, None).into());
+    if let Some(line) = csv_given::csv_header_line(text) {
+        return Err(csv_given::diagnostic(file_name, line, None).into());
     }
     let toml = Toml {
         text,

@@ -17,23 +17,22 @@ pub(super) fn has_csv_name(path: &Path) -> bool {
         .is_some_and(|e| e.eq_ignore_ascii_case("csv"))
 }
 
-/// True if the first line that is not blank or a comment reads as a CSV
-/// header: two or more comma-separated names and no `=` or `[`. No TOML file
-/// can start that way (a TOML line is a key/value pair or a table header).
-pub(super) fn starts_like_csv(text: &str) -> bool {
-    let Some(first) = text
+/// The 1-based line of the first line that is not blank or a comment, if it
+/// reads as a CSV header: two or more comma-separated names and no `=` or
+/// `[`. No TOML file can start that way (a TOML line is a key/value pair or
+/// a table header).
+pub(super) fn csv_header_line(text: &str) -> Option<usize> {
+    let (i, first) = text
         .strip_prefix('\u{feff}')
         .unwrap_or(text)
         .lines()
         .map(str::trim)
-        .find(|l| !l.is_empty() && !l.starts_with('#'))
-    else {
-        return false;
-    };
+        .enumerate()
+        .find(|(_, l)| !l.is_empty() && !l.starts_with('#'))?;
     if first.contains(['=', '[']) || !first.contains(',') {
-        return false;
+        return None;
     }
-    first.split(',').all(|cell| {
+    let names = first.split(',').all(|cell| {
         let cell = cell.trim();
         let name = cell
             .strip_prefix('"')
@@ -41,19 +40,20 @@ pub(super) fn starts_like_csv(text: &str) -> bool {
             .unwrap_or(cell);
         name.starts_with(|c: char| c.is_alphabetic() || c == '_')
             && name.chars().all(|c| c.is_alphanumeric() || matches!(c, '_' | '-' | '.' | ' '))
-    })
+    });
+    names.then_some(i + 1)
 }
 
-/// The refusal. `sibling` is a model file beside the table that names it,
-/// if one was found.
-pub(super) fn diagnostic(file: &str, sibling: Option<&str>) -> Diagnostic {
+/// The refusal, at `line`. `sibling` is a model file beside the table that
+/// names it, if one was found.
+pub(super) fn diagnostic(file: &str, line: usize, sibling: Option<&str>) -> Diagnostic {
     let help = match sibling {
         Some(model) => format!("{model} names this table; pass that file instead"),
         None => "a model file is TOML with [[section]], [[node]] and [[member]] tables \
                  (see the model file section of the README)"
             .to_string(),
     };
-    Diagnostic::new(file, MESSAGE).at(1, None).item("model file").help(help)
+    Diagnostic::new(file, MESSAGE).at(line, None).item("model file").help(help)
 }
 
 /// A `.toml` file in the table's folder that names the table in one of its
@@ -100,16 +100,16 @@ mod tests {
 
     #[test]
     fn csv_headers_are_told_from_toml() {
-        assert!(starts_like_csv("id,x,y,z,fix\nA,0,0,0,xyz\n"));
-        assert!(starts_like_csv("\u{feff}# loads\n\nnode, fx, fy, fz\n"));
-        assert!(starts_like_csv("\"id\",\"kind\",end1,end2,section\n"));
-        assert!(!starts_like_csv("title = \"a, b\"\n"));
-        assert!(!starts_like_csv("[[node]]\nid = \"A\"\n"));
-        assert!(!starts_like_csv("ends = [\"A\", \"B\"]\n"));
-        assert!(!starts_like_csv("A1,0,0,0\n"), "a data row of numbers is not a header");
-        assert!(!starts_like_csv("1,2,3\n"));
-        assert!(!starts_like_csv("just words\n"));
-        assert!(!starts_like_csv(""));
+        assert_eq!(csv_header_line("id,x,y,z,fix\nA,0,0,0,xyz\n"), Some(1));
+        assert_eq!(csv_header_line("\u{feff}# loads\n\nnode, fx, fy, fz\n"), Some(3));
+        assert_eq!(csv_header_line("\"id\",\"kind\",end1,end2,section\n"), Some(1));
+        assert_eq!(None, csv_header_line("title = \"a, b\"\n"));
+        assert_eq!(None, csv_header_line("[[node]]\nid = \"A\"\n"));
+        assert_eq!(None, csv_header_line("ends = [\"A\", \"B\"]\n"));
+        assert_eq!(None, csv_header_line("A1,0,0,0\n"), "a data row of numbers is not a header");
+        assert_eq!(None, csv_header_line("1,2,3\n"));
+        assert_eq!(None, csv_header_line("just words\n"));
+        assert_eq!(None, csv_header_line(""));
     }
 
     #[test]
