@@ -1439,12 +1439,19 @@ fn toml_loads(cx: &mut Ctx, t: &Toml, file: &ModelFile, refs: &Refs) -> Vec<Noda
 fn add_load(cx: &mut Ctx, raw: &RawLoad, refs: &Refs, out: &mut Vec<NodalLoad>) {
     let item = raw.item;
     let node = refs.node(cx, raw.node.0, raw.node.1, item, "node");
+    // One report per place: the three components of a TOML `force` share it.
     let mut finite = true;
+    let mut bad_at = None;
     for a in 0..3 {
-        finite &= match raw.force[a] {
+        let ok = match raw.force[a] {
+            Some(_) if bad_at == Some(raw.force_src[a]) => false,
             Some(v) => check_number(cx, v, raw.force_src[a], item, raw.force_keys[a], Rule::Finite, ""),
             None => false,
         };
+        if !ok {
+            bad_at = Some(raw.force_src[a]);
+        }
+        finite &= ok;
     }
     let Some(node) = node else { return };
     let target = &refs.nodes[node];

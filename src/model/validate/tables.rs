@@ -748,10 +748,11 @@ mod tests {
 
     #[test]
     fn a_csv_table_given_as_the_model_is_named_as_such() {
-        for text in ["id,x,y,z,fix\nA,0,0,0,xyz\n", "# loads\nnode,fx,fy,fz\nB,1,0,0\n"] {
+        // At the header's line.
+        for (text, line) in [("id,x,y,z,fix\nA,0,0,0,xyz\n", 1), ("# loads\nnode,fx,fy,fz\nB,1,0,0\n", 2)] {
             let ds = errors(text);
             assert_eq!(ds.len(), 1, "{ds:?}");
-            let d = expect(&ds, "m.toml", 1, "model file", "this looks like a CSV table; pass the model's .toml file");
+            let d = expect(&ds, "m.toml", line, "model file", "this looks like a CSV table; pass the model's .toml file");
             assert!(d.message.contains("nodes_csv / members_csv / loads_csv"), "{d}");
         }
         // A file named .csv is refused before it is read, and the model
