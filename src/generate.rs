@@ -121,7 +121,7 @@ pub struct Generated {
 /// like every other node. The edge cables are not balanced at a free edge
 /// node, so with elastic edges the springs take that pull and the net draws
 /// in a little before any load acts. `stem` names the CSV files (`{stem}_nodes.csv`,
-/// `{stem}_members.csv`) used when the net has more than `csv_threshold`
+/// `{stem}_members.csv`, `{stem}_loads.csv`) used when the net has more than `csv_threshold`
 /// nodes; it must be a plain file-name stem (no path separators) even when no
 /// CSV is written.
 pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
@@ -681,10 +681,9 @@ impl Draft {
         } else {
             n * (node_bytes + 40) + m * (member_bytes + 70)
         };
-        let cap = 1024
-            + tables
-            + self.loads.len() * (node_len + 3 * 24 + 40)
-            + self.springs.len() * 3 * (node_len + 50);
+        let load_bytes = node_len + 3 * 24 + 8;
+        let loads = if use_csv { 0 } else { self.loads.len() * (load_bytes + 32) };
+        let cap = 1024 + tables + loads + self.springs.len() * 3 * (node_len + 50);
         let mut nums = NumText::new(n);
         let mut t = String::with_capacity(cap);
         // Writing to a String cannot fail; those results are ignored below.
@@ -696,12 +695,16 @@ impl Draft {
         if use_csv {
             let nodes_name = format!("{stem}_nodes.csv");
             let members_name = format!("{stem}_members.csv");
+            let loads_name = format!("{stem}_loads.csv");
             let _ = writeln!(t, "nodes_csv = {}", TomlStr(&nodes_name));
             let _ = writeln!(t, "members_csv = {}", TomlStr(&members_name));
+            let _ = writeln!(t, "loads_csv = {}", TomlStr(&loads_name));
             let nodes = self.nodes_csv(n * node_bytes + 64, &mut nums);
             csv.push((nodes_name, nodes));
             let members = self.members_csv(m * member_bytes + 64, &mut nums);
             csv.push((members_name, members));
+            let loads = self.loads_csv(self.loads.len() * load_bytes + 64, &mut nums);
+            csv.push((loads_name, loads));
         }
         let _ = write!(
             t,
@@ -753,12 +756,14 @@ impl Draft {
                 t.push('\n');
             }
         }
-        for &(node, f) in &self.loads {
-            t.push_str("\n[[load]]\nnode = \"");
-            t.push_str(self.node_ids.get(node));
-            t.push_str("\"\nforce = ");
-            push_triple(&mut t, &mut nums, f);
-            t.push('\n');
+        if !use_csv {
+            for &(node, f) in &self.loads {
+                t.push_str("\n[[load]]\nnode = \"");
+                t.push_str(self.node_ids.get(node));
+                t.push_str("\"\nforce = ");
+                push_triple(&mut t, &mut nums, f);
+                t.push('\n');
+            }
         }
         let control = self.node_ids.get(self.control);
         let _ = write!(
@@ -784,6 +789,20 @@ impl Draft {
                 nums.push(&mut s, v);
             }
             s.push_str(if self.fixed[k] { ",xyz\n" } else { ",\n" });
+        }
+        s
+    }
+
+    fn loads_csv(&self, cap: usize, nums: &mut NumText) -> String {
+        let mut s = String::with_capacity(cap);
+        s.push_str("node,fx,fy,fz\n");
+        for &(node, f) in &self.loads {
+            s.push_str(self.node_ids.get(node));
+            for v in f {
+                s.push(',');
+                nums.push(&mut s, v);
+            }
+            s.push('\n');
         }
         s
     }
@@ -880,17 +899,23 @@ mod tests {
         lattice_dome(&o, "dome").unwrap_err()
     }
 
-    /// Nodes (id → position, fixed) and members (ends, prestress) of a
-    /// model, read from its TOML or its CSV files.
+    /// Nodes (id → position, fixed), members (ends, prestress) and loads
+    /// (node, force) of a model, read from its TOML or its CSV files.
     struct Read {
         nodes: HashMap<String, ([f64; 3], bool)>,
         members: Vec<(String, [String; 2], Option<f64>)>,
+        loads: Vec<(String, [f64; 3])>,
     }
 
     fn read(g: &Generated) -> Read {
         let t = parse(&g.toml);
         let mut nodes = HashMap::new();
         let mut members = Vec::new();
+        let mut loads = Vec::new();
+        for l in tables(&t, "load") {
+            let f = l["force"].as_array().unwrap();
+            loads.push((l["node"].as_str().unwrap().to_string(), [float(&f[0]), float(&f[1]), float(&f[2])]));
+        }
         for n in tables(&t, "node") {
             let at = n["at"].as_array().unwrap();
             let p = [float(&at[0]), float(&at[1]), float(&at[2])];
@@ -921,6 +946,10 @@ mod tests {
                     assert_eq!(c.len(), 5, "{line}");
                     let p = [1, 2, 3].map(|k| c[k].parse::<f64>().unwrap());
                     nodes.insert(c[0].to_string(), (p, c[4] == "xyz"));
+                } else if name.ends_with("_loads.csv") {
+                    assert_eq!(header, "node,fx,fy,fz");
+                    assert_eq!(c.len(), 4, "{line}");
+                    loads.push((c[0].to_string(), [1, 2, 3].map(|k| c[k].parse::<f64>().unwrap())));
                 } else {
                     assert_eq!(header, "id,kind,end1,end2,section,prestress");
                     assert_eq!(c.len(), 6, "{line}");
@@ -929,7 +958,7 @@ mod tests {
                 }
             }
         }
-        Read { nodes, members }
+        Read { nodes, members, loads }
     }
 
     /// Largest |Σ prestress·unit chord| over the free nodes, and the largest prestress.
@@ -1338,9 +1367,11 @@ mod tests {
             ..small_net(nx, ny)
         };
         let g = saddle_net(&o, "big").unwrap();
-        assert_eq!(g.csv.len(), 2);
+        assert_eq!(g.csv.len(), 3);
         assert_eq!(g.csv[0].0, "big_nodes.csv");
         assert_eq!(g.csv[1].0, "big_members.csv");
+        assert_eq!(g.csv[2].0, "big_loads.csv");
+        assert_eq!(g.csv[2].1.lines().count(), 1 + (nx - 2) * (ny - 2));
         assert_eq!(g.csv[0].1.lines().count(), 1 + nx * ny);
         assert_eq!(
             g.csv[1].1.lines().count(),
@@ -1349,19 +1380,22 @@ mod tests {
         let t = parse(&g.toml);
         assert_eq!(t["nodes_csv"].as_str(), Some("big_nodes.csv"));
         assert_eq!(t["members_csv"].as_str(), Some("big_members.csv"));
+        assert_eq!(t["loads_csv"].as_str(), Some("big_loads.csv"));
         assert!(tables(&t, "node").is_empty() && tables(&t, "member").is_empty());
+        assert!(tables(&t, "load").is_empty());
         assert_eq!(tables(&t, "section").len(), 1);
-        assert_eq!(tables(&t, "load").len(), (nx - 2) * (ny - 2));
         assert!(t.contains_key("analysis"));
         // The file keys come before the first table.
         let first_table = g.toml.find("\n[").unwrap();
         assert!(g.toml.find("nodes_csv").unwrap() < first_table);
         assert!(g.toml.find("members_csv").unwrap() < first_table);
+        assert!(g.toml.find("loads_csv").unwrap() < first_table);
         // Same model either way.
         let small = read(&saddle_net(&small_net(nx, ny), "big").unwrap());
         let big = read(&g);
         assert_eq!(small.nodes, big.nodes);
         assert_eq!(small.members, big.members);
+        assert_eq!(small.loads, big.loads);
         let (worst, biggest) = worst_residual(&big);
         assert!(worst < 1e-9 * biggest);
         // At the threshold it stays in the TOML.
@@ -1484,13 +1518,18 @@ mod tests {
         let t = parse(&g.toml);
         assert_eq!(t["nodes_csv"].as_str(), Some("cap_nodes.csv"));
         assert_eq!(t["members_csv"].as_str(), Some("cap_members.csv"));
+        assert_eq!(t["loads_csv"].as_str(), Some("cap_loads.csv"));
         assert!(tables(&t, "node").is_empty() && tables(&t, "member").is_empty());
+        assert!(tables(&t, "load").is_empty());
+        assert_eq!(g.csv[2].0, "cap_loads.csv");
+        assert!(g.csv[2].1.starts_with("node,fx,fy,fz\nC,") && g.csv[2].1.lines().count() == 2);
         assert_eq!(g.csv[0].1.lines().count(), 1 + 1 + rings * sectors);
         assert_eq!(g.csv[1].1.lines().count(), 1 + sectors * (3 * rings - 1));
         let small = read(&lattice_dome(&small_dome(rings, sectors), "cap").unwrap());
         let big = read(&g);
         assert_eq!(small.nodes, big.nodes);
         assert_eq!(small.members, big.members);
+        assert_eq!(small.loads, big.loads);
     }
 
     #[test]
@@ -1555,7 +1594,7 @@ mod tests {
             assert_eq!(m.n_members(), (nx - 1) * ny + nx * (ny - 1));
             assert_eq!(m.n_fixed(), 3 * (2 * (nx + ny) - 4));
             assert_eq!(m.loads.len(), (nx - 2) * (ny - 2));
-            assert_eq!(m.files.len(), if threshold == 0 { 3 } else { 1 });
+            assert_eq!(m.files.len(), if threshold == 0 { 4 } else { 1 });
             let centre = m.node_index("N003_002").unwrap();
             assert_eq!(m.analysis.point.map(|p| p.node), Some(centre));
             assert_eq!(m.analysis.watch.len(), 1);

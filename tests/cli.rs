@@ -683,6 +683,63 @@ fn generated_net_solves_with_every_method() {
     }
 }
 
+/// A generated net keeps its loads in `net_loads.csv`; the same loads
+/// written as `[[load]]` tables give the same results.json (timing and model
+/// path removed), and `check` on one of the tables names the model file
+/// that reads it.
+#[test]
+fn loads_from_csv_solve_like_load_tables() {
+    let sc = Scratch::new("loads-csv");
+    std::fs::create_dir_all(sc.path("csv")).unwrap();
+    std::fs::create_dir_all(sc.path("toml")).unwrap();
+    let model = sc.path("csv/net.toml");
+    let r = tautline(&["generate", "net", "--nx", "7", "--ny", "6", "--load", "300", "--csv-threshold", "10", "-o", s(&model)]);
+    assert_eq!(r.code, 0, "{r}");
+    let text = std::fs::read_to_string(&model).unwrap();
+    assert!(text.contains("loads_csv = \"net_loads.csv\"") && !text.contains("[[load]]"), "{text}");
+    let loads = std::fs::read_to_string(sc.path("csv/net_loads.csv")).unwrap();
+    let mut rows = loads.lines();
+    assert_eq!(rows.next(), Some("node,fx,fy,fz"));
+    let mut tables = String::new();
+    for row in rows {
+        let c: Vec<&str> = row.split(',').collect();
+        tables += &format!("\n[[load]]\nnode = \"{}\"\nforce = [{}, {}, {}]\n", c[0], c[1], c[2], c[3]);
+    }
+    assert_eq!(tables.matches("[[load]]").count(), 5 * 4);
+    let inline = sc.path("toml/net.toml");
+    std::fs::write(&inline, text.replace("loads_csv = \"net_loads.csv\"\n", "") + &tables).unwrap();
+    for table in ["net_nodes.csv", "net_members.csv"] {
+        std::fs::copy(sc.path(&format!("csv/{table}")), sc.path(&format!("toml/{table}"))).unwrap();
+    }
+    let mut results = Vec::new();
+    for m in [&model, &inline] {
+        let r = tautline(&["check", s(m), "--format", "json"]);
+        assert_eq!(r.code, 0, "{r}");
+        let counts: Value = serde_json::from_str(&r.stdout).unwrap();
+        assert_eq!(counts["loads"], 20, "{r}");
+        let out = m.parent().unwrap().join("out");
+        let r = solve(m, &out, &[]);
+        assert_eq!(r.code, 0, "{r}");
+        let mut v = json(&out.join("results.json"));
+        assert!(v["totals"].as_object_mut().unwrap().remove("seconds").is_some());
+        assert!(v.as_object_mut().unwrap().remove("model_file").is_some());
+        results.push(v);
+    }
+    assert!(results[0]["steps"].as_array().unwrap().len() > 1);
+    assert_eq!(results[0], results[1]);
+
+    // A table given to check, solve or form by mistake.
+    let table = sc.path("csv/net_loads.csv");
+    for cmd in [vec!["check", s(&table)], vec!["solve", s(&table), "-o", s(&sc.path("o1"))], vec!["form", s(&table), "-o", s(&sc.path("o2"))]] {
+        let r = tautline(&cmd);
+        assert_eq!(r.code, 2, "{r}");
+        assert!(r.stderr.contains("this looks like a CSV table; pass the model's .toml file"), "{r}");
+        assert!(r.stderr.contains(&format!("{} names this table", s(&model))), "{r}");
+        assert_eq!(r.stderr.matches("error:").count(), 1, "{r}");
+    }
+    assert!(!sc.path("o1").exists() && !sc.path("o2").exists());
+}
+
 /// `generate dome` writes a model whose crown is watched, and bad options are
 /// bad input (exit 2, nothing written).
 #[test]

@@ -1,6 +1,7 @@
 //! The malformed-model corpus (tests/malformed/, indexed in its README):
 //! every file is refused by `check` and `solve` with exit 2, its place and
-//! item, no panic and nothing written.
+//! item, no panic and nothing written. Besides the `.toml` models it lists
+//! `.csv` tables given as the model.
 
 use serde_json::Value;
 use std::path::{Path, PathBuf};
@@ -41,9 +42,14 @@ fn every_malformed_model_is_refused_with_place_and_item() {
         .filter(|n| n.ends_with(".toml"))
         .collect();
     on_disk.sort();
-    let mut listed: Vec<String> = expected.iter().map(|e| e.file.clone()).collect();
+    let mut listed: Vec<String> =
+        expected.iter().map(|e| e.file.clone()).filter(|f| f.ends_with(".toml")).collect();
     listed.sort();
     assert_eq!(on_disk, listed, "README index and corpus differ");
+    // The other entries are tables given as the model by mistake.
+    for e in expected.iter().filter(|e| !e.file.ends_with(".toml")) {
+        assert!(e.file.ends_with(".csv") && dir.join(&e.file).is_file(), "{} is listed but not there", e.file);
+    }
     assert!(expected.len() >= 30, "only {} malformed models", expected.len());
 
     let scratch = std::env::temp_dir().join(format!("tautline-malformed-{}", std::process::id()));
@@ -51,7 +57,7 @@ fn every_malformed_model_is_refused_with_place_and_item() {
     for e in &expected {
         let model = dir.join(&e.file);
         let model = model.to_str().unwrap();
-        let out = scratch.join(e.file.replace(".toml", "")).join("out");
+        let out = scratch.join(e.file.replace(".toml", "").replace(".csv", "")).join("out");
         let out_s = out.to_str().unwrap();
         for args in [vec!["check", model], vec!["solve", model, "-o", out_s]] {
             let (code, _, stderr) = run(&args);

@@ -26,6 +26,7 @@ pub struct ModelFile {
     pub units: Option<Spanned<UnitsEntry>>,
     pub nodes_csv: Option<Spanned<String>>,
     pub members_csv: Option<Spanned<String>>,
+    pub loads_csv: Option<Spanned<String>>,
     #[serde(default)]
     pub section: Vec<Spanned<SectionEntry>>,
     #[serde(default)]
@@ -209,6 +210,7 @@ pub const TOP_SPEC: TableSpec = TableSpec {
         key("units", "[units]"),
         key("nodes_csv", "nodes_csv = \"nodes.csv\""),
         key("members_csv", "members_csv = \"members.csv\""),
+        key("loads_csv", "loads_csv = \"loads.csv\""),
         key("section", "[[section]]"),
         key("node", "[[node]]"),
         key("member", "[[member]]"),
@@ -411,6 +413,7 @@ impl ModelFile {
                 "members_csv" => {
                     file.members_csv = reader.value(value, &TOP_SPEC, "members_csv", None)
                 }
+                "loads_csv" => file.loads_csv = reader.value(value, &TOP_SPEC, "loads_csv", None),
                 "units" => file.units = reader.table(value, &UNITS_SPEC),
                 "analysis" => file.analysis = reader.table(value, &ANALYSIS_SPEC),
                 "form" => file.form = reader.table(value, &FORM_SPEC),

@@ -2,11 +2,14 @@
 //! everything, collecting every problem (up to a cap) before failing.
 //!
 //! TOML entries and CSV rows are first put into the same raw shape
-//! ([`RawNode`], [`RawMember`]) and then go through the same checks, so a row
-//! of `members.csv` is held to exactly the rules of a `[[member]]` table.
+//! ([`RawNode`], [`RawMember`], [`RawLoad`]) and then go through the same
+//! checks, so a row of `members.csv` is held to exactly the rules of a
+//! `[[member]]` table. The CSV tables themselves are read in `tables`.
 
 mod csv;
+mod csv_given;
 pub(crate) mod suggest;
+mod tables;
 
 use std::collections::{HashMap, HashSet};
 use std::path::Path;
@@ -22,7 +25,6 @@ use super::{
     KeepFields, Member, MemberKind, Method, Model, ModelErrors, NodalLoad, Node, NodeDir, Place, RestSpec, Section,
     SelfWeight, Spring, StrainMeasure, Units,
 };
-use csv::{Cell, CsvReader};
 
 /// Past this many errors the rest are mostly consequences of the first ones.
 pub const MAX_DIAGNOSTICS: usize = 50;
@@ -65,6 +67,9 @@ type LabelMap<'a> = HashMap<&'a str, usize>;
 /// next to it.
 pub fn load(path: &Path) -> Result<Model, ModelErrors> {
     let name = path.display().to_string();
+    if csv_given::has_csv_name(path) {
+        return Err(csv_given::diagnostic(&name, 1, csv_given::naming_model(path).as_deref()).into());
+    }
     if let Ok(meta) = std::fs::metadata(path)
         && meta.is_file()
         && meta.len() > MAX_MODEL_BYTES
@@ -77,7 +82,7 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
                 MAX_MODEL_BYTES >> 20
             ),
         )
-        .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
+        .help("keep large node, member and load lists in CSV tables (nodes_csv, members_csv, loads_csv)")
         .into());
     }
     let bytes = std::fs::read(path).map_err(|e| {
@@ -91,6 +96,9 @@ pub fn load(path: &Path) -> Result<Model, ModelErrors> {
         .help("check that the path is right and that the file is readable")
     })?;
     let text = utf8_text(bytes).map_err(|bad| bad.diagnostic(&name, "model file"))?;
+    if let Some(line) = csv_given::csv_header_line(&text) {
+        return Err(csv_given::diagnostic(&name, line, csv_given::naming_model(path).as_deref()).into());
+    }
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     load_str(&text, &name, Some(&base))
 }
@@ -196,7 +204,7 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
             file_name,
             format!("the model text is larger than {} MiB", MAX_MODEL_BYTES >> 20),
         )
-        .help("keep large node and member lists in CSV tables (nodes_csv, members_csv)")
+        .help("keep large node, member and load lists in CSV tables (nodes_csv, members_csv, loads_csv)")
         .into());
     }
     if holds_nothing(text) {
@@ -206,6 +214,9 @@ fn load_with(text: &str, file_name: &str, tables: &Tables) -> Result<Model, Mode
             .item("model file")
             .help("a model needs [[section]], [[node]] and [[member]] tables (see the model file section of the README)")
             .into());
+    }
+    if let Some(line) = csv_given::csv_header_line(text) {
+        return Err(csv_given::diagnostic(file_name, line, None).into());
     }
     let toml = Toml {
         text,
@@ -600,10 +611,14 @@ fn build(
     for n in &file.node {
         add_node(cx, toml_node(t, n), &mut nodes);
     }
-    if let Some(name) = &file.nodes_csv
-        && let Some((idx, text)) = read_csv(cx, t, name, "nodes_csv", tables)
-    {
-        csv_nodes(cx, idx, &text, &mut nodes);
+    // A table whose rows could not be read is reported once; checks that
+    // would only repeat it (unknown nodes, free nodes, no members) are skipped.
+    let mut nodes_unread = false;
+    if let Some(name) = &file.nodes_csv {
+        nodes_unread = !match tables::read_csv(cx, t, name, "nodes_csv", tables) {
+            Some((idx, text)) => tables::csv_nodes(cx, idx, &text, &mut nodes),
+            None => false,
+        };
     }
     check_size(cx, nodes.len(), MAX_NODES, "nodes");
 
@@ -625,6 +640,7 @@ fn build(
         ),
         lost_sections,
         size: model_size(&nodes),
+        nodes_unread,
     };
 
     let mut attached = vec![false; nodes.len()];
@@ -643,38 +659,52 @@ fn build(
             &mut section_used,
         );
     }
-    if let Some(name) = &file.members_csv
-        && let Some((idx, text)) = read_csv(cx, t, name, "members_csv", tables)
-    {
-        member_entries += csv_members(
-            cx,
-            idx,
-            &text,
-            &refs,
-            &mut members,
-            &mut attached,
-            &mut section_used,
-        );
+    let mut members_unread = false;
+    if let Some(name) = &file.members_csv {
+        members_unread = true;
+        if let Some((idx, text)) = tables::read_csv(cx, t, name, "members_csv", tables) {
+            let (rows, read) = tables::csv_members(
+                cx,
+                idx,
+                &text,
+                &refs,
+                &mut members,
+                &mut attached,
+                &mut section_used,
+            );
+            member_entries += rows;
+            members_unread = !read;
+        }
     }
     check_size(cx, members.len(), MAX_MEMBERS, "members");
     let member_places = members.iter().map(|m: &Member| (m.label.as_str(), m.place));
     index_labels(cx, member_places, "member");
 
     let springs = springs(cx, t, file, &refs, &mut attached);
-    let loads = loads(cx, t, file, &refs);
+    let mut loads = toml_loads(cx, t, file, &refs);
+    let mut loads_unread = false;
+    if let Some(name) = &file.loads_csv {
+        loads_unread = !match tables::read_csv(cx, t, name, "loads_csv", tables) {
+            Some((idx, text)) => tables::csv_loads(cx, idx, &text, &refs, &mut loads),
+            None => false,
+        };
+    }
+    check_size(cx, loads.len(), MAX_ITEMS, "loads");
     let analysis = analysis(cx, t, file.analysis.as_ref(), &refs, &loads);
     let form = form(cx, t, file.form.as_ref());
 
-    if !lost.structure {
+    if !lost.structure && !nodes_unread && !members_unread {
         model_checks(cx, &refs, member_entries, &attached);
     }
-    unused_sections(cx, &sections, &section_used);
-    if loads.is_empty() && sections.iter().all(|s| s.weight.is_none_or(|w| w == 0.0)) {
+    if !members_unread {
+        unused_sections(cx, &sections, &section_used);
+    }
+    if loads.is_empty() && !loads_unread && sections.iter().all(|s| s.weight.is_none_or(|w| w == 0.0)) {
         cx.warn(
             Src::default(),
             Item::Model,
             "the model has no loads",
-            "add [[load]] tables or a section `weight`, or the analysis has nothing to do",
+            "add [[load]] tables, a loads_csv table or a section `weight`, or the analysis has nothing to do",
         );
     }
     drop(refs);
@@ -799,6 +829,8 @@ fn section(cx: &mut Ctx, t: &Toml, s: &Spanned<super::file::SectionEntry>) -> Se
 struct RawNode<'a> {
     label: &'a str,
     place: Src,
+    /// Where the id itself was written.
+    label_src: Src,
     /// `None`: the value was missing or unreadable and is already reported.
     at: [Option<f64>; 3],
     at_src: [Src; 3],
@@ -813,6 +845,7 @@ fn toml_node<'a>(t: &Toml, n: &'a Spanned<NodeEntry>) -> RawNode<'a> {
     RawNode {
         label: e.id.get_ref(),
         place: t.at(n),
+        label_src: t.at(&e.id),
         at: [Some(at[0]), Some(at[1]), Some(at[2])],
         at_src: [at_src; 3],
         at_keys: ["at", "at", "at"],
@@ -822,7 +855,7 @@ fn toml_node<'a>(t: &Toml, n: &'a Spanned<NodeEntry>) -> RawNode<'a> {
 
 fn add_node(cx: &mut Ctx, raw: RawNode, nodes: &mut Vec<Node>) {
     let item = Item::Named("node", raw.label);
-    check_label(cx, raw.place, item, "id", raw.label);
+    check_label(cx, raw.label_src, item, "id", raw.label);
     if raw.label.is_empty() {
         cx.error(
             raw.place,
@@ -931,6 +964,9 @@ struct Refs<'m> {
     lost_sections: HashSet<&'m str>,
     /// Model size, m, for the zero-length test.
     size: f64,
+    /// The nodes table was named but its rows could not be read (reported):
+    /// any node may be missing, so unknown nodes are not reported.
+    nodes_unread: bool,
 }
 
 impl Refs<'_> {
@@ -939,7 +975,7 @@ impl Refs<'_> {
         if let Some(&i) = self.node_map.get(label) {
             return Some(i);
         }
-        if !self.lost_nodes.contains(label) {
+        if !self.nodes_unread && !self.lost_nodes.contains(label) {
             let hint = if cx.full() {
                 None
             } else {
@@ -991,6 +1027,8 @@ impl Refs<'_> {
 struct RawMember<'a> {
     label: &'a str,
     place: Src,
+    /// Where the id itself was written.
+    label_src: Src,
     kind: (&'a str, Src),
     ends: [(&'a str, Src); 2],
     end_keys: [&'static str; 2],
@@ -1009,6 +1047,7 @@ fn toml_member<'a>(t: &Toml, m: &'a Spanned<MemberEntry>) -> RawMember<'a> {
     RawMember {
         label: e.id.get_ref(),
         place: t.at(m),
+        label_src: t.at(&e.id),
         kind: (e.kind.get_ref(), t.at(&e.kind)),
         ends: [
             (ends[0].get_ref(), t.at(&ends[0])),
@@ -1033,7 +1072,7 @@ fn add_member(
     section_used: &mut [bool],
 ) {
     let item = Item::Named("member", raw.label);
-    check_label(cx, raw.place, item, "id", raw.label);
+    check_label(cx, raw.label_src, item, "id", raw.label);
     if raw.label.is_empty() {
         cx.error(
             raw.place,
@@ -1367,44 +1406,78 @@ fn springs(
     out
 }
 
-fn loads(cx: &mut Ctx, t: &Toml, file: &ModelFile, refs: &Refs) -> Vec<NodalLoad> {
+/// A nodal load as read from either source, before checks.
+struct RawLoad<'a> {
+    node: (&'a str, Src),
+    item: Item<'a>,
+    place: Src,
+    /// `None`: the value was missing or unreadable and is already reported.
+    force: [Option<f64>; 3],
+    force_src: [Src; 3],
+    force_keys: [&'static str; 3],
+}
+
+/// The `[[load]]` tables; `loads_csv` rows are added after them.
+fn toml_loads(cx: &mut Ctx, t: &Toml, file: &ModelFile, refs: &Refs) -> Vec<NodalLoad> {
     let mut out = Vec::with_capacity(file.load.len());
     for (n, l) in file.load.iter().enumerate() {
         let e = l.get_ref();
-        let item = Item::Numbered("load", n + 1);
-        let node = refs.node(cx, e.node.get_ref(), t.at(&e.node), item, "node");
-        let src = t.at(&e.force);
         let f = *e.force.get_ref();
-        let finite = f
-            .iter()
-            .all(|&v| check_number(cx, v, src, item, "force", Rule::Finite, ""));
-        let Some(node) = node else { continue };
-        let target = &refs.nodes[node];
-        for a in Axis::ALL {
-            if f[a.index()] != 0.0 && target.fixed[a.index()] {
-                cx.error(
-                    src,
-                    item,
-                    format!(
-                        "load has a {a} component of {} on node {:?}, whose {a} direction is supported",
-                        fmt_num(f[a.index()]),
-                        target.label
-                    ),
-                    "remove the load or the support; a load on a support goes straight into the ground",
-                );
-            }
+        let raw = RawLoad {
+            node: (e.node.get_ref(), t.at(&e.node)),
+            item: Item::Numbered("load", n + 1),
+            place: t.at(l),
+            force: f.map(Some),
+            force_src: [t.at(&e.force); 3],
+            force_keys: ["force"; 3],
+        };
+        add_load(cx, &raw, refs, &mut out);
+    }
+    out
+}
+
+fn add_load(cx: &mut Ctx, raw: &RawLoad, refs: &Refs, out: &mut Vec<NodalLoad>) {
+    let item = raw.item;
+    let node = refs.node(cx, raw.node.0, raw.node.1, item, "node");
+    // One report per place: the three components of a TOML `force` share it.
+    let mut finite = true;
+    let mut bad_at = None;
+    for a in 0..3 {
+        let ok = match raw.force[a] {
+            Some(_) if bad_at == Some(raw.force_src[a]) => false,
+            Some(v) => check_number(cx, v, raw.force_src[a], item, raw.force_keys[a], Rule::Finite, ""),
+            None => false,
+        };
+        if !ok {
+            bad_at = Some(raw.force_src[a]);
         }
-        if finite {
-            let u = cx.units;
-            out.push(NodalLoad {
-                node,
-                force: f.map(|v| u.force_in(v)),
-                place: t.at(l).place(),
-            });
+        finite &= ok;
+    }
+    let Some(node) = node else { return };
+    let target = &refs.nodes[node];
+    for a in Axis::ALL {
+        let v = raw.force[a.index()].unwrap_or(0.0);
+        if v != 0.0 && target.fixed[a.index()] {
+            cx.error(
+                raw.force_src[a.index()],
+                item,
+                format!(
+                    "load has a {a} component of {} on node {:?}, whose {a} direction is supported",
+                    fmt_num(v),
+                    target.label
+                ),
+                "remove the load or the support; a load on a support goes straight into the ground",
+            );
         }
     }
-    check_size(cx, out.len(), MAX_ITEMS, "loads");
-    out
+    if finite {
+        let u = cx.units;
+        out.push(NodalLoad {
+            node,
+            force: raw.force.map(|v| u.force_in(v.unwrap_or(0.0))),
+            place: raw.place.place(),
+        });
+    }
 }
 
 fn choice<T>(
@@ -1892,441 +1965,6 @@ fn model_checks(cx: &mut Ctx, refs: &Refs, member_entries: usize, attached: &[bo
     }
 }
 
-// ---------------------------------------------------------------------------
-// CSV tables
-
-/// Read the CSV file named by `key`; returns its index in `files` and text.
-fn read_csv(
-    cx: &mut Ctx,
-    t: &Toml,
-    name: &Spanned<String>,
-    key: &'static str,
-    tables: &Tables,
-) -> Option<(u16, String)> {
-    let src = t.at(name);
-    let item = Item::Plain(key);
-    let (shown, text) = match tables {
-        Tables::None => {
-            cx.error(
-                src,
-                item,
-                format!("cannot read {:?}: the model was not read from a file, so there is no folder to look in", name.get_ref()),
-                "load the model from a file, or list the items in the toml file itself",
-            );
-            return None;
-        }
-        Tables::Texts(given) => {
-            let Some((_, text)) = given.iter().find(|(n, _)| *n == name.get_ref().as_str()) else {
-                cx.error(
-                    src,
-                    item,
-                    format!("no table named {:?} was given", name.get_ref()),
-                    "give the table's text under the name written here",
-                );
-                return None;
-            };
-            if text.len() as u64 > MAX_CSV_BYTES {
-                cx.error(
-                    src,
-                    item,
-                    format!("{:?} is larger than {} GiB", name.get_ref(), MAX_CSV_BYTES >> 30),
-                    "split the model; larger tables are not supported",
-                );
-                return None;
-            }
-            (name.get_ref().clone(), text.to_string())
-        }
-        Tables::Folder(base) => {
-            let path = base.join(name.get_ref());
-            let shown = path.display().to_string();
-            let too_big = std::fs::metadata(&path)
-                .map(|m| m.len() > MAX_CSV_BYTES)
-                .unwrap_or(false);
-            if too_big {
-                cx.error(
-                    src,
-                    item,
-                    format!("{shown:?} is larger than {} GiB", MAX_CSV_BYTES >> 30),
-                    "split the model; larger tables are not supported",
-                );
-                return None;
-            }
-            match std::fs::read(&path) {
-                Ok(bytes) => match utf8_text(bytes) {
-                    Ok(text) => (shown, text),
-                    Err(bad) => {
-                        let file = u16::try_from(cx.files.len()).unwrap_or(u16::MAX);
-                        cx.files.push(shown.clone());
-                        let src = Src { file, line: to_u32(bad.line), col: to_u32(bad.column) };
-                        cx.push_error(src, bad.diagnostic(&shown, "table"));
-                        return None;
-                    }
-                },
-                Err(e) => {
-                    cx.error(
-                        src,
-                        item,
-                        format!("cannot read {shown:?}: {}", lower_first(&e.to_string())),
-                        "check the name; it is relative to the folder of the model file; a table must be utf-8 text",
-                    );
-                    return None;
-                }
-            }
-        }
-    };
-    let idx = u16::try_from(cx.files.len()).ok()?;
-    cx.files.push(shown);
-    Some((idx, text))
-}
-
-/// Column names of a CSV table; the first `required` must be present.
-struct Columns {
-    names: &'static [&'static str],
-    required: usize,
-}
-
-const NODE_COLUMNS: Columns = Columns {
-    names: &["id", "x", "y", "z", "fix"],
-    required: 4,
-};
-const MEMBER_COLUMNS: Columns = Columns {
-    names: &[
-        "id",
-        "kind",
-        "end1",
-        "end2",
-        "section",
-        "prestress",
-        "rest_length",
-        "force_density",
-        "target_force",
-        "target_length",
-    ],
-    required: 5,
-};
-
-/// Where each named column is in a row, by the header. `None` if the header
-/// is wrong (reported).
-fn read_header(
-    cx: &mut Ctx,
-    file: u16,
-    line: u32,
-    cells: &[Cell],
-    cols: &Columns,
-) -> Option<Vec<Option<usize>>> {
-    let item = Item::Plain("header");
-    let mut at: Vec<Option<usize>> = vec![None; cols.names.len()];
-    let mut ok = true;
-    for (i, cell) in cells.iter().enumerate() {
-        let src = Src {
-            file,
-            line,
-            col: cell.col,
-        };
-        match cols.names.iter().position(|n| *n == cell.text) {
-            Some(k) if at[k].is_some() => {
-                cx.error(
-                    src,
-                    item,
-                    format!("column `{}` appears twice", cell.text),
-                    "keep one of them",
-                );
-                ok = false;
-            }
-            Some(k) => at[k] = Some(i),
-            None => {
-                let help = suggest::did_you_mean(&cell.text, cols.names.iter().copied())
-                    .unwrap_or_else(|| {
-                        format!(
-                            "valid columns: {}",
-                            suggest::list(cols.names.iter().copied())
-                        )
-                    });
-                cx.error(src, item, format!("unknown column `{}`", cell.text), help);
-                ok = false;
-            }
-        }
-    }
-    for (k, name) in cols.names.iter().enumerate().take(cols.required) {
-        if at[k].is_none() {
-            let help = format!(
-                "the header needs the columns {}",
-                suggest::list(cols.names[..cols.required].iter().copied())
-            );
-            cx.error(
-                Src { file, line, col: 0 },
-                item,
-                format!("missing column `{name}`"),
-                help,
-            );
-            ok = false;
-        }
-    }
-    ok.then_some(at)
-}
-
-/// Rows of one CSV table: reads the header, then hands each well-formed
-/// row (right number of cells) to `row`.
-fn each_row<'a>(
-    cx: &mut Ctx,
-    file: u16,
-    text: &'a str,
-    cols: &Columns,
-    mut row: impl FnMut(&mut Ctx, Row<'_, 'a>) -> bool,
-) {
-    let mut reader = CsvReader::new(text);
-    let mut cells: Vec<Cell<'a>> = Vec::with_capacity(cols.names.len());
-    let header = match reader.next_row(&mut cells) {
-        None => {
-            cx.error(
-                Src {
-                    file,
-                    line: 1,
-                    col: 0,
-                },
-                Item::Plain("header"),
-                "the table is empty",
-                format!(
-                    "start it with the header row {}",
-                    cols.names[..cols.required].join(",")
-                ),
-            );
-            return;
-        }
-        Some(Err(e)) => {
-            cx.error(
-                Src {
-                    file,
-                    line: e.line,
-                    col: e.col,
-                },
-                Item::Plain("header"),
-                e.message,
-                "close the quote",
-            );
-            return;
-        }
-        Some(Ok(line)) => read_header(cx, file, line, &cells, cols),
-    };
-    let Some(columns) = header else { return };
-    let width = cells.len();
-    while let Some(next) = reader.next_row(&mut cells) {
-        let line = match next {
-            Ok(line) => line,
-            Err(e) => {
-                cx.error(
-                    Src {
-                        file,
-                        line: e.line,
-                        col: e.col,
-                    },
-                    Item::Plain("row"),
-                    e.message,
-                    "close the quote; a quote inside a quoted cell is written \"\"",
-                );
-                continue;
-            }
-        };
-        if cells.len() != width {
-            cx.error(
-                Src { file, line, col: 0 },
-                Item::Plain("row"),
-                format!("row has {} cells but the header has {width}", cells.len()),
-                "give every row one cell per column; quote cells that contain commas",
-            );
-            continue;
-        }
-        if !row(
-            cx,
-            Row {
-                file,
-                line,
-                cells: &cells,
-                columns: &columns,
-            },
-        ) {
-            return;
-        }
-    }
-}
-
-/// One row with its header mapping.
-struct Row<'r, 'a> {
-    file: u16,
-    line: u32,
-    cells: &'r [Cell<'a>],
-    columns: &'r [Option<usize>],
-}
-
-impl Row<'_, '_> {
-    fn cell(&self, k: usize) -> Option<&Cell<'_>> {
-        self.columns[k]
-            .map(|i| &self.cells[i])
-            .filter(|c| !c.text.is_empty())
-    }
-
-    fn src(&self, k: usize) -> Src {
-        let col = self.columns[k].map_or(0, |i| self.cells[i].col);
-        Src {
-            file: self.file,
-            line: self.line,
-            col,
-        }
-    }
-
-    fn whole(&self) -> Src {
-        Src {
-            file: self.file,
-            line: self.line,
-            col: 0,
-        }
-    }
-
-    fn text(&self, k: usize) -> &str {
-        self.cell(k).map_or("", |c| &c.text)
-    }
-
-    /// A number cell: `None` if empty or not a number (the latter reported).
-    fn number(&self, cx: &mut Ctx, k: usize, name: &str, item: Item) -> Option<f64> {
-        let cell = self.cell(k)?;
-        match cell.text.parse::<f64>() {
-            Ok(v) => Some(v),
-            Err(_) => {
-                cx.error(
-                    self.src(k),
-                    item,
-                    format!("`{name}` is not a number: {:?}", cell.text),
-                    "write a decimal number such as 2.5 or -1e-3",
-                );
-                None
-            }
-        }
-    }
-}
-
-fn csv_nodes(cx: &mut Ctx, file: u16, text: &str, nodes: &mut Vec<Node>) {
-    each_row(cx, file, text, &NODE_COLUMNS, |cx, row| {
-        if nodes.len() >= MAX_NODES {
-            cx.error(
-                row.whole(),
-                Item::Plain("row"),
-                format!("the model has more than {MAX_NODES} nodes, the most tautline accepts"),
-                "split the model; larger models are not supported",
-            );
-            return false;
-        }
-        let label = row.text(0);
-        if label.is_empty() {
-            cx.error(
-                row.src(0),
-                Item::Plain("node"),
-                "node id is empty",
-                "give every node an id in the `id` column",
-            );
-            return true;
-        }
-        let item = Item::Named("node", label);
-        let mut at = [None; 3];
-        for (a, name) in ["x", "y", "z"].into_iter().enumerate() {
-            at[a] = row.number(cx, a + 1, name, item);
-            if row.cell(a + 1).is_none() {
-                cx.error(
-                    row.src(a + 1),
-                    item,
-                    format!("missing `{name}` coordinate"),
-                    "every node needs x, y and z",
-                );
-            }
-        }
-        let raw = RawNode {
-            label,
-            place: row.whole(),
-            at,
-            at_src: [row.src(1), row.src(2), row.src(3)],
-            at_keys: ["x", "y", "z"],
-            fix: row.cell(4).map(|c| (&*c.text, row.src(4))),
-        };
-        add_node(cx, raw, nodes);
-        true
-    });
-}
-
-fn csv_members(
-    cx: &mut Ctx,
-    file: u16,
-    text: &str,
-    refs: &Refs,
-    members: &mut Vec<Member>,
-    attached: &mut [bool],
-    section_used: &mut [bool],
-) -> usize {
-    let mut rows = 0;
-    each_row(cx, file, text, &MEMBER_COLUMNS, |cx, row| {
-        rows += 1;
-        if members.len() >= MAX_MEMBERS {
-            cx.error(
-                row.whole(),
-                Item::Plain("row"),
-                format!("the model has more than {MAX_MEMBERS} members, the most tautline accepts"),
-                "split the model; larger models are not supported",
-            );
-            return false;
-        }
-        let label = row.text(0);
-        if label.is_empty() {
-            cx.error(
-                row.src(0),
-                Item::Plain("member"),
-                "member id is empty",
-                "give every member an id in the `id` column",
-            );
-            return true;
-        }
-        let item = Item::Named("member", label);
-        let mut complete = true;
-        for (k, name) in MEMBER_COLUMNS
-            .names
-            .iter()
-            .enumerate()
-            .take(MEMBER_COLUMNS.required)
-            .skip(1)
-        {
-            if row.cell(k).is_none() {
-                cx.error(
-                    row.src(k),
-                    item,
-                    format!("missing `{name}`"),
-                    format!("fill in the `{name}` column"),
-                );
-                complete = false;
-            }
-        }
-        if !complete {
-            return true;
-        }
-        let opt = |cx: &mut Ctx, k: usize| {
-            row.number(cx, k, MEMBER_COLUMNS.names[k], item)
-                .map(|v| (v, row.src(k)))
-        };
-        let raw = RawMember {
-            label,
-            place: row.whole(),
-            kind: (row.text(1), row.src(1)),
-            ends: [(row.text(2), row.src(2)), (row.text(3), row.src(3))],
-            end_keys: ["end1", "end2"],
-            section: (row.text(4), row.src(4)),
-            prestress: opt(cx, 5),
-            rest_length: opt(cx, 6),
-            force_density: opt(cx, 7),
-            target_force: opt(cx, 8),
-            target_length: opt(cx, 9),
-        };
-        add_member(cx, &raw, refs, members, attached, section_used);
-        true
-    });
-    rows
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -2334,7 +1972,7 @@ mod tests {
     use std::sync::atomic::{AtomicUsize, Ordering};
 
     /// A small valid model the error tests add to.
-    const BASE: &str = r#"title = "base"
+    pub(super) const BASE: &str = r#"title = "base"
 [[section]]
 name = "strand"
 EA = 1000.0
@@ -2356,7 +1994,7 @@ node = "B"
 force = [1, 0, 0]
 "#;
 
-    fn errors(text: &str) -> Vec<Diagnostic> {
+    pub(super) fn errors(text: &str) -> Vec<Diagnostic> {
         match load_str(text, "m.toml", None) {
             Ok(_) => panic!("model should be rejected:\n{text}"),
             Err(e) => e.diagnostics,
@@ -2371,7 +2009,7 @@ force = [1, 0, 0]
     }
 
     /// 1-based line of the first occurrence of `needle`.
-    fn line_of(text: &str, needle: &str) -> usize {
+    pub(super) fn line_of(text: &str, needle: &str) -> usize {
         let at = text
             .find(needle)
             .unwrap_or_else(|| panic!("{needle:?} not in text"));
@@ -2380,7 +2018,7 @@ force = [1, 0, 0]
 
     /// Find the diagnostic at `file:line` whose text mentions `item` and
     /// `words`; fail with every diagnostic shown.
-    fn expect(ds: &[Diagnostic], file: &str, line: usize, item: &str, words: &str) -> Diagnostic {
+    pub(super) fn expect(ds: &[Diagnostic], file: &str, line: usize, item: &str, words: &str) -> Diagnostic {
         let place = format!("{file}:{line}");
         let found = ds.iter().find(|d| {
             let s = d.to_string();
@@ -2404,7 +2042,7 @@ force = [1, 0, 0]
         format!("{BASE}{extra}")
     }
 
-    fn temp_dir() -> PathBuf {
+    pub(super) fn temp_dir() -> PathBuf {
         static N: AtomicUsize = AtomicUsize::new(0);
         let dir = std::env::temp_dir().join(format!(
             "tautline-model-{}-{}",
@@ -3244,18 +2882,6 @@ watch = ["B.x", "A.z"]
         );
     }
 
-    // -- csv --------------------------------------------------------------
-
-    #[test]
-    fn tables_given_as_text_are_read_and_checked() {
-        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
-        let nodes = "id,x,y,z\nC,2,0,0\nD,3,0,nan\n";
-        let ds = load_texts(&text, "m.toml", &[("n.csv", nodes)]).unwrap_err().diagnostics;
-        expect(&ds, "n.csv", 3, "node \"D\"", "finite");
-        let ds = load_texts(&text, "m.toml", &[]).unwrap_err().diagnostics;
-        expect(&ds, "m.toml", 1, "nodes_csv", "no table named");
-    }
-
     #[test]
     fn counts_above_their_caps_are_refused() {
         for (key, v) in [("steps", MAX_STEPS + 1), ("max_iterations", MAX_ITERATIONS + 1), ("max_cutbacks", MAX_CUTBACKS + 1)] {
@@ -3263,86 +2889,6 @@ watch = ["B.x", "A.z"]
             let ds = errors(&text);
             expect(&ds, "m.toml", line_of(&text, key), "[analysis]", "must be at most");
         }
-    }
-
-    #[test]
-    fn a_table_that_is_not_utf8_names_its_line() {
-        let dir = temp_dir();
-        std::fs::write(dir.join("n.csv"), b"id,x,y,z\nC,1,\xff,0\n").unwrap();
-        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
-        let ds = load_str(&text, "m.toml", Some(&dir)).unwrap_err().diagnostics;
-        let n = dir.join("n.csv").display().to_string();
-        let d = expect(&ds, &n, 2, "table", "not utf-8");
-        assert_eq!(d.column, Some(5));
-    }
-
-    #[test]
-    fn csv_without_a_folder_is_an_error() {
-        let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
-        let ds = errors(&text);
-        expect(&ds, "m.toml", 1, "nodes_csv", "not read from a file");
-    }
-
-    #[test]
-    fn csv_header_problems_name_the_file_and_line_1() {
-        let dir = temp_dir();
-        std::fs::write(dir.join("n.csv"), "id,x,y,zz,fixed\nC,1,1,1,\n").unwrap();
-        std::fs::write(dir.join("m.csv"), "id,kind,end1,section\n").unwrap();
-        let text = format!("nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n{BASE}");
-        let ds = load_str(&text, "m.toml", Some(&dir))
-            .unwrap_err()
-            .diagnostics;
-        let nodes = dir.join("n.csv").display().to_string();
-        let members = dir.join("m.csv").display().to_string();
-        let d = expect(&ds, &nodes, 1, "header", "unknown column `zz`");
-        assert_eq!(d.help.as_deref(), Some("did you mean \"z\"?"));
-        let d = expect(&ds, &nodes, 1, "header", "unknown column `fixed`");
-        assert_eq!(d.help.as_deref(), Some("did you mean \"fix\"?"));
-        expect(&ds, &nodes, 1, "header", "missing column `z`");
-        expect(&ds, &members, 1, "header", "missing column `end2`");
-        std::fs::remove_dir_all(&dir).ok();
-    }
-
-    #[test]
-    fn csv_row_problems_name_the_file_and_line() {
-        let dir = temp_dir();
-        std::fs::write(
-            dir.join("n.csv"),
-            "id,x,y,z,fix\nC,1,0,0,q\nD,abc,0,0,\nB,3,0,0,\nE,1,0\n\"F,1,0,0,\nG,,0,0,\nH,4,0,0,\n",
-        )
-        .unwrap();
-        std::fs::write(
-            dir.join("m.csv"),
-            "id,kind,end1,end2,section,prestress\nm1,bar,A,C,strand,\nm5,bar,A,Cq,strand,\nm6,bar,A,H,,\nm7,cable,A,H,strand,-1\n",
-        )
-        .unwrap();
-        let text = format!("nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n{BASE}");
-        let ds = load_str(&text, "m.toml", Some(&dir))
-            .unwrap_err()
-            .diagnostics;
-        let n = dir.join("n.csv").display().to_string();
-        let m = dir.join("m.csv").display().to_string();
-        expect(&ds, &n, 2, "node \"C\"", "invalid letter 'q'");
-        expect(&ds, &n, 3, "node \"D\"", "`x` is not a number: \"abc\"");
-        let d = expect(&ds, &n, 4, "node \"B\"", "duplicate node id");
-        assert!(d.message.contains("m.toml:"), "{d}");
-        expect(&ds, &n, 5, "row", "row has 3 cells but the header has 5");
-        expect(&ds, &n, 6, "row", "no closing quote");
-        expect(&ds, &n, 7, "node \"G\"", "missing `x` coordinate");
-        let d = expect(&ds, &m, 2, "member \"m1\"", "duplicate member id");
-        assert!(d.message.contains("m.toml:"), "{d}");
-        let d = expect(&ds, &m, 3, "member \"m5\"", "unknown node \"Cq\" in `end2`");
-        assert_eq!(d.help.as_deref(), Some("did you mean \"C\"?"));
-        assert_eq!(d.column, Some(10));
-        expect(&ds, &m, 4, "member \"m6\"", "missing `section`");
-        expect(
-            &ds,
-            &m,
-            5,
-            "member \"m7\"",
-            "a cable cannot carry compression",
-        );
-        std::fs::remove_dir_all(&dir).ok();
     }
 
     #[test]
@@ -3370,27 +2916,5 @@ watch = ["B.x", "A.z"]
         assert!(load_str(&deep, "m.toml", None).is_err());
         assert!(load_str("", "m.toml", None).is_err());
         assert!(load_str("\u{feff}\0\u{7}", "m.toml", None).is_err());
-    }
-
-    #[test]
-    fn large_csv_tables_read_quickly() {
-        let dir = temp_dir();
-        let n = 200_000;
-        let mut nodes = String::from("id,x,y,z,fix\nA0,0,0,0,xyz\n");
-        let mut members = String::from("id,kind,end1,end2,section\n");
-        for i in 1..n {
-            nodes.push_str(&format!("A{i},{i},0.5,0,\n"));
-            members.push_str(&format!("c{i},cable,A{},A{i},s\n", i - 1));
-        }
-        std::fs::write(dir.join("n.csv"), nodes).unwrap();
-        std::fs::write(dir.join("m.csv"), members).unwrap();
-        let text = "nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n[[section]]\nname = \"s\"\nEA = 1.0\n[[load]]\nnode = \"A1\"\nforce = [0, 0, -1]\n";
-        let start = std::time::Instant::now();
-        let m = load_str(text, "m.toml", Some(&dir)).unwrap_or_else(|e| panic!("{e}"));
-        let took = start.elapsed();
-        assert_eq!((m.n_nodes(), m.n_members()), (n, n - 1));
-        assert_eq!(m.members[n - 2].ends, [n - 2, n - 1]);
-        assert!(took.as_secs_f64() < 5.0, "took {took:?}");
-        std::fs::remove_dir_all(&dir).ok();
     }
 }

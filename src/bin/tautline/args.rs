@@ -190,7 +190,7 @@ pub enum Generate {
         /// Hold the edge nodes by springs of this stiffness (N/m) instead of supports
         #[arg(long, value_name = "K")]
         elastic_edge: Option<f64>,
-        /// Write node and member tables to CSV files above this many nodes
+        /// Write node, member and load tables to CSV files above this many nodes
         #[arg(long, default_value_t = 2000)]
         csv_threshold: usize,
         /// Model file to write (CSV tables go beside it)
@@ -217,7 +217,7 @@ pub enum Generate {
         /// Downward reference load at the crown, N
         #[arg(long, default_value_t = 1000.0, allow_negative_numbers = true)]
         crown_load: f64,
-        /// Write node and member tables to CSV files above this many nodes
+        /// Write node, member and load tables to CSV files above this many nodes
         #[arg(long, default_value_t = 2000)]
         csv_threshold: usize,
         /// Model file to write (CSV tables go beside it)
