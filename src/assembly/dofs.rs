@@ -15,23 +15,27 @@ pub struct DofMap {
     dof: Vec<u32>,
     /// For each free DOF, its node and direction.
     owner: Vec<NodeDir>,
+    /// For each free DOF, its index 3·node + axis in [`DofMap::raw`].
+    raw_index: Vec<u32>,
 }
 
 impl DofMap {
     pub fn new(model: &Model) -> DofMap {
         let mut dof = Vec::with_capacity(3 * model.n_nodes());
         let mut owner = Vec::new();
+        let mut raw_index = Vec::new();
         for (node, n) in model.nodes.iter().enumerate() {
             for axis in Axis::ALL {
                 if n.fixed[axis.index()] {
                     dof.push(FIXED);
                 } else {
+                    raw_index.push(dof.len() as u32);
                     dof.push(owner.len() as u32);
                     owner.push(NodeDir { node, axis });
                 }
             }
         }
-        DofMap { dof, owner }
+        DofMap { dof, owner, raw_index }
     }
 
     /// Number of free DOFs.
@@ -50,6 +54,12 @@ impl DofMap {
     #[inline]
     pub fn raw(&self) -> &[u32] {
         &self.dof
+    }
+
+    /// For each free DOF, its index 3·node + axis in [`DofMap::raw`].
+    #[inline]
+    pub fn raw_index(&self) -> &[u32] {
+        &self.raw_index
     }
 
     /// The node and direction of a free DOF.
