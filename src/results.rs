@@ -155,7 +155,7 @@ pub struct EquilibriumOut {
     pub reactions: [f64; 3],
     /// applied + reactions: zero at equilibrium.
     pub imbalance: [f64; 3],
-    /// |imbalance| / (|applied| + |reactions|).
+    /// |imbalance| / max(|applied| + |reactions|, |total reference load|).
     pub relative_imbalance: f64,
 }
 
@@ -249,6 +249,7 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
             model.analysis.max_steps
         ),
         StopReason::Interrupted => format!("interrupted at load factor {last:.6}; converged steps are kept"),
+        StopReason::NoStartEquilibrium => start_failure_message(model, path),
         StopReason::Mechanism => {
             let moving = path.mechanism.as_ref().map(|m| {
                 m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect::<Vec<_>>().join(", ")
@@ -324,6 +325,59 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
             )
         }
     }
+}
+
+/// Why the prestressed start has no equilibrium, in the model's words:
+/// the members that cannot hold their tension, what is then free to move,
+/// where the given geometry is out of balance, and what to do.
+fn start_failure_message(model: &Model, path: &Path) -> String {
+    let lambda = model.analysis.start_load_factor;
+    let Some(f) = &path.start_failure else {
+        return format!("no equilibrium was found at the start load factor {lambda:.6}");
+    };
+    let units = &model.units;
+    let names = |ids: &mut dyn Iterator<Item = String>, max: usize| {
+        let all: Vec<String> = ids.collect();
+        let more = all.len().saturating_sub(max);
+        let mut s = all.into_iter().take(max).collect::<Vec<_>>().join(", ");
+        if more > 0 {
+            s.push_str(&format!(" and {more} more"));
+        }
+        s
+    };
+    let how = match &f.termination {
+        Termination::SingularTangent { .. } => "the corrector came to rest on a singular tangent",
+        Termination::MaxIterations => "the corrector ran out of iterations",
+        Termination::Diverged => "the iterations diverged",
+        _ => "the corrector found none",
+    };
+    let mut msg = format!("no equilibrium at the start load factor {lambda:.6}: {how}");
+    if !f.lost_prestress.is_empty() {
+        let mut ids = f.lost_prestress.iter().map(|&m| format!("{:?}", model.members[m as usize].label));
+        let (noun, verb) = if f.lost_prestress.len() == 1 { ("member", "is") } else { ("members", "are") };
+        msg.push_str(&format!(
+            "; {noun} {} {verb} in tension in the given geometry but lose that tension: nothing holds the prestress",
+            names(&mut ids, 8)
+        ));
+    }
+    if !f.free_dirs.is_empty() {
+        let mut dirs = f.free_dirs.iter().map(|nd| model.node_dir_label(*nd));
+        msg.push_str(&format!("; then {} can move without resistance", names(&mut dirs, 8)));
+    }
+    if let Some(&(node, force)) = f.out_of_balance.first() {
+        msg.push_str(&format!(
+            "; the given geometry is out of balance by up to {:.4e} {} at node {:?} (relative residual {:.3e})",
+            units.force_out(force),
+            units.force.name(),
+            model.nodes[node].label,
+            f.given_residual
+        ));
+    }
+    msg.push_str(
+        "; find a shape in which the prestress is in balance first (tautline form), \
+         or add the supports or members that hold it, or give rest lengths instead of prestress",
+    );
+    msg
 }
 
 /// Critical points seen as changes of the tangent's negative pivot count
@@ -416,7 +470,10 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
     // Dead load (self-weight) in full plus λ times the reference load.
     let applied = system.applied_total(st.lambda);
     let imbalance = [applied[0] + react_sum[0], applied[1] + react_sum[1], applied[2] + react_sum[2]];
-    let denom = norm3(applied) + norm3(react_sum);
+    // The same absolute floor as the convergence test: at a stress-free
+    // state (λ = 0, nothing loaded) the reference load sets the scale, so
+    // rounding is not reported as a 100 % imbalance.
+    let denom = (norm3(applied) + norm3(react_sum)).max(norm3(system.total_reference_load()));
     let equilibrium = EquilibriumOut {
         applied: applied.map(|v| units.force_out(v)),
         reactions: react_sum.map(|v| units.force_out(v)),

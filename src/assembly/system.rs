@@ -305,6 +305,21 @@ impl System {
         self.f_ref_norm
     }
 
+    /// The relative residual every solver judges convergence by:
+    /// ‖r‖ / max(‖λ·f_ref + f_dead‖ + ‖reactions‖, ‖f_ref‖).
+    ///
+    /// The first term is the force level of the state. The second is an
+    /// absolute floor, the reference load itself: without it a stress-free
+    /// state (λ = 0 on a displacement-controlled path, or an unloaded,
+    /// unstressed start) has a force level of 0 and no residual, however
+    /// small, would ever pass. With it, ‖r‖ ≤ tol·‖f_ref‖ always converges
+    /// (common practice, no source). Models with no reference load keep a
+    /// tiny positive scale so the ratio stays finite.
+    pub fn relative_residual(&self, norms: ResidualNorms) -> f64 {
+        let scale = norms.force_scale.max(self.f_ref_norm).max(f64::MIN_POSITIVE);
+        norms.residual / scale
+    }
+
     pub fn n_free(&self) -> usize {
         self.dofs.n_free()
     }

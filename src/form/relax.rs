@@ -198,7 +198,7 @@ struct Analysis<'a> {
 impl Dynamics for Analysis<'_> {
     fn residual(&mut self, u: &[f64], r: &mut [f64]) -> f64 {
         let n = self.system.residual(u, self.lambda, r, self.reactions);
-        relative(self.system, n.residual, n.force_scale)
+        self.system.relative_residual(n)
     }
 
     /// Row sums of |K| from the tangent (upper triangle, so each
@@ -241,11 +241,6 @@ impl Relaxation {
     }
 }
 
-/// Relative residual as the static solver judges it (`solve::drive`).
-fn relative(system: &System, residual: f64, force_scale: f64) -> f64 {
-    let scale = force_scale.max(1e-12 * system.f_ref_norm()).max(f64::MIN_POSITIVE);
-    residual / scale
-}
 
 // ---------------------------------------------------------------------------
 // Form finding

@@ -35,6 +35,9 @@ pub enum StopReason {
     Mechanism,
     /// An observer (Ctrl-C, a time budget) asked to stop.
     Interrupted,
+    /// The given geometry and its prestress have no equilibrium at the start
+    /// load factor that the corrector could find ([`StartFailure`] says why).
+    NoStartEquilibrium,
 }
 
 impl StopReason {
@@ -46,6 +49,7 @@ impl StopReason {
             StopReason::NoConvergence => "no_convergence",
             StopReason::Mechanism => "mechanism",
             StopReason::Interrupted => "interrupted",
+            StopReason::NoStartEquilibrium => "no_start_equilibrium",
         }
     }
 
@@ -101,6 +105,28 @@ pub struct Path {
     pub keep: KeepFields,
     /// Whole displacement fields of the steps the policy keeps, ascending.
     pub fields: Vec<Field>,
+    /// Why no equilibrium was found at the start (stop `NoStartEquilibrium`).
+    pub start_failure: Option<StartFailure>,
+}
+
+/// The prestressed start could not be brought into balance: what the
+/// corrector met, which members lost the tension they were given and where
+/// the given geometry is most out of balance.
+#[derive(Clone, Debug)]
+pub struct StartFailure {
+    pub termination: Termination,
+    /// Relative residual of the given geometry (before any correction).
+    pub given_residual: f64,
+    /// Members in tension in the given geometry that are slack, or keep less
+    /// than [`LOST_PRESTRESS`] of that tension, at the last state the
+    /// corrector reached (or at the singular state it converged to), by
+    /// index, ascending: the prestress they cannot hold.
+    pub lost_prestress: Vec<u32>,
+    /// Nodes with the largest out-of-balance force in the given geometry,
+    /// largest first (node index, force in N), at most five.
+    pub out_of_balance: Vec<(usize, f64)>,
+    /// Node directions free to move at the last state, when its tangent was singular.
+    pub free_dirs: Vec<NodeDir>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -142,6 +168,10 @@ pub struct Critical {
 /// alignment. The null vector of a limit point carries load; that of a
 /// symmetric bifurcation is orthogonal to it (common practice, no source).
 pub const BIFURCATION_ALIGNMENT: f64 = 1e-3;
+
+/// A member that keeps less than this share of its given tension at a failed
+/// start has lost its prestress (a cable run back to its rest length).
+pub const LOST_PRESTRESS: f64 = 1e-6;
 
 /// Largest number of bisections when pinpointing a critical point.
 pub const MAX_BISECTIONS: usize = 60;
@@ -411,6 +441,39 @@ impl<'a> Tracer<'a> {
         Termination::MaxIterations
     }
 
+    /// What is known when the start has no equilibrium: the given
+    /// geometry's imbalance (at `given_u`, the start displacements), the
+    /// members in tension there that are slack at `reached` (the last state
+    /// the corrector reached), and the free directions of a singular end.
+    fn start_failure(&self, given_u: &[f64], reached: &State, termination: Termination) -> StartFailure {
+        let sys = self.system;
+        let mut r = vec![0.0; sys.n_free()];
+        let mut react = vec![0.0; reached.reactions.len()];
+        let norms = sys.residual(given_u, reached.lambda, &mut r, &mut react);
+        let mut per_node = vec![0.0f64; self.model.n_nodes()];
+        for (d, v) in r.iter().enumerate() {
+            per_node[sys.dofs.owner(d).node] += v * v;
+        }
+        let mut out_of_balance: Vec<(usize, f64)> =
+            per_node.iter().enumerate().filter(|(_, f)| **f > 0.0).map(|(n, f)| (n, f.sqrt())).collect();
+        out_of_balance.sort_by(|a, b| b.1.total_cmp(&a.1));
+        out_of_balance.truncate(5);
+        let given = sys.member_results(given_u);
+        let now = sys.member_results(&reached.u);
+        let lost_prestress = given
+            .iter()
+            .zip(&now)
+            .enumerate()
+            .filter(|(_, (g, n))| g.force > 0.0 && (n.slack || n.force <= LOST_PRESTRESS * g.force))
+            .map(|(m, _)| m as u32)
+            .collect();
+        let free_dirs = match &termination {
+            Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
+            _ => Vec::new(),
+        };
+        StartFailure { termination, given_residual: sys.relative_residual(norms), lost_prestress, out_of_balance, free_dirs }
+    }
+
     /// Runs the analysis of the model's `[analysis]` table.
     pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> Path {
         let a = self.model.analysis.clone();
@@ -441,6 +504,7 @@ impl<'a> Tracer<'a> {
                 critical: Vec::new(),
                 keep,
                 fields,
+                start_failure: None,
             };
         }
         ws.fresh = true;
@@ -457,28 +521,30 @@ impl<'a> Tracer<'a> {
                 restore(&mut state, start_u.clone(), a.start_load_factor);
                 term = self.step_in_dead_load(ws, &mut state, &mut rec0, observer);
             }
-            let failed = term != Termination::Converged
-                || solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some();
-            if failed {
-                let failure = Failure {
-                    step: 0,
-                    lambda_tried: 0.0,
-                    termination: term,
-                    relative_residual: state.relative_residual,
-                    zero_pivot_dirs: Vec::new(),
+            let singular_dofs = if term == Termination::Converged {
+                solve::refactor_at(sys, ws, &mut state, &mut rec0)
+            } else {
+                None
+            };
+            if term != Termination::Converged || singular_dofs.is_some() {
+                let termination = match singular_dofs {
+                    Some(dofs) => Termination::SingularTangent { dofs },
+                    None => term,
                 };
+                let start_failure = self.start_failure(&start_u, &state, termination);
                 add_records(&mut self.wasted, &rec0);
-                restore(&mut state, start_u, 0.0);
+                restore(&mut state, start_u, a.start_load_factor);
                 return Path {
                     points: Vec::new(),
-                    stop: StopReason::NoConvergence,
+                    stop: StopReason::NoStartEquilibrium,
                     final_state: state,
                     mechanism: None,
-                    last_failure: Some(failure),
+                    last_failure: None,
                     n_cutbacks,
                     critical: Vec::new(),
                     keep: keeper.policy().clone(),
                     fields: Vec::new(),
+                    start_failure: Some(start_failure),
                 };
             }
             ws.fresh = true;
@@ -695,7 +761,7 @@ impl<'a> Tracer<'a> {
         // The last converged state is `state` (a failed step restored it).
         let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
         let (keep, fields) = keeper.finish(last);
-        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields }
+        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields, start_failure: None }
     }
 }
 

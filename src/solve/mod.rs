@@ -232,12 +232,9 @@ impl Workspace {
     }
 }
 
-/// A force scale below which the residual is judged against the reference
-/// load instead, so an unloaded, unstressed start does not divide by zero.
+/// The relative residual with its absolute floor ([`System::relative_residual`]).
 fn relative(system: &System, norms: crate::assembly::system::ResidualNorms) -> f64 {
-    let f_ref = system.f_ref_norm();
-    let scale = norms.force_scale.max(1e-12 * f_ref).max(f64::MIN_POSITIVE);
-    norms.residual / scale
+    system.relative_residual(norms)
 }
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {

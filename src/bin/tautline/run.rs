@@ -459,7 +459,13 @@ fn print_run_summary(m: &Model, r: &results::Results) {
         "totals: {} iterations, {} factorizations, {} residual evaluations, {} cut-backs, {:.3} s",
         r.totals.iterations, r.totals.factorizations, r.totals.residual_evaluations, r.totals.cutbacks, r.totals.seconds
     );
-    println!("equilibrium check: |loads + reactions| / |loads| = {:.2e}", r.equilibrium.relative_imbalance);
+    if r.steps.is_empty() {
+        // No converged state: the written state is the given geometry, whose
+        // imbalance says nothing about equilibrium.
+        println!("equilibrium check: none (no converged state)");
+    } else {
+        println!("equilibrium check: |loads + reactions| / |loads| = {:.2e}", r.equilibrium.relative_imbalance);
+    }
     let status = if r.converged { "done" } else { "stopped before the target" };
     println!("{status}: {}", r.stop_message);
 }
