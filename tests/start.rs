@@ -225,3 +225,27 @@ watch = ["C.z", "C.x"]
         assert!(res.equilibrium.relative_imbalance < 1e-9, "{method:?}: {}", res.equilibrium.relative_imbalance);
     }
 }
+
+/// `tautline solve … | head`: the reader goes away before the summary is
+/// printed. The run ends quietly (no panic report) with 141 = 128 + SIGPIPE,
+/// and its output files are written whole.
+#[test]
+fn a_closed_stdout_pipe_ends_the_run_quietly() {
+    let dir = std::env::temp_dir().join(format!("tautline-pipe-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let out_dir = dir.join("out");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_tautline"))
+        .args(["solve", "models/roof_arch.toml", "-o", out_dir.to_str().unwrap()])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(141), "{stderr}");
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    let json = std::fs::read_to_string(out_dir.join("results.json")).unwrap();
+    assert!(json.contains("\"stop_reason\""));
+    let _ = std::fs::remove_dir_all(&dir);
+}
