@@ -22,6 +22,70 @@ pub enum NetEdge {
     Elastic { k: f64 },
 }
 
+/// The generated reference load (downward, −z).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Loading {
+    /// A load on the plan, N/m², lumped to the nodes by tributary plan area:
+    /// each plan cell (a rectangle of the net, a triangle of the dome) gives
+    /// every corner an equal share of its area, which is the consistent load
+    /// of a uniform pressure on a bilinear rectangle (A/4 per corner) or a
+    /// linear triangle (A/3 per corner), since ∫N_i dA is A/4 resp. A/3
+    /// (derived). Shares that fall on supported nodes go straight to the
+    /// supports and are not written; so the free nodes carry the pressure on
+    /// the plan less a strip half a cell wide along the supports, and
+    /// refining the grid leaves the total load (almost) unchanged.
+    Plan(f64),
+    /// The same force on every free node, N (the total grows with the
+    /// number of nodes).
+    PerNode(f64),
+}
+
+impl Loading {
+    /// 600 N/m² on the plan: a light snow load (common practice, no source).
+    pub const DEFAULT: Loading = Loading::Plan(600.0);
+
+    fn check(self) -> Result<(), String> {
+        match self {
+            Loading::Plan(p) => finite("load", p),
+            Loading::PerNode(f) => finite("node load", f),
+        }
+    }
+
+    /// The downward force on each node (0 on supported nodes), given the
+    /// nodes' tributary plan areas.
+    fn forces(self, areas: &[f64], fixed: &[bool]) -> Vec<f64> {
+        areas
+            .iter()
+            .zip(fixed)
+            .map(|(&a, &f)| match (f, self) {
+                (true, _) => 0.0,
+                (false, Loading::Plan(p)) => p * a,
+                (false, Loading::PerNode(n)) => n,
+            })
+            .collect()
+    }
+
+    fn describe(self) -> String {
+        match self {
+            Loading::Plan(p) => format!("load = {} N/m2 on the plan, spread by tributary plan area", num(p)),
+            Loading::PerNode(f) => format!("load = {} N per free node", num(f)),
+        }
+    }
+}
+
+/// Tributary plan areas of the nodes: every cell (its corner nodes and its
+/// plan area) gives each corner an equal share (see [`Loading::Plan`]).
+fn tributary_areas<'a>(n_nodes: usize, cells: impl Iterator<Item = (&'a [usize], f64)>) -> Vec<f64> {
+    let mut area = vec![0.0; n_nodes];
+    for (corners, a) in cells {
+        let share = a / corners.len() as f64;
+        for &k in corners {
+            area[k] += share;
+        }
+    }
+    area
+}
+
 /// Options of [`saddle_net`].
 #[derive(Clone, Debug, PartialEq)]
 pub struct NetOptions {
@@ -42,8 +106,8 @@ pub struct NetOptions {
     pub force_density: f64,
     /// Axial rigidity of the cables, N.
     pub ea: f64,
-    /// Downward reference load on every node that has no support, N.
-    pub load: f64,
+    /// Downward reference load on the nodes that have no support.
+    pub load: Loading,
     pub edge: NetEdge,
     /// Node and member tables go to CSV files when the net has more nodes
     /// than this.
@@ -60,12 +124,17 @@ impl Default for NetOptions {
             rise: 2.0,
             force_density: 2000.0,
             ea: 2.0e7,
-            load: 500.0,
+            load: Loading::DEFAULT,
             edge: NetEdge::Fixed,
             csv_threshold: 2000,
         }
     }
 }
+
+/// The dome's default load: see README ("generate") for why.
+pub const DOME_DEFAULT_LOAD: Loading = Loading::Plan(600.0);
+/// The dome's default crown load, N.
+pub const DOME_DEFAULT_CROWN_LOAD: f64 = 0.0;
 
 /// Options of [`lattice_dome`].
 #[derive(Clone, Debug, PartialEq)]
@@ -80,7 +149,9 @@ pub struct DomeOptions {
     pub rise: f64,
     /// Axial rigidity of the bars, N.
     pub ea: f64,
-    /// Downward reference load at the crown, N.
+    /// Downward reference load on the free nodes, by plan area or per node.
+    pub load: Loading,
+    /// Downward reference load at the crown, N, on top of `load`.
     pub crown_load: f64,
     /// Node and member tables go to CSV files when the dome has more nodes
     /// than this.
@@ -95,7 +166,8 @@ impl Default for DomeOptions {
             radius: 10.0,
             rise: 1.0,
             ea: 1.0e8,
-            crown_load: 1000.0,
+            load: DOME_DEFAULT_LOAD,
+            crown_load: DOME_DEFAULT_CROWN_LOAD,
             csv_threshold: 2000,
         }
     }
@@ -139,7 +211,7 @@ pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
     finite("rise", o.rise)?;
     positive("force_density", o.force_density)?;
     positive("ea", o.ea)?;
-    finite("load", o.load)?;
+    o.load.check()?;
     let spring = match o.edge {
         NetEdge::Fixed => None,
         NetEdge::Elastic { k } => {
@@ -190,11 +262,11 @@ pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
             num(o.rise)
         ),
         format!(
-            "  force_density = {} N/m, ea = {} N, load = {} N per free node,",
+            "  force_density = {} N/m, ea = {} N,",
             num(o.force_density),
             num(o.ea),
-            num(o.load)
         ),
+        format!("  {},", o.load.describe()),
         match spring {
             None => "  edge = fixed (boundary nodes supported in x, y and z)".into(),
             Some(k) => format!(
@@ -248,13 +320,13 @@ pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
             }
         }
     }
-    if o.load != 0.0 {
-        for k in 0..n_nodes {
-            if !d.fixed[k] {
-                d.loads.push((k, [0.0, 0.0, -o.load]));
-            }
-        }
-    }
+    // Plan cells: the grid rectangles, each (span_x/(nx−1)) × (span_y/(ny−1)).
+    let cell = (o.span_x / (nx - 1) as f64) * (o.span_y / (ny - 1) as f64);
+    let cells: Vec<[usize; 4]> = (0..ny - 1)
+        .flat_map(|j| (0..nx - 1).map(move |i| [at(i, j), at(i + 1, j), at(i + 1, j + 1), at(i, j + 1)]))
+        .collect();
+    let areas = tributary_areas(n_nodes, cells.iter().map(|c| (&c[..], cell)));
+    d.add_loads(&o.load.forces(&areas, &d.fixed));
     d.control = at((nx - 1) / 2, (ny - 1) / 2);
     d.tolerance = Some(1e-9);
     d.check("net")?;
@@ -301,6 +373,7 @@ pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
         ));
     }
     positive("ea", o.ea)?;
+    o.load.check()?;
     finite("crown_load", o.crown_load)?;
 
     // The sphere through the crown (0, 0, h) and the outer ring (r = a, z = 0)
@@ -341,6 +414,7 @@ pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
             num(o.crown_load),
             num(big_r)
         ),
+        format!("  {}", o.load.describe()),
     ];
 
     d.node(format_args!("C"), [0.0, 0.0, h], false);
@@ -389,9 +463,23 @@ pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
             );
         }
     }
-    if o.crown_load != 0.0 {
-        d.loads.push((0, [0.0, 0.0, -o.crown_load]));
+    // Plan cells: the triangles the bars bound (crown fan, then two per
+    // sector between rings), with their plan areas.
+    let mut cells: Vec<[usize; 3]> = (0..sectors).map(|j| [0, at(1, j), at(1, j + 1)]).collect();
+    for i in 1..rings {
+        for j in 0..sectors {
+            cells.push([at(i, j), at(i + 1, j), at(i + 1, j + 1)]);
+            cells.push([at(i, j), at(i + 1, j + 1), at(i, j + 1)]);
+        }
     }
+    let plan_area = |[p, q, r]: [usize; 3]| {
+        let (p, q, r) = (d.at[p], d.at[q], d.at[r]);
+        0.5 * ((q[0] - p[0]) * (r[1] - p[1]) - (r[0] - p[0]) * (q[1] - p[1])).abs()
+    };
+    let areas = tributary_areas(n_nodes, cells.iter().map(|c| (&c[..], plan_area(*c))));
+    let mut forces = o.load.forces(&areas, &d.fixed);
+    forces[0] += o.crown_load;
+    d.add_loads(&forces);
     d.control = 0;
     d.check("dome")?;
     Ok(d.render(stem, o.csv_threshold))
@@ -624,6 +712,15 @@ impl Draft {
         self.member_ids.push(id);
         self.ends.push(ends);
         self.prestress.push(prestress);
+    }
+
+    /// Downward loads, one per node with a nonzero force.
+    fn add_loads(&mut self, down: &[f64]) {
+        for (k, &f) in down.iter().enumerate() {
+            if f != 0.0 {
+                self.loads.push((k, [0.0, 0.0, -f]));
+            }
+        }
     }
 
     fn length(&self, [i, j]: [usize; 2]) -> f64 {
