@@ -972,18 +972,24 @@ mod tests {
             .unwrap()
     }
 
+    /// A net with the per-node load of 500 N (the old default), so counts
+    /// and values of loads can be checked exactly.
     fn small_net(nx: usize, ny: usize) -> NetOptions {
         NetOptions {
             nx,
             ny,
+            load: Loading::PerNode(500.0),
             ..NetOptions::default()
         }
     }
 
+    /// A dome with only a crown load of 1000 N (the old default).
     fn small_dome(rings: usize, sectors: usize) -> DomeOptions {
         DomeOptions {
             rings,
             sectors,
+            load: Loading::PerNode(0.0),
+            crown_load: 1000.0,
             ..DomeOptions::default()
         }
     }
@@ -1138,10 +1144,17 @@ mod tests {
         );
         assert!(
             net_err(NetOptions {
-                load: f64::NEG_INFINITY,
+                load: Loading::Plan(f64::NEG_INFINITY),
                 ..NetOptions::default()
             })
             .contains("load")
+        );
+        assert!(
+            net_err(NetOptions {
+                load: Loading::PerNode(f64::NAN),
+                ..NetOptions::default()
+            })
+            .contains("node load")
         );
         assert!(
             net_err(NetOptions {
@@ -1214,6 +1227,13 @@ mod tests {
             })
             .contains("crown_load")
         );
+        assert!(
+            dome_err(DomeOptions {
+                load: Loading::Plan(f64::INFINITY),
+                ..DomeOptions::default()
+            })
+            .contains("load")
+        );
         assert!(dome_err(small_dome(2000, 2001)).contains("more than 4000000 nodes"));
         assert!(dome_err(small_dome(usize::MAX, usize::MAX)).contains("more than"));
         assert!(
@@ -1255,13 +1275,13 @@ mod tests {
         assert_eq!((net.span_x, net.span_y, net.rise), (20.0, 20.0, 2.0));
         assert_eq!(
             (net.force_density, net.ea, net.load),
-            (2000.0, 2.0e7, 500.0)
+            (2000.0, 2.0e7, Loading::Plan(600.0))
         );
         assert_eq!((net.edge, net.csv_threshold), (NetEdge::Fixed, 2000));
         let dome = DomeOptions::default();
         assert_eq!(
-            (dome.radius, dome.rise, dome.ea, dome.crown_load),
-            (10.0, 1.0, 1e8, 1000.0)
+            (dome.radius, dome.rise, dome.ea, dome.load, dome.crown_load),
+            (10.0, 1.0, 1e8, Loading::Plan(600.0), 0.0)
         );
         assert!(saddle_net(&net, "net").is_ok());
         assert!(lattice_dome(&dome, "dome").is_ok());
@@ -1389,12 +1409,11 @@ mod tests {
 
     #[test]
     fn net_zero_load_writes_no_loads() {
-        let o = NetOptions {
-            load: 0.0,
-            ..small_net(4, 4)
-        };
-        let t = parse(&saddle_net(&o, "net").unwrap().toml);
-        assert!(tables(&t, "load").is_empty());
+        for load in [Loading::Plan(0.0), Loading::PerNode(0.0)] {
+            let o = NetOptions { load, ..small_net(4, 4) };
+            let t = parse(&saddle_net(&o, "net").unwrap().toml);
+            assert!(tables(&t, "load").is_empty());
+        }
     }
 
     #[test]
@@ -1501,6 +1520,121 @@ mod tests {
             ..o
         };
         assert!(saddle_net(&o, "big").unwrap().csv.is_empty());
+    }
+
+    // -- plan-area loads ------------------------------------------------------
+
+    /// Sum of the downward loads written, N.
+    fn total_down(r: &Read) -> f64 {
+        r.loads.iter().map(|(_, f)| -f[2]).sum()
+    }
+
+    fn rel(a: f64, b: f64) -> f64 {
+        (a - b).abs() / b.abs()
+    }
+
+    /// Plan load on a net with fixed edges. Derived: the plan grid has
+    /// (nx − 1)(ny − 1) rectangles of hx·hy, hx = span_x/(nx − 1); each gives
+    /// a quarter of its area to each corner, so an interior node carries
+    /// hx·hy and the (nx − 2)(ny − 2) free nodes together carry
+    /// (nx − 2)·hx·(ny − 2)·hy = (span_x − hx)(span_y − hy): the plan less the
+    /// strip of half a cell along the supported edge, whose load goes
+    /// straight to the supports.
+    #[test]
+    fn net_plan_load_totals_the_pressure_on_the_area_the_free_nodes_carry() {
+        for (nx, ny, sx, sy, p) in [(3, 3, 20.0, 20.0, 600.0), (4, 7, 12.0, 30.0, 250.0), (31, 17, 20.0, 20.0, 600.0)] {
+            let o = NetOptions { nx, ny, span_x: sx, span_y: sy, load: Loading::Plan(p), ..NetOptions::default() };
+            let r = read(&saddle_net(&o, "net").unwrap());
+            assert_eq!(r.loads.len(), (nx - 2) * (ny - 2));
+            let (hx, hy) = (sx / (nx - 1) as f64, sy / (ny - 1) as f64);
+            assert!(rel(total_down(&r), p * (sx - hx) * (sy - hy)) < 1e-12, "{nx}x{ny}");
+            for (_, f) in &r.loads {
+                assert_eq!([f[0], f[1]], [0.0, 0.0]);
+                assert!(rel(-f[2], p * hx * hy) < 1e-12);
+            }
+        }
+    }
+
+    /// With elastic edges every node is free, so the free nodes carry the
+    /// whole plan: total = P·span_x·span_y (derived as above); an edge node
+    /// has two cells (half an interior share), a corner one (a quarter).
+    #[test]
+    fn elastic_edge_net_carries_the_whole_plan() {
+        let (nx, ny, p) = (6, 5, 400.0);
+        let o = NetOptions { nx, ny, load: Loading::Plan(p), edge: NetEdge::Elastic { k: 1e4 }, ..NetOptions::default() };
+        let r = read(&saddle_net(&o, "net").unwrap());
+        assert_eq!(r.loads.len(), nx * ny);
+        assert!(rel(total_down(&r), p * 20.0 * 20.0) < 1e-12);
+        let cell = p * 20.0 / 5.0 * 20.0 / 4.0;
+        let at = |id: &str| -r.loads.iter().find(|(n, _)| n == id).unwrap().1[2];
+        assert!(rel(at("N000_000"), cell / 4.0) < 1e-12);
+        assert!(rel(at("N002_000"), cell / 2.0) < 1e-12);
+        assert!(rel(at("N002_002"), cell) < 1e-12);
+    }
+
+    /// Refining the net keeps the load per square metre: the default
+    /// 600 N/m² on the default 20 m × 20 m plan gives each free node of a
+    /// 578 × 578 net 600·(20/577)² ≈ 0.72 N, and the total stays within the
+    /// edge strip of 600·400 N at every size.
+    #[test]
+    fn default_loads_are_physical_at_every_size() {
+        for n in [5, 11, 60, 183, 578] {
+            let o = NetOptions { nx: n, ny: n, ..NetOptions::default() };
+            let d = read(&saddle_net(&o, "net").unwrap());
+            let h = 20.0 / (n - 1) as f64;
+            let each = 600.0 * h * h;
+            assert!(d.loads.iter().all(|(_, f)| rel(-f[2], each) < 1e-12), "{n}");
+            let total = total_down(&d);
+            assert!(rel(total, 600.0 * (20.0 - h) * (20.0 - h)) < 1e-9, "{n}");
+            assert!(total <= 600.0 * 400.0 && total > 0.5 * 600.0 * 400.0, "{n}: {total}");
+            if n == 578 {
+                assert!((each - 0.7209).abs() < 1e-4, "{each}");
+            }
+        }
+    }
+
+    /// `PerNode` is the old behaviour: the same force on every free node,
+    /// whatever the spacing.
+    #[test]
+    fn per_node_load_is_unchanged() {
+        for n in [4, 9] {
+            let o = NetOptions { nx: n, ny: n, load: Loading::PerNode(500.0), ..NetOptions::default() };
+            let r = read(&saddle_net(&o, "net").unwrap());
+            assert_eq!(r.loads.len(), (n - 2) * (n - 2));
+            assert!(r.loads.iter().all(|(_, f)| *f == [0.0, 0.0, -500.0]));
+        }
+        let o = DomeOptions { load: Loading::PerNode(50.0), crown_load: 0.0, ..small_dome(3, 7) };
+        let r = read(&lattice_dome(&o, "dome").unwrap());
+        assert_eq!(r.loads.len(), 1 + 2 * 7);
+        assert!(r.loads.iter().all(|(_, f)| *f == [0.0, 0.0, -50.0]));
+    }
+
+    /// Plan load on the dome. Derived: with θ = 2π/S the cells are the crown
+    /// fan and, between rings of plan radius r1 < r2, per sector the
+    /// triangles T1 = (r1·e_j, r2·e_j, r2·e_j+1) of area r2(r2 − r1)sinθ/2 and
+    /// T2 = (r1·e_j, r2·e_j+1, r1·e_j+1) of area r1(r2 − r1)sinθ/2 (base along
+    /// a ray, height r·sinθ). They tile the outer polygon, of area
+    /// S·a²·sinθ/2. The supported outer ring takes a third of each corner it
+    /// holds in the last band: per sector (2·T1 + T2)/3 =
+    /// (a − r1)(a + r1/2)·sinθ/3 with r1 = a(R − 1)/R (for R = 1 the fan,
+    /// r1 = 0). So the free nodes carry P·S·sinθ·(a²/2 − (a − r1)(a + r1/2)/3).
+    #[test]
+    fn dome_plan_load_totals_the_pressure_on_the_area_the_free_nodes_carry() {
+        for (rings, sectors, a, p) in [(1, 3, 10.0, 600.0), (1, 8, 10.0, 600.0), (3, 6, 7.5, 250.0), (5, 17, 10.0, 600.0)] {
+            let o = DomeOptions { rings, sectors, radius: a, load: Loading::Plan(p), crown_load: 0.0, ..DomeOptions::default() };
+            let r = read(&lattice_dome(&o, "dome").unwrap());
+            assert_eq!(r.loads.len(), 1 + (rings - 1) * sectors);
+            let sin = (std::f64::consts::TAU / sectors as f64).sin();
+            let r1 = a * (rings - 1) as f64 / rings as f64;
+            let free = sectors as f64 * sin * (a * a / 2.0 - (a - r1) * (a + r1 / 2.0) / 3.0);
+            assert!(rel(total_down(&r), p * free) < 1e-12, "{rings} x {sectors}");
+            // The crown load adds to the crown's share.
+            let with = DomeOptions { crown_load: 1000.0, ..o };
+            let rw = read(&lattice_dome(&with, "dome").unwrap());
+            assert!(rel(total_down(&rw), p * free + 1000.0) < 1e-12);
+            let crown = |r: &Read| -r.loads.iter().find(|(n, _)| n == "C").unwrap().1[2];
+            assert!((crown(&rw) - crown(&r) - 1000.0).abs() < 1e-9);
+        }
     }
 
     // -- lattice dome -------------------------------------------------------

@@ -325,7 +325,7 @@ pub const MEMBER_SPEC: TableSpec = TableSpec {
 pub const SPRING_SPEC: TableSpec = TableSpec {
     name: "spring",
     keys: &[
-        key("node", "node = \"A2\""),
+        key("node", "node = \"A2\" (or node = 2)"),
         key("dir", "dir = \"z\""),
         key("k", "k = 50.0"),
     ],
@@ -334,7 +334,7 @@ pub const SPRING_SPEC: TableSpec = TableSpec {
 pub const LOAD_SPEC: TableSpec = TableSpec {
     name: "load",
     keys: &[
-        key("node", "node = \"A2\""),
+        key("node", "node = \"A2\" (or node = 2)"),
         key("force", "force = [0.0, 0.0, -3.0]"),
     ],
 };
@@ -348,7 +348,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("steps", "steps = 20"),
         key("target", "target = 1.0"),
         key("max_displacement", "max_displacement = 2.0"),
-        key("node", "node = \"A2\""),
+        key("node", "node = \"A2\" (or node = 2)"),
         key("dir", "dir = \"z\""),
         key("arc", "arc = 0.05"),
         key("max_steps", "max_steps = 200"),
