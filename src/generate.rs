@@ -22,6 +22,70 @@ pub enum NetEdge {
     Elastic { k: f64 },
 }
 
+/// The generated reference load (downward, −z).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Loading {
+    /// A load on the plan, N/m², lumped to the nodes by tributary plan area:
+    /// each plan cell (a rectangle of the net, a triangle of the dome) gives
+    /// every corner an equal share of its area, which is the consistent load
+    /// of a uniform pressure on a bilinear rectangle (A/4 per corner) or a
+    /// linear triangle (A/3 per corner), since ∫N_i dA is A/4 resp. A/3
+    /// (derived). Shares that fall on supported nodes go straight to the
+    /// supports and are not written; so the free nodes carry the pressure on
+    /// the plan less a strip half a cell wide along the supports, and
+    /// refining the grid leaves the total load (almost) unchanged.
+    Plan(f64),
+    /// The same force on every free node, N (the total grows with the
+    /// number of nodes).
+    PerNode(f64),
+}
+
+impl Loading {
+    /// 600 N/m² on the plan: a light snow load (common practice, no source).
+    pub const DEFAULT: Loading = Loading::Plan(600.0);
+
+    fn check(self) -> Result<(), String> {
+        match self {
+            Loading::Plan(p) => finite("load", p),
+            Loading::PerNode(f) => finite("node load", f),
+        }
+    }
+
+    /// The downward force on each node (0 on supported nodes), given the
+    /// nodes' tributary plan areas.
+    fn forces(self, areas: &[f64], fixed: &[bool]) -> Vec<f64> {
+        areas
+            .iter()
+            .zip(fixed)
+            .map(|(&a, &f)| match (f, self) {
+                (true, _) => 0.0,
+                (false, Loading::Plan(p)) => p * a,
+                (false, Loading::PerNode(n)) => n,
+            })
+            .collect()
+    }
+
+    fn describe(self) -> String {
+        match self {
+            Loading::Plan(p) => format!("load = {} N/m2 on the plan, spread by tributary plan area", num(p)),
+            Loading::PerNode(f) => format!("load = {} N per free node", num(f)),
+        }
+    }
+}
+
+/// Tributary plan areas of the nodes: every cell (its corner nodes and its
+/// plan area) gives each corner an equal share (see [`Loading::Plan`]).
+fn tributary_areas<'a>(n_nodes: usize, cells: impl Iterator<Item = (&'a [usize], f64)>) -> Vec<f64> {
+    let mut area = vec![0.0; n_nodes];
+    for (corners, a) in cells {
+        let share = a / corners.len() as f64;
+        for &k in corners {
+            area[k] += share;
+        }
+    }
+    area
+}
+
 /// Options of [`saddle_net`].
 #[derive(Clone, Debug, PartialEq)]
 pub struct NetOptions {
@@ -42,8 +106,8 @@ pub struct NetOptions {
     pub force_density: f64,
     /// Axial rigidity of the cables, N.
     pub ea: f64,
-    /// Downward reference load on every node that has no support, N.
-    pub load: f64,
+    /// Downward reference load on the nodes that have no support.
+    pub load: Loading,
     pub edge: NetEdge,
     /// Node and member tables go to CSV files when the net has more nodes
     /// than this.
@@ -60,12 +124,17 @@ impl Default for NetOptions {
             rise: 2.0,
             force_density: 2000.0,
             ea: 2.0e7,
-            load: 500.0,
+            load: Loading::DEFAULT,
             edge: NetEdge::Fixed,
             csv_threshold: 2000,
         }
     }
 }
+
+/// The dome's default load: see README ("generate") for why.
+pub const DOME_DEFAULT_LOAD: Loading = Loading::Plan(600.0);
+/// The dome's default crown load, N.
+pub const DOME_DEFAULT_CROWN_LOAD: f64 = 0.0;
 
 /// Options of [`lattice_dome`].
 #[derive(Clone, Debug, PartialEq)]
@@ -80,7 +149,9 @@ pub struct DomeOptions {
     pub rise: f64,
     /// Axial rigidity of the bars, N.
     pub ea: f64,
-    /// Downward reference load at the crown, N.
+    /// Downward reference load on the free nodes, by plan area or per node.
+    pub load: Loading,
+    /// Downward reference load at the crown, N, on top of `load`.
     pub crown_load: f64,
     /// Node and member tables go to CSV files when the dome has more nodes
     /// than this.
@@ -95,7 +166,8 @@ impl Default for DomeOptions {
             radius: 10.0,
             rise: 1.0,
             ea: 1.0e8,
-            crown_load: 1000.0,
+            load: DOME_DEFAULT_LOAD,
+            crown_load: DOME_DEFAULT_CROWN_LOAD,
             csv_threshold: 2000,
         }
     }
@@ -139,7 +211,7 @@ pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
     finite("rise", o.rise)?;
     positive("force_density", o.force_density)?;
     positive("ea", o.ea)?;
-    finite("load", o.load)?;
+    o.load.check()?;
     let spring = match o.edge {
         NetEdge::Fixed => None,
         NetEdge::Elastic { k } => {
@@ -190,11 +262,11 @@ pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
             num(o.rise)
         ),
         format!(
-            "  force_density = {} N/m, ea = {} N, load = {} N per free node,",
+            "  force_density = {} N/m, ea = {} N,",
             num(o.force_density),
             num(o.ea),
-            num(o.load)
         ),
+        format!("  {},", o.load.describe()),
         match spring {
             None => "  edge = fixed (boundary nodes supported in x, y and z)".into(),
             Some(k) => format!(
@@ -248,13 +320,13 @@ pub fn saddle_net(o: &NetOptions, stem: &str) -> Result<Generated, String> {
             }
         }
     }
-    if o.load != 0.0 {
-        for k in 0..n_nodes {
-            if !d.fixed[k] {
-                d.loads.push((k, [0.0, 0.0, -o.load]));
-            }
-        }
-    }
+    // Plan cells: the grid rectangles, each (span_x/(nx−1)) × (span_y/(ny−1)).
+    let cell = (o.span_x / (nx - 1) as f64) * (o.span_y / (ny - 1) as f64);
+    let cells: Vec<[usize; 4]> = (0..ny - 1)
+        .flat_map(|j| (0..nx - 1).map(move |i| [at(i, j), at(i + 1, j), at(i + 1, j + 1), at(i, j + 1)]))
+        .collect();
+    let areas = tributary_areas(n_nodes, cells.iter().map(|c| (&c[..], cell)));
+    d.add_loads(&o.load.forces(&areas, &d.fixed));
     d.control = at((nx - 1) / 2, (ny - 1) / 2);
     d.tolerance = Some(1e-9);
     d.check("net")?;
@@ -301,6 +373,7 @@ pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
         ));
     }
     positive("ea", o.ea)?;
+    o.load.check()?;
     finite("crown_load", o.crown_load)?;
 
     // The sphere through the crown (0, 0, h) and the outer ring (r = a, z = 0)
@@ -341,6 +414,7 @@ pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
             num(o.crown_load),
             num(big_r)
         ),
+        format!("  {}", o.load.describe()),
     ];
 
     d.node(format_args!("C"), [0.0, 0.0, h], false);
@@ -389,9 +463,23 @@ pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
             );
         }
     }
-    if o.crown_load != 0.0 {
-        d.loads.push((0, [0.0, 0.0, -o.crown_load]));
+    // Plan cells: the triangles the bars bound (crown fan, then two per
+    // sector between rings), with their plan areas.
+    let mut cells: Vec<[usize; 3]> = (0..sectors).map(|j| [0, at(1, j), at(1, j + 1)]).collect();
+    for i in 1..rings {
+        for j in 0..sectors {
+            cells.push([at(i, j), at(i + 1, j), at(i + 1, j + 1)]);
+            cells.push([at(i, j), at(i + 1, j + 1), at(i, j + 1)]);
+        }
     }
+    let plan_area = |[p, q, r]: [usize; 3]| {
+        let (p, q, r) = (d.at[p], d.at[q], d.at[r]);
+        0.5 * ((q[0] - p[0]) * (r[1] - p[1]) - (r[0] - p[0]) * (q[1] - p[1])).abs()
+    };
+    let areas = tributary_areas(n_nodes, cells.iter().map(|c| (&c[..], plan_area(*c))));
+    let mut forces = o.load.forces(&areas, &d.fixed);
+    forces[0] += o.crown_load;
+    d.add_loads(&forces);
     d.control = 0;
     d.check("dome")?;
     Ok(d.render(stem, o.csv_threshold))
@@ -624,6 +712,15 @@ impl Draft {
         self.member_ids.push(id);
         self.ends.push(ends);
         self.prestress.push(prestress);
+    }
+
+    /// Downward loads, one per node with a nonzero force.
+    fn add_loads(&mut self, down: &[f64]) {
+        for (k, &f) in down.iter().enumerate() {
+            if f != 0.0 {
+                self.loads.push((k, [0.0, 0.0, -f]));
+            }
+        }
     }
 
     fn length(&self, [i, j]: [usize; 2]) -> f64 {
@@ -875,18 +972,24 @@ mod tests {
             .unwrap()
     }
 
+    /// A net with the per-node load of 500 N (the old default), so counts
+    /// and values of loads can be checked exactly.
     fn small_net(nx: usize, ny: usize) -> NetOptions {
         NetOptions {
             nx,
             ny,
+            load: Loading::PerNode(500.0),
             ..NetOptions::default()
         }
     }
 
+    /// A dome with only a crown load of 1000 N (the old default).
     fn small_dome(rings: usize, sectors: usize) -> DomeOptions {
         DomeOptions {
             rings,
             sectors,
+            load: Loading::PerNode(0.0),
+            crown_load: 1000.0,
             ..DomeOptions::default()
         }
     }
@@ -1041,10 +1144,17 @@ mod tests {
         );
         assert!(
             net_err(NetOptions {
-                load: f64::NEG_INFINITY,
+                load: Loading::Plan(f64::NEG_INFINITY),
                 ..NetOptions::default()
             })
             .contains("load")
+        );
+        assert!(
+            net_err(NetOptions {
+                load: Loading::PerNode(f64::NAN),
+                ..NetOptions::default()
+            })
+            .contains("node load")
         );
         assert!(
             net_err(NetOptions {
@@ -1117,6 +1227,13 @@ mod tests {
             })
             .contains("crown_load")
         );
+        assert!(
+            dome_err(DomeOptions {
+                load: Loading::Plan(f64::INFINITY),
+                ..DomeOptions::default()
+            })
+            .contains("load")
+        );
         assert!(dome_err(small_dome(2000, 2001)).contains("more than 4000000 nodes"));
         assert!(dome_err(small_dome(usize::MAX, usize::MAX)).contains("more than"));
         assert!(
@@ -1158,13 +1275,13 @@ mod tests {
         assert_eq!((net.span_x, net.span_y, net.rise), (20.0, 20.0, 2.0));
         assert_eq!(
             (net.force_density, net.ea, net.load),
-            (2000.0, 2.0e7, 500.0)
+            (2000.0, 2.0e7, Loading::Plan(600.0))
         );
         assert_eq!((net.edge, net.csv_threshold), (NetEdge::Fixed, 2000));
         let dome = DomeOptions::default();
         assert_eq!(
-            (dome.radius, dome.rise, dome.ea, dome.crown_load),
-            (10.0, 1.0, 1e8, 1000.0)
+            (dome.radius, dome.rise, dome.ea, dome.load, dome.crown_load),
+            (10.0, 1.0, 1e8, Loading::Plan(600.0), 0.0)
         );
         assert!(saddle_net(&net, "net").is_ok());
         assert!(lattice_dome(&dome, "dome").is_ok());
@@ -1292,12 +1409,11 @@ mod tests {
 
     #[test]
     fn net_zero_load_writes_no_loads() {
-        let o = NetOptions {
-            load: 0.0,
-            ..small_net(4, 4)
-        };
-        let t = parse(&saddle_net(&o, "net").unwrap().toml);
-        assert!(tables(&t, "load").is_empty());
+        for load in [Loading::Plan(0.0), Loading::PerNode(0.0)] {
+            let o = NetOptions { load, ..small_net(4, 4) };
+            let t = parse(&saddle_net(&o, "net").unwrap().toml);
+            assert!(tables(&t, "load").is_empty());
+        }
     }
 
     #[test]
@@ -1404,6 +1520,121 @@ mod tests {
             ..o
         };
         assert!(saddle_net(&o, "big").unwrap().csv.is_empty());
+    }
+
+    // -- plan-area loads ------------------------------------------------------
+
+    /// Sum of the downward loads written, N.
+    fn total_down(r: &Read) -> f64 {
+        r.loads.iter().map(|(_, f)| -f[2]).sum()
+    }
+
+    fn rel(a: f64, b: f64) -> f64 {
+        (a - b).abs() / b.abs()
+    }
+
+    /// Plan load on a net with fixed edges. Derived: the plan grid has
+    /// (nx − 1)(ny − 1) rectangles of hx·hy, hx = span_x/(nx − 1); each gives
+    /// a quarter of its area to each corner, so an interior node carries
+    /// hx·hy and the (nx − 2)(ny − 2) free nodes together carry
+    /// (nx − 2)·hx·(ny − 2)·hy = (span_x − hx)(span_y − hy): the plan less the
+    /// strip of half a cell along the supported edge, whose load goes
+    /// straight to the supports.
+    #[test]
+    fn net_plan_load_totals_the_pressure_on_the_area_the_free_nodes_carry() {
+        for (nx, ny, sx, sy, p) in [(3, 3, 20.0, 20.0, 600.0), (4, 7, 12.0, 30.0, 250.0), (31, 17, 20.0, 20.0, 600.0)] {
+            let o = NetOptions { nx, ny, span_x: sx, span_y: sy, load: Loading::Plan(p), ..NetOptions::default() };
+            let r = read(&saddle_net(&o, "net").unwrap());
+            assert_eq!(r.loads.len(), (nx - 2) * (ny - 2));
+            let (hx, hy) = (sx / (nx - 1) as f64, sy / (ny - 1) as f64);
+            assert!(rel(total_down(&r), p * (sx - hx) * (sy - hy)) < 1e-12, "{nx}x{ny}");
+            for (_, f) in &r.loads {
+                assert_eq!([f[0], f[1]], [0.0, 0.0]);
+                assert!(rel(-f[2], p * hx * hy) < 1e-12);
+            }
+        }
+    }
+
+    /// With elastic edges every node is free, so the free nodes carry the
+    /// whole plan: total = P·span_x·span_y (derived as above); an edge node
+    /// has two cells (half an interior share), a corner one (a quarter).
+    #[test]
+    fn elastic_edge_net_carries_the_whole_plan() {
+        let (nx, ny, p) = (6, 5, 400.0);
+        let o = NetOptions { nx, ny, load: Loading::Plan(p), edge: NetEdge::Elastic { k: 1e4 }, ..NetOptions::default() };
+        let r = read(&saddle_net(&o, "net").unwrap());
+        assert_eq!(r.loads.len(), nx * ny);
+        assert!(rel(total_down(&r), p * 20.0 * 20.0) < 1e-12);
+        let cell = p * 20.0 / 5.0 * 20.0 / 4.0;
+        let at = |id: &str| -r.loads.iter().find(|(n, _)| n == id).unwrap().1[2];
+        assert!(rel(at("N000_000"), cell / 4.0) < 1e-12);
+        assert!(rel(at("N002_000"), cell / 2.0) < 1e-12);
+        assert!(rel(at("N002_002"), cell) < 1e-12);
+    }
+
+    /// Refining the net keeps the load per square metre: the default
+    /// 600 N/m² on the default 20 m × 20 m plan gives each free node of a
+    /// 578 × 578 net 600·(20/577)² ≈ 0.72 N, and the total stays within the
+    /// edge strip of 600·400 N at every size.
+    #[test]
+    fn default_loads_are_physical_at_every_size() {
+        for n in [5, 11, 60, 183, 578] {
+            let o = NetOptions { nx: n, ny: n, ..NetOptions::default() };
+            let d = read(&saddle_net(&o, "net").unwrap());
+            let h = 20.0 / (n - 1) as f64;
+            let each = 600.0 * h * h;
+            assert!(d.loads.iter().all(|(_, f)| rel(-f[2], each) < 1e-12), "{n}");
+            let total = total_down(&d);
+            assert!(rel(total, 600.0 * (20.0 - h) * (20.0 - h)) < 1e-9, "{n}");
+            assert!(total <= 600.0 * 400.0 && total > 0.5 * 600.0 * 400.0, "{n}: {total}");
+            if n == 578 {
+                assert!((each - 0.7209).abs() < 1e-4, "{each}");
+            }
+        }
+    }
+
+    /// `PerNode` is the old behaviour: the same force on every free node,
+    /// whatever the spacing.
+    #[test]
+    fn per_node_load_is_unchanged() {
+        for n in [4, 9] {
+            let o = NetOptions { nx: n, ny: n, load: Loading::PerNode(500.0), ..NetOptions::default() };
+            let r = read(&saddle_net(&o, "net").unwrap());
+            assert_eq!(r.loads.len(), (n - 2) * (n - 2));
+            assert!(r.loads.iter().all(|(_, f)| *f == [0.0, 0.0, -500.0]));
+        }
+        let o = DomeOptions { load: Loading::PerNode(50.0), crown_load: 0.0, ..small_dome(3, 7) };
+        let r = read(&lattice_dome(&o, "dome").unwrap());
+        assert_eq!(r.loads.len(), 1 + 2 * 7);
+        assert!(r.loads.iter().all(|(_, f)| *f == [0.0, 0.0, -50.0]));
+    }
+
+    /// Plan load on the dome. Derived: with θ = 2π/S the cells are the crown
+    /// fan and, between rings of plan radius r1 < r2, per sector the
+    /// triangles T1 = (r1·e_j, r2·e_j, r2·e_j+1) of area r2(r2 − r1)sinθ/2 and
+    /// T2 = (r1·e_j, r2·e_j+1, r1·e_j+1) of area r1(r2 − r1)sinθ/2 (base along
+    /// a ray, height r·sinθ). They tile the outer polygon, of area
+    /// S·a²·sinθ/2. The supported outer ring takes a third of each corner it
+    /// holds in the last band: per sector (2·T1 + T2)/3 =
+    /// (a − r1)(a + r1/2)·sinθ/3 with r1 = a(R − 1)/R (for R = 1 the fan,
+    /// r1 = 0). So the free nodes carry P·S·sinθ·(a²/2 − (a − r1)(a + r1/2)/3).
+    #[test]
+    fn dome_plan_load_totals_the_pressure_on_the_area_the_free_nodes_carry() {
+        for (rings, sectors, a, p) in [(1, 3, 10.0, 600.0), (1, 8, 10.0, 600.0), (3, 6, 7.5, 250.0), (5, 17, 10.0, 600.0)] {
+            let o = DomeOptions { rings, sectors, radius: a, load: Loading::Plan(p), crown_load: 0.0, ..DomeOptions::default() };
+            let r = read(&lattice_dome(&o, "dome").unwrap());
+            assert_eq!(r.loads.len(), 1 + (rings - 1) * sectors);
+            let sin = (std::f64::consts::TAU / sectors as f64).sin();
+            let r1 = a * (rings - 1) as f64 / rings as f64;
+            let free = sectors as f64 * sin * (a * a / 2.0 - (a - r1) * (a + r1 / 2.0) / 3.0);
+            assert!(rel(total_down(&r), p * free) < 1e-12, "{rings} x {sectors}");
+            // The crown load adds to the crown's share.
+            let with = DomeOptions { crown_load: 1000.0, ..o };
+            let rw = read(&lattice_dome(&with, "dome").unwrap());
+            assert!(rel(total_down(&rw), p * free + 1000.0) < 1e-12);
+            let crown = |r: &Read| -r.loads.iter().find(|(n, _)| n == "C").unwrap().1[2];
+            assert!((crown(&rw) - crown(&r) - 1000.0).abs() < 1e-9);
+        }
     }
 
     // -- lattice dome -------------------------------------------------------

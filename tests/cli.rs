@@ -661,7 +661,7 @@ fn displacements_are_written_in_model_units() {
 fn generated_net_solves_with_every_method() {
     let sc = Scratch::new("gen-net");
     let model = sc.path("net.toml");
-    let r = tautline(&["generate", "net", "--nx", "7", "--ny", "6", "--load", "300", "--csv-threshold", "10", "-o", s(&model)]);
+    let r = tautline(&["generate", "net", "--nx", "7", "--ny", "6", "--node-load", "300", "--csv-threshold", "10", "-o", s(&model)]);
     assert_eq!(r.code, 0, "{r}");
     assert!(sc.path("net_nodes.csv").exists() && sc.path("net_members.csv").exists());
     let r = tautline(&["check", s(&model)]);
@@ -693,7 +693,7 @@ fn loads_from_csv_solve_like_load_tables() {
     std::fs::create_dir_all(sc.path("csv")).unwrap();
     std::fs::create_dir_all(sc.path("toml")).unwrap();
     let model = sc.path("csv/net.toml");
-    let r = tautline(&["generate", "net", "--nx", "7", "--ny", "6", "--load", "300", "--csv-threshold", "10", "-o", s(&model)]);
+    let r = tautline(&["generate", "net", "--nx", "7", "--ny", "6", "--node-load", "300", "--csv-threshold", "10", "-o", s(&model)]);
     assert_eq!(r.code, 0, "{r}");
     let text = std::fs::read_to_string(&model).unwrap();
     assert!(text.contains("loads_csv = \"net_loads.csv\"") && !text.contains("[[load]]"), "{text}");
@@ -769,7 +769,7 @@ fn generated_dome_and_bad_generator_options() {
 fn interrupted_solve_keeps_what_it_found() {
     let sc = Scratch::new("interrupt");
     let model = sc.path("big.toml");
-    let r = tautline(&["generate", "net", "--nx", "160", "--ny", "160", "--load", "20", "-o", s(&model)]);
+    let r = tautline(&["generate", "net", "--nx", "160", "--ny", "160", "--node-load", "20", "-o", s(&model)]);
     assert_eq!(r.code, 0, "{r}");
     let out = sc.path("out");
     let child = Command::new(BIN)
@@ -901,7 +901,7 @@ fn results_without_times(path: &Path) -> Value {
 fn results_do_not_depend_on_the_thread_count() {
     let sc = Scratch::new("threads");
     let model = sc.path("net.toml");
-    let r = tautline(&["generate", "net", "--nx", "70", "--ny", "70", "--load", "5", "-o", s(&model)]);
+    let r = tautline(&["generate", "net", "--nx", "70", "--ny", "70", "--node-load", "5", "-o", s(&model)]);
     assert_eq!(r.code, 0, "{r}");
     let (one, three) = (sc.path("one"), sc.path("three"));
     let r = solve(&model, &one, &["--method", "bfgs", "--steps", "3", "--threads", "1"]);

@@ -155,9 +155,9 @@ fn extra_convergence_criteria_are_read_and_tighten() {
 /// change the set of slack members.
 #[test]
 fn secant_predictor_changes_the_start_not_the_answer() {
-    use tautline::generate::{NetOptions, saddle_net};
+    use tautline::generate::{Loading, NetOptions, saddle_net};
     for (load, smooth) in [(300.0, true), (800.0, false)] {
-        let g = saddle_net(&NetOptions { nx: 9, ny: 9, load, ..NetOptions::default() }, "net").expect("net");
+        let g = saddle_net(&NetOptions { nx: 9, ny: 9, load: Loading::PerNode(load), ..NetOptions::default() }, "net").expect("net");
         for method in [Method::Newton, Method::Bfgs] {
             let runs: Vec<_> = [true, false]
                 .into_iter()

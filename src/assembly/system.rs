@@ -529,7 +529,7 @@ impl System {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::generate::{DomeOptions, NetOptions, lattice_dome, saddle_net};
+    use crate::generate::{DomeOptions, Loading, NetOptions, lattice_dome, saddle_net};
     use crate::linalg::Ldlt;
     use crate::model::Method;
     use crate::observe::Silent;
@@ -541,7 +541,7 @@ mod tests {
     }
 
     fn net(n: usize, load: f64) -> Model {
-        let g = saddle_net(&NetOptions { nx: n, ny: n, load, ..NetOptions::default() }, "net").unwrap();
+        let g = saddle_net(&NetOptions { nx: n, ny: n, load: Loading::PerNode(load), ..NetOptions::default() }, "net").unwrap();
         crate::model::load_str(&g.toml, "net.toml", None).unwrap()
     }
 

@@ -51,6 +51,7 @@ pub struct UnitsEntry {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct SectionEntry {
+    #[serde(deserialize_with = "id")]
     pub name: Spanned<String>,
     #[serde(rename = "EA")]
     pub ea: Spanned<f64>,
@@ -62,6 +63,7 @@ pub struct SectionEntry {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct NodeEntry {
+    #[serde(deserialize_with = "id")]
     pub id: Spanned<String>,
     pub at: Spanned<[f64; 3]>,
     pub fix: Option<Spanned<String>>,
@@ -70,9 +72,12 @@ pub struct NodeEntry {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct MemberEntry {
+    #[serde(deserialize_with = "id")]
     pub id: Spanned<String>,
     pub kind: Spanned<String>,
+    #[serde(deserialize_with = "ends")]
     pub ends: Spanned<[Spanned<String>; 2]>,
+    #[serde(deserialize_with = "id")]
     pub section: Spanned<String>,
     pub prestress: Option<Spanned<f64>>,
     pub rest_length: Option<Spanned<f64>>,
@@ -84,6 +89,7 @@ pub struct MemberEntry {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct SpringEntry {
+    #[serde(deserialize_with = "id")]
     pub node: Spanned<String>,
     pub dir: Spanned<String>,
     pub k: Spanned<f64>,
@@ -92,8 +98,59 @@ pub struct SpringEntry {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct LoadEntry {
+    #[serde(deserialize_with = "id")]
     pub node: Spanned<String>,
     pub force: Spanned<[f64; 3]>,
+}
+
+/// An id of a node, member or section as written: a string, or a TOML
+/// integer standing for the string of its decimal digits (`id = 16745` is the
+/// node `"16745"`), as tables exported from spreadsheets and scripts often
+/// have. A float or a boolean is refused with a message that says how ids
+/// are written. Every reference to an id (member `ends` and `section`, load,
+/// spring and `[analysis]` `node`) reads the same way, so `ends = [2, 185]`
+/// names the nodes `id = 2` and `id = "185"` alike.
+struct Id(String);
+
+impl<'de> Deserialize<'de> for Id {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Visit;
+        impl serde::de::Visitor<'_> for Visit {
+            type Value = Id;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("an id: a string such as \"A1\" or a whole number such as 17")
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> Result<Id, E> {
+                Ok(Id(v.to_string()))
+            }
+            fn visit_string<E: serde::de::Error>(self, v: String) -> Result<Id, E> {
+                Ok(Id(v))
+            }
+            fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<Id, E> {
+                Ok(Id(v.to_string()))
+            }
+            fn visit_u64<E: serde::de::Error>(self, v: u64) -> Result<Id, E> {
+                Ok(Id(v.to_string()))
+            }
+        }
+        d.deserialize_any(Visit)
+    }
+}
+
+fn id<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Spanned<String>, D::Error> {
+    let s = Spanned::<Id>::deserialize(d)?;
+    Ok(Spanned::new(s.span(), s.into_inner().0))
+}
+
+fn optional_id<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Option<Spanned<String>>, D::Error> {
+    id(d).map(Some)
+}
+
+fn ends<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Spanned<[Spanned<String>; 2]>, D::Error> {
+    let s = Spanned::<[Spanned<Id>; 2]>::deserialize(d)?;
+    let span = s.span();
+    let pair = s.into_inner().map(|e| Spanned::new(e.span(), e.into_inner().0));
+    Ok(Spanned::new(span, pair))
 }
 
 /// Counts are read as signed integers so that `steps = 0` or `-1` gets a
@@ -107,6 +164,7 @@ pub struct AnalysisEntry {
     pub steps: Option<Spanned<i64>>,
     pub target: Option<Spanned<f64>>,
     pub max_displacement: Option<Spanned<f64>>,
+    #[serde(default, deserialize_with = "optional_id")]
     pub node: Option<Spanned<String>>,
     pub dir: Option<Spanned<String>>,
     pub arc: Option<Spanned<f64>>,
@@ -243,7 +301,7 @@ pub const SECTION_SPEC: TableSpec = TableSpec {
 pub const NODE_SPEC: TableSpec = TableSpec {
     name: "node",
     keys: &[
-        key("id", "id = \"A1\""),
+        key("id", "id = \"A1\" (or id = 1)"),
         key("at", "at = [0.0, 0.0, 2.5]"),
         key("fix", "fix = \"xyz\""),
     ],
@@ -252,9 +310,9 @@ pub const NODE_SPEC: TableSpec = TableSpec {
 pub const MEMBER_SPEC: TableSpec = TableSpec {
     name: "member",
     keys: &[
-        key("id", "id = \"c1\""),
+        key("id", "id = \"c1\" (or id = 1)"),
         key("kind", "kind = \"cable\""),
-        key("ends", "ends = [\"A1\", \"A2\"]"),
+        key("ends", "ends = [\"A1\", \"A2\"] (or ends = [1, 2])"),
         key("section", "section = \"strand\""),
         key("prestress", "prestress = 20.0"),
         key("rest_length", "rest_length = 4.98"),
@@ -267,7 +325,7 @@ pub const MEMBER_SPEC: TableSpec = TableSpec {
 pub const SPRING_SPEC: TableSpec = TableSpec {
     name: "spring",
     keys: &[
-        key("node", "node = \"A2\""),
+        key("node", "node = \"A2\" (or node = 2)"),
         key("dir", "dir = \"z\""),
         key("k", "k = 50.0"),
     ],
@@ -276,7 +334,7 @@ pub const SPRING_SPEC: TableSpec = TableSpec {
 pub const LOAD_SPEC: TableSpec = TableSpec {
     name: "load",
     keys: &[
-        key("node", "node = \"A2\""),
+        key("node", "node = \"A2\" (or node = 2)"),
         key("force", "force = [0.0, 0.0, -3.0]"),
     ],
 };
@@ -290,7 +348,7 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("steps", "steps = 20"),
         key("target", "target = 1.0"),
         key("max_displacement", "max_displacement = 2.0"),
-        key("node", "node = \"A2\""),
+        key("node", "node = \"A2\" (or node = 2)"),
         key("dir", "dir = \"z\""),
         key("arc", "arc = 0.05"),
         key("max_steps", "max_steps = 200"),
@@ -669,7 +727,12 @@ fn label_of(table: &DeTable<'_>, spec: &TableSpec) -> Option<String> {
     table
         .iter()
         .find(|(k, _)| k.get_ref() == want)
-        .and_then(|(_, v)| v.get_ref().as_str().map(str::to_string))
+        .and_then(|(_, v)| match v.get_ref() {
+            DeValue::String(s) => Some(s.to_string()),
+            // An integer id is the string of its digits (see `Id`).
+            DeValue::Integer(i) => i64::from_str_radix(i.as_str(), i.radix()).ok().map(|n| n.to_string()),
+            _ => None,
+        })
 }
 
 /// Turn a serde error into a message that names the key and says how the

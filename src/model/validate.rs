@@ -2096,6 +2096,78 @@ force = [1, 0, 0]
         assert!(m.warnings.is_empty(), "{:?}", m.warnings);
     }
 
+    /// Ids written as TOML integers are the strings of their digits, in
+    /// every place an id is written or referred to (issue 14).
+    #[test]
+    fn integer_ids_are_the_strings_of_their_digits() {
+        let text = r#"
+[[section]]
+name = 7
+EA = 1.0e6
+
+[[node]]
+id = 1
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+
+[[node]]
+id = 0x10
+at = [4.0, 0.0, 1.0]
+fix = "y"
+
+[[node]]
+id = "C"
+at = [8.0, 0.0, 0.0]
+fix = "xyz"
+
+[[member]]
+id = 100
+kind = "bar"
+ends = [1, "16"]
+section = 7
+
+[[member]]
+id = "101"
+kind = "bar"
+ends = [16, "C"]
+section = "7"
+
+[[spring]]
+node = 16
+dir = "x"
+k = 10.0
+
+[[load]]
+node = 16
+force = [0.0, 0.0, -100.0]
+
+[analysis]
+node = 16
+dir = "z"
+watch = ["16.z"]
+"#;
+        let m = ok(text);
+        let labels: Vec<&str> = m.nodes.iter().map(|n| n.label.as_str()).collect();
+        assert_eq!(labels, ["1", "16", "C"]);
+        let members: Vec<&str> = m.members.iter().map(|x| x.label.as_str()).collect();
+        assert_eq!(members, ["100", "101"]);
+        assert_eq!(m.sections[0].name, "7");
+        assert_eq!(m.members[0].ends, [0, 1]);
+        assert_eq!(m.members[1].ends, [1, 2]);
+        assert_eq!(m.loads[0].node, 1);
+        assert_eq!(m.springs[0].node, 1);
+        assert_eq!(m.analysis.point.map(|p| p.node), Some(1));
+        // An integer id and the string of its digits are the same id.
+        let dup = text.replacen("id = \"C\"", "id = \"1\"", 1);
+        let ds = errors(&dup);
+        expect(&ds, "m.toml", line_of(&dup, "id = \"1\""), "node \"1\"", "");
+        // A float or a boolean id names the place and says how ids are written.
+        let bad = text.replacen("id = 100", "id = 100.0", 1).replacen("ends = [16, \"C\"]", "ends = [true, \"C\"]", 1);
+        let ds = errors(&bad);
+        expect(&ds, "m.toml", line_of(&bad, "id = 100.0"), "member", "a whole number");
+        expect(&ds, "m.toml", line_of(&bad, "ends = [true"), "member \"101\"", "found boolean");
+    }
+
     #[test]
     fn units_are_converted_to_si() {
         let text = r#"

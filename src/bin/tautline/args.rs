@@ -184,9 +184,13 @@ pub enum Generate {
         /// Cable axial rigidity EA, N
         #[arg(long, default_value_t = 2.0e7)]
         ea: f64,
-        /// Downward reference load per free node, N
-        #[arg(long, default_value_t = 500.0, allow_negative_numbers = true)]
+        /// Downward reference load on the plan, N/m², spread to the free nodes by
+        /// tributary plan area (600: a light snow load)
+        #[arg(long, value_name = "P", default_value_t = 600.0, allow_negative_numbers = true)]
         load: f64,
+        /// Instead of --load: this downward reference load on every free node, N
+        #[arg(long, value_name = "N", allow_negative_numbers = true, conflicts_with = "load")]
+        node_load: Option<f64>,
         /// Hold the edge nodes by springs of this stiffness (N/m) instead of supports
         #[arg(long, value_name = "K")]
         elastic_edge: Option<f64>,
@@ -214,8 +218,15 @@ pub enum Generate {
         /// Bar axial rigidity EA, N
         #[arg(long, default_value_t = 1.0e8)]
         ea: f64,
-        /// Downward reference load at the crown, N
-        #[arg(long, default_value_t = 1000.0, allow_negative_numbers = true)]
+        /// Downward reference load on the plan, N/m², spread to the free nodes by
+        /// tributary plan area (600: a light snow load)
+        #[arg(long, value_name = "P", default_value_t = 600.0, allow_negative_numbers = true)]
+        load: f64,
+        /// Instead of --load: this downward reference load on every free node, N
+        #[arg(long, value_name = "N", allow_negative_numbers = true, conflicts_with = "load")]
+        node_load: Option<f64>,
+        /// Downward reference load at the crown, N, added to the other loads
+        #[arg(long, value_name = "N", default_value_t = 0.0, allow_negative_numbers = true)]
         crown_load: f64,
         /// Write node, member and load tables to CSV files above this many nodes
         #[arg(long, default_value_t = 2000)]
@@ -225,6 +236,30 @@ pub enum Generate {
         out: PathBuf,
     },
 }
+
+/// `bench --case`: how hard the nets are loaded.
+#[derive(clap::ValueEnum, Clone, Copy, Debug, PartialEq)]
+pub enum BenchCase {
+    /// 60 N/m² on the plan: cable forces change by well over 50 % and no
+    /// cable of the default net slackens
+    Easy,
+    /// A heavy plan load under which the arching cables next to the edges
+    /// go slack along the path
+    Hard,
+}
+
+impl BenchCase {
+    /// The plan pressure of the case, N/m².
+    pub fn pressure(self) -> f64 {
+        match self {
+            BenchCase::Easy => 60.0,
+            BenchCase::Hard => HARD_PRESSURE,
+        }
+    }
+}
+
+/// The hard bench case's plan load, N/m².
+pub const HARD_PRESSURE: f64 = 600.0;
 
 #[derive(Args, Debug, Clone)]
 pub struct BenchArgs {
@@ -245,11 +280,14 @@ pub struct BenchArgs {
     /// steps and count pivots only when they refactor)
     #[arg(long)]
     pub check_every_step: bool,
+    /// The loading: easy (60 N/m² on the plan, every cable taut) or hard
+    /// (HARD_PRESSURE on the plan: the edge cables go slack)
+    #[arg(long, value_enum, default_value_t = BenchCase::Easy)]
+    pub case: BenchCase,
     /// Reference load as a pressure on the plan, N/m² (each free node carries
-    /// its tributary area); 60 N/m² changes cable forces by well over 50 %
-    /// without slackening any cable of the default net
-    #[arg(long, default_value_t = 60.0)]
-    pub pressure: f64,
+    /// its tributary area), instead of the case's
+    #[arg(long)]
+    pub pressure: Option<f64>,
     /// Steps whose fields the timed fields.csv holds: all | ends | none
     #[arg(long = "keep-fields", default_value = "ends")]
     pub keep_fields: String,

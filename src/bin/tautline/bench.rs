@@ -11,13 +11,13 @@
 //! A second line per run gives the size and write time of `results.json` and
 //! `fields.csv` (`--keep-fields`, default "ends") as `solve` writes them.
 
-use crate::args::{BenchArgs, BenchRunArgs};
+use crate::args::{BenchArgs, BenchCase, BenchRunArgs};
 use crate::run::Failure;
 use std::io::Write;
 use std::path::Path;
 use std::time::Instant;
 use tautline::assembly::System;
-use tautline::generate::{NetOptions, saddle_net};
+use tautline::generate::{Loading, NetOptions, saddle_net};
 use tautline::linalg::Ldlt;
 use tautline::model::{self, KeepFields, Method};
 use tautline::observe::Silent;
@@ -160,7 +160,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
          iterations={} factorizations={} evaluations={} max_force_change={max_change:.3} peak={} \
          system_bytes={} threads={} assembly1={assembly_1:.5} assembly2={assembly_2:.5} residuals_per_s={:.1} \
          json_s={json_s:.3} json_bytes={json_bytes} fields_s={fields_s:.3} fields_bytes={fields_bytes} \
-         fields_rows={} fields_steps={}",
+         fields_rows={} fields_steps={} slack={} slack_events={}",
         system.n_free(),
         system.pattern.nnz(),
         ws.h.ldlt.factor_nnz(),
@@ -174,6 +174,8 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         1.0 / residual_s,
         path.fields.len() * m.n_nodes(),
         kept.join(","),
+        system.slack_members(&path.final_state.u).len(),
+        results::slack_events(&m, &path).len(),
     );
     Ok(0)
 }
@@ -237,7 +239,13 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
     let exe = std::env::current_exe().map_err(|e| Failure::Internal(e.into()))?;
     let dir = std::env::temp_dir().join(format!("tautline-bench-{}", std::process::id()));
     std::fs::create_dir_all(&dir).map_err(|e| Failure::Internal(e.into()))?;
+    let pressure = a.pressure.unwrap_or(a.case.pressure());
     println!("threads: {} (assembly also timed on 1 and 2)", rayon::current_num_threads());
+    println!(
+        "case: {} ({} N/m² on the plan of the default 20 m x 20 m saddle net, by tributary area)",
+        if a.case == BenchCase::Hard { "hard" } else { "easy" },
+        pressure
+    );
     println!(
         "{:>8} {:>16} {:>9} {:>6} {:>6} {:>6} {:>8} {:>7} {:>8} {:>7} {:>7} {:>8} {:>8} {:>5} {:>6} {:>9} {:>9} {:>9}",
         "DOF", "method", "time s", "facts", "iters", "evals", "peak MB", "sys MB", "1 fac s", "×fac", "sol ms", "asm1 ms", "asm2 ms",
@@ -246,10 +254,7 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
     for &target in &a.dofs {
         // 3 free DOFs per interior node of an n × n net with fixed edges.
         let n = ((target as f64 / 3.0).sqrt().round() as usize + 2).max(3);
-        let base = NetOptions::default();
-        let spacing = base.span_x / (n - 1) as f64;
-        let load = a.pressure * spacing * spacing;
-        let opts = NetOptions { nx: n, ny: n, load, csv_threshold: 0, ..base };
+        let opts = NetOptions { nx: n, ny: n, load: Loading::Plan(pressure), csv_threshold: 0, ..NetOptions::default() };
         let g = saddle_net(&opts, "bench").map_err(Failure::BadInput)?;
         let model_path = dir.join("bench.toml");
         std::fs::write(&model_path, &g.toml).map_err(|e| Failure::Internal(e.into()))?;
@@ -324,7 +329,7 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }
             );
             println!(
-                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s",
+                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s; slack members at the end {} ({} slack events)",
                 "",
                 "",
                 field(&line, "json_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e3,
@@ -334,6 +339,8 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 field(&line, "fields_rows"),
                 field(&line, "fields_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e6,
                 field(&line, "fields_s"),
+                field(&line, "slack"),
+                field(&line, "slack_events"),
             );
             let _ = std::io::stdout().flush();
         }

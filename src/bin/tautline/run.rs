@@ -492,15 +492,17 @@ fn results_load(m: &Model, lambda: f64) -> f64 {
 }
 
 fn generate(what: Generate) -> Result<u8, Failure> {
-    use tautline::generate::{DomeOptions, NetEdge, NetOptions, lattice_dome, saddle_net};
+    use tautline::generate::{DomeOptions, Loading, NetEdge, NetOptions, lattice_dome, saddle_net};
+    let loading = |plan: f64, per_node: Option<f64>| per_node.map_or(Loading::Plan(plan), Loading::PerNode);
     let (generated, out) = match what {
-        Generate::Net { nx, ny, span_x, span_y, rise, force_density, ea, load, elastic_edge, csv_threshold, out } => {
+        Generate::Net { nx, ny, span_x, span_y, rise, force_density, ea, load, node_load, elastic_edge, csv_threshold, out } => {
+            let load = loading(load, node_load);
             let edge = elastic_edge.map_or(NetEdge::Fixed, |k| NetEdge::Elastic { k });
             let o = NetOptions { nx, ny, span_x, span_y, rise, force_density, ea, load, edge, csv_threshold };
             (saddle_net(&o, &stem_of(&out)?), out)
         }
-        Generate::Dome { rings, sectors, radius, rise, ea, crown_load, csv_threshold, out } => {
-            let o = DomeOptions { rings, sectors, radius, rise, ea, crown_load, csv_threshold };
+        Generate::Dome { rings, sectors, radius, rise, ea, load, node_load, crown_load, csv_threshold, out } => {
+            let o = DomeOptions { rings, sectors, radius, rise, ea, load: loading(load, node_load), crown_load, csv_threshold };
             (lattice_dome(&o, &stem_of(&out)?), out)
         }
     };
