@@ -1,5 +1,10 @@
 //! `tautline bench`: the correctors compared on generated saddle nets.
 //!
+//! `--case easy` (the default) loads the nets with 60 N/m² of plan, which
+//! leaves every cable taut; `--case hard` with 600 N/m² (the generator's
+//! default snow load), under which the arching cables next to the edges go
+//! slack along the path (the second line of each run counts them).
+//!
 //! Each run is a child process (`tautline bench-run`), so its peak memory
 //! (VmHWM) is its own. The figures printed are wall time, numeric
 //! factorizations, corrector iterations, residual evaluations, peak memory,
