@@ -334,7 +334,7 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }
             );
             println!(
-                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s; slack members at the end {} ({} slack events)",
+                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s; slack members at the last converged state {} ({} slack events)",
                 "",
                 "",
                 field(&line, "json_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e3,
