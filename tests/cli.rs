@@ -760,6 +760,43 @@ fn generated_dome_and_bad_generator_options() {
     assert!(!bad.exists());
 }
 
+/// `generate net --load P` is a plan load in N/m² spread by tributary area
+/// (default 600), `--node-load N` a force per free node; not both. Derived:
+/// an 11 × 11 net on 20 m × 20 m has 81 free nodes with 2 m × 2 m each, so
+/// the default total is 600·81·4 = 194 400 N; with `--node-load 250` it is
+/// 81·250 N. The dome's `--crown-load` adds to its plan load.
+#[test]
+fn generated_loads_are_plan_loads_by_default() {
+    let sc = Scratch::new("gen-loads");
+    let total = |args: &[&str]| -> f64 {
+        let model = sc.path("m.toml");
+        let mut all = vec!["generate"];
+        all.extend_from_slice(args);
+        all.extend_from_slice(&["-o", s(&model)]);
+        let r = tautline(&all);
+        assert_eq!(r.code, 0, "{r}");
+        let r = tautline(&["check", s(&model), "--format", "json"]);
+        assert_eq!(r.code, 0, "{r}");
+        let v: Value = serde_json::from_str(&r.stdout).unwrap();
+        let t = v["total_reference_load"].as_array().unwrap();
+        assert_eq!((t[0].as_f64(), t[1].as_f64()), (Some(0.0), Some(0.0)));
+        -t[2].as_f64().unwrap()
+    };
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs();
+    assert!(close(total(&["net", "--nx", "11", "--ny", "11"]), 194_400.0));
+    assert!(close(total(&["net", "--nx", "11", "--ny", "11", "--load", "100"]), 32_400.0));
+    assert!(close(total(&["net", "--nx", "11", "--ny", "11", "--node-load", "250"]), 81.0 * 250.0));
+    let dome = total(&["dome", "--rings", "2", "--sectors", "6"]);
+    let with_crown = total(&["dome", "--rings", "2", "--sectors", "6", "--crown-load", "1000"]);
+    assert!(dome > 0.0 && close(with_crown - dome, 1000.0), "{dome} {with_crown}");
+    assert!(close(total(&["dome", "--rings", "2", "--sectors", "6", "--node-load", "0", "--crown-load", "1000"]), 1000.0));
+    let bad = sc.path("bad.toml");
+    let r = tautline(&["generate", "net", "--nx", "5", "--ny", "5", "--load", "600", "--node-load", "3", "-o", s(&bad)]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("--node-load"), "{r}");
+    assert!(!bad.exists());
+}
+
 // -- runs that are interrupted or would overwrite --------------------------
 
 /// SIGINT during `solve` on a generated net stops the run after the current

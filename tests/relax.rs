@@ -4,7 +4,7 @@
 use crate::common::{PRETENSIONED_CABLE, model, rel_err, trace};
 use tautline::assembly::System;
 use tautline::form::relax::{RelaxConfig, RelaxStop, Relaxation};
-use tautline::generate::{NetOptions, saddle_net};
+use tautline::generate::{Loading, NetOptions, saddle_net};
 use tautline::model::{self as tmodel, Method};
 
 fn norm(v: &[f64]) -> f64 {
@@ -83,7 +83,9 @@ fn relaxation_finds_the_pretensioned_cable_deflection() {
 /// A run capped before it can converge says so: the cap, not convergence.
 #[test]
 fn relaxation_cap_is_reported_not_hidden() {
-    let g = saddle_net(&NetOptions { nx: 7, ny: 7, ..Default::default() }, "n").unwrap();
+    // 500 N per free node: the generator's per-node load before its loads
+    // became plan loads (issue 14).
+    let g = saddle_net(&NetOptions { nx: 7, ny: 7, load: Loading::PerNode(500.0), ..Default::default() }, "n").unwrap();
     let m = tmodel::load_str(&g.toml, "net.toml", None).expect("net loads");
     let (_, _, rep) = relax(&m, 1.0, &RelaxConfig { tolerance: 1e-12, max_steps: 20 });
     assert_eq!(rep.stop, RelaxStop::StepCap);

@@ -2160,7 +2160,7 @@ watch = ["16.z"]
         // An integer id and the string of its digits are the same id.
         let dup = text.replacen("id = \"C\"", "id = \"1\"", 1);
         let ds = errors(&dup);
-        expect(&ds, "m.toml", line_of(&dup, "id = \"1\""), "node \"1\"", "");
+        assert!(ds.iter().any(|d| d.to_string().contains("duplicate node id \"1\"")), "{ds:?}");
         // A float or a boolean id names the place and says how ids are written.
         let bad = text.replacen("id = 100", "id = 100.0", 1).replacen("ends = [16, \"C\"]", "ends = [true, \"C\"]", 1);
         let ds = errors(&bad);

@@ -1,5 +1,10 @@
 //! `tautline bench`: the correctors compared on generated saddle nets.
 //!
+//! `--case easy` (the default) loads the nets with 60 N/m² of plan, which
+//! leaves every cable taut; `--case hard` with 600 N/m² (the generator's
+//! default snow load), under which the arching cables next to the edges go
+//! slack along the path (the second line of each run counts them).
+//!
 //! Each run is a child process (`tautline bench-run`), so its peak memory
 //! (VmHWM) is its own. The figures printed are wall time, numeric
 //! factorizations, corrector iterations, residual evaluations, peak memory,
@@ -329,7 +334,7 @@ pub fn bench(a: &BenchArgs) -> Result<u8, Failure> {
                 if field(&line, "stop") == "target_reached" { "" } else { "  (did not reach the target)" }
             );
             println!(
-                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s; slack members at the end {} ({} slack events)",
+                "{:>8} {:>16} results.json {:.1} kB in {} s; fields.csv (\"{}\": steps {}) {} rows, {:.1} MB in {} s; slack members at the last converged state {} ({} slack events)",
                 "",
                 "",
                 field(&line, "json_bytes").parse::<f64>().unwrap_or(f64::NAN) / 1e3,
