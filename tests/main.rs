@@ -18,4 +18,5 @@ mod relax;
 mod report;
 mod browser;
 mod stability;
+mod branch;
 mod verification;

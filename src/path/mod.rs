@@ -10,6 +10,7 @@
 //! J.-L. Batoz and G. Dhatt, "Incremental displacement algorithms for
 //! nonlinear problems", Int. J. Numer. Meth. Eng. 14 (1979).
 
+pub mod branch;
 pub mod constraints;
 pub mod fields;
 
@@ -35,6 +36,10 @@ pub enum StopReason {
     Mechanism,
     /// An observer (Ctrl-C, a time budget) asked to stop.
     Interrupted,
+    /// Stopped at a requested branch switch: see `Path::switch` (the mode
+    /// asked for does not exist, no secondary state was found, or load
+    /// control cannot follow a falling secondary branch).
+    BranchSwitch,
 }
 
 impl StopReason {
@@ -46,6 +51,7 @@ impl StopReason {
             StopReason::NoConvergence => "no_convergence",
             StopReason::Mechanism => "mechanism",
             StopReason::Interrupted => "interrupted",
+            StopReason::BranchSwitch => "branch_switch",
         }
     }
 
@@ -101,6 +107,11 @@ pub struct Path {
     pub keep: KeepFields,
     /// Whole displacement fields of the steps the policy keeps, ascending.
     pub fields: Vec<Field>,
+    /// What became of `switch_at`, when it was given.
+    pub switch: Option<branch::SwitchOutcome>,
+    /// The imperfection seeded before the run (set by the caller of
+    /// [`branch::seed`]).
+    pub imperfection: Option<branch::Seed>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -136,6 +147,9 @@ pub struct Critical {
     /// The free-DOF displacements at the point (the middle of the final
     /// bracket), m, when the `keep_fields` policy keeps critical states.
     pub field: Option<Vec<f64>>,
+    /// The critical modes over the free DOFs, unit Euclidean norm, one per
+    /// multiplicity, orthonormal.
+    pub modes: Vec<Vec<f64>>,
 }
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
@@ -359,6 +373,11 @@ impl<'a> Tracer<'a> {
                 .map(|w| if max > 0.0 { self.displacement_of(&phi, *w) / max } else { 0.0 })
                 .collect(),
             mode_load_alignment: alignment,
+            // One mode, from the inverse iteration above, unit-normalised.
+            modes: {
+                let n = dot(&phi, &phi).sqrt();
+                if n > 0.0 && n.is_finite() { vec![phi.iter().map(|v| v / n).collect()] } else { Vec::new() }
+            },
             pivots: (na, nb),
             bisections,
             bracket: dist(&ua, &ub),
@@ -441,6 +460,8 @@ impl<'a> Tracer<'a> {
                 critical: Vec::new(),
                 keep,
                 fields,
+                switch: None,
+                imperfection: None,
             };
         }
         ws.fresh = true;
@@ -479,6 +500,8 @@ impl<'a> Tracer<'a> {
                     critical: Vec::new(),
                     keep: keeper.policy().clone(),
                     fields: Vec::new(),
+                    switch: None,
+                    imperfection: None,
                 };
             }
             ws.fresh = true;
@@ -491,6 +514,7 @@ impl<'a> Tracer<'a> {
         let mut last_increment: Vec<f64> = Vec::new();
         let mut critical: Vec<Critical> = Vec::new();
         let mut last_load_increment = 1.0;
+        let mut switcher = branch::Switcher::new(&a.branch);
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -623,8 +647,14 @@ impl<'a> Tracer<'a> {
                     if let (true, Some((n_before, true))) = (pinpoint, before) {
                         if n_before != neg {
                             let keep_field = keeper.keeps_critical();
-                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, keep_field, observer);
+                            let want = keep_field || switcher.wants_field();
+                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, want, observer);
                             c.step = step;
+                            // Branch switching (branch.rs) counts the bifurcations.
+                            switcher.note(critical.len(), &c, &start_u, &state.u);
+                            if !keep_field {
+                                c.field = None;
+                            }
                             critical.push(c);
                             // Back to the factor of the converged state.
                             let mut rec = StepRecord::default();
@@ -659,6 +689,40 @@ impl<'a> Tracer<'a> {
                             break 'path StopReason::MaxDisplacement;
                         }
                     }
+                    // ---- Branch switching (branch.rs): at the `switch_at`th
+                    // bifurcation, leave the primary path along the mode.
+                    if switcher.is_due() {
+                        let xi = if a.control == Control::ArcLength { stepper.size.abs() } else { dot_dist(&state.u, &start_u) };
+                        let next = points.len();
+                        let Some((left, falls)) = self.leave_along_mode(ws, &mut switcher, xi, next, observer) else {
+                            // Back to the factor of the last converged state.
+                            let mut rec = StepRecord::default();
+                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            add_records(&mut self.wasted, &rec);
+                            ws.fresh = true;
+                            break 'path StopReason::BranchSwitch;
+                        };
+                        state = left.state;
+                        ws.fresh = left.fresh;
+                        keeper.offer(next, state.lambda, &state.u, false);
+                        let ev = StepEvent {
+                            step: next,
+                            lambda: state.lambda,
+                            iterations: left.point.record.iterations,
+                            point_displacement: left.point.point,
+                            negative_pivots: left.point.negative_pivots,
+                        };
+                        points.push(left.point);
+                        last_increment = left.increment;
+                        last_load_increment = left.load_increment;
+                        if falls {
+                            break 'path StopReason::BranchSwitch;
+                        }
+                        if observer.on_step(&ev) == Answer::Stop {
+                            break 'path StopReason::Interrupted;
+                        }
+                    }
+                    // ---- end of branch switching
                 }
                 Termination::Stopped => {
                     add_records(&mut self.wasted, &record);
@@ -695,7 +759,8 @@ impl<'a> Tracer<'a> {
         // The last converged state is `state` (a failed step restored it).
         let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
         let (keep, fields) = keeper.finish(last);
-        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields }
+        let switch = switcher.finish();
+        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields, switch, imperfection: None }
     }
 }
 

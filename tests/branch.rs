@@ -1,0 +1,245 @@
+//! Branch switching (`switch_at`) and imperfection seeding (`imperfection`)
+//! on a braced strut whose secondary and imperfect paths have closed forms.
+//!
+//! ## The model
+//! Two bars B–M and M–T, each of rest length L = 2 m and EA = 1e6 N
+//! (engineering strain, so N = EA·(l − L)/L exactly), B pinned, T held
+//! laterally, M braced in x by a linear spring k = 1e5 N/m, a load P = λ·1e5 N
+//! down at T. EA is low so that the axial shortening and the sway are of one
+//! order and one arc length suits both.
+//!
+//! ## Derivation of the secondary path (derived)
+//! Let M sit at lateral offset w and height h, T at height 2h (both bars
+//! alike). Equilibrium of T: the compression C of the upper bar has vertical
+//! component P, so C = P·l/h with l = √(w² + h²). Equilibrium of M,
+//! vertically: the lower bar carries the same C. Laterally, each bar pushes M
+//! outwards by C·w/l = P·w/h and the spring pulls it back by k·w:
+//! w·(2P/h − k) = 0. Off the primary path (w ≠ 0): P = k·h/2. The bar law
+//! C = −N = EA·(L − l)/L with C = P·l/h = k·l/2 gives
+//! l* = L / (1 + kL/(2EA)), a constant: along the secondary branch the bars
+//! keep the length they had at the bifurcation and rotate, h = √(l*² − w²),
+//! P = k·h/2 falls as w grows (an unstable symmetric bifurcation), and
+//! T moves by 2h − 2L.
+//!
+//! ## Derivation of the imperfect path (derived)
+//! With M seeded to x = w0 the bars' rest length is L0 = √(w0² + L²) and the
+//! spring is unstressed at w = w0. Laterally at M: 2·P·w/h = k·(w − w0), so
+//! P = q·h with q = k(w − w0)/(2w); the bar law C = EA(L0 − l)/L0 = P·l/h
+//! = q·l gives l = L0/(1 + q·L0/EA), h = √(l² − w²). As w grows, q → k/2 and
+//! the imperfect path approaches the secondary one.
+
+use crate::common::*;
+use tautline::model::Method;
+use tautline::path::branch::SwitchOutcome;
+use tautline::path::{CriticalKind, StopReason};
+
+const K: f64 = 1.0e5;
+const L: f64 = 2.0;
+const EA: f64 = 1.0e6;
+const P_REF: f64 = 1.0e5;
+
+fn strut(analysis: &str) -> String {
+    format!(
+        r#"title = "soft braced strut"
+[[section]]
+name = "s"
+EA = {EA:?}
+[[node]]
+id = "B"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "M"
+at = [0.0, 0.0, 2.0]
+fix = "y"
+[[node]]
+id = "T"
+at = [0.0, 0.0, 4.0]
+fix = "xy"
+[[member]]
+id = "lower"
+kind = "bar"
+ends = ["B", "M"]
+section = "s"
+[[member]]
+id = "upper"
+kind = "bar"
+ends = ["M", "T"]
+section = "s"
+[[spring]]
+node = "M"
+dir = "x"
+k = {K:?}
+[[load]]
+node = "T"
+force = [0.0, 0.0, -1.0e5]
+[analysis]
+strain = "engineering"
+node = "T"
+dir = "z"
+tolerance = 1e-11
+watch = ["T.z", "M.x"]
+{analysis}
+"#
+    )
+}
+
+/// λ on the secondary branch at lateral offset w (derived above).
+fn secondary_lambda(w: f64) -> f64 {
+    let l = L / (1.0 + K * L / (2.0 * EA));
+    K * (l * l - w * w).sqrt() / 2.0 / P_REF
+}
+
+/// T.z displacement on the secondary branch at lateral offset w.
+fn secondary_top(w: f64) -> f64 {
+    let l = L / (1.0 + K * L / (2.0 * EA));
+    2.0 * (l * l - w * w).sqrt() - 2.0 * L
+}
+
+fn critical_lambda() -> f64 {
+    (K * L / 2.0) / (1.0 + K * L / (2.0 * EA)) / P_REF
+}
+
+/// Checks every state after the switch against the closed form; returns the
+/// lateral offsets in path order.
+fn check_secondary(run: &Run, step_after: usize) -> Vec<f64> {
+    let mut ws = Vec::new();
+    for p in run.path.points.iter().filter(|p| p.step >= step_after) {
+        assert!(p.relative_residual <= 1e-11, "step {}: residual {}", p.step, p.relative_residual);
+        let (tz, w) = (p.watched[0], p.watched[1]);
+        assert!(w > 0.0, "step {}: no sway, M.x = {w}", p.step);
+        assert!(rel_err(p.lambda, secondary_lambda(w), 1e-12) < 1e-7, "step {}: λ {} vs {}", p.step, p.lambda, secondary_lambda(w));
+        assert!((tz - secondary_top(w)).abs() < 1e-7, "step {}: T.z {tz} vs {}", p.step, secondary_top(w));
+        ws.push(w);
+    }
+    ws
+}
+
+fn switched(run: &Run) -> tautline::path::branch::Switched {
+    match &run.path.switch {
+        Some(SwitchOutcome::Switched(s)) => s.clone(),
+        other => panic!("no switch: {other:?}, stop {:?}", run.path.stop),
+    }
+}
+
+/// Arc-length control leaves at the bifurcation and follows the falling
+/// secondary branch, every state on the closed form, the sway growing from 0,
+/// with every corrector.
+#[test]
+fn arc_length_follows_the_secondary_branch_of_the_braced_strut() {
+    for method in ALL_METHODS {
+        let m = model(&strut(
+            "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 80\nmax_displacement = 1.2\nswitch_at = 1",
+        ));
+        let run = trace(m, method);
+        assert_eq!(run.path.stop, StopReason::MaxDisplacement, "{method:?}: {}", tautline::results::stop_message(&run.model, &run.path));
+        let s = switched(&run);
+        let c = &run.path.critical[s.at_critical];
+        assert_eq!(c.kind, CriticalKind::Bifurcation);
+        assert!(rel_err(s.lambda, critical_lambda(), 1e-12) < 1e-7, "{method:?}: λc {} vs {}", s.lambda, critical_lambda());
+        // Primary path before the switch: no sway.
+        for p in run.path.points.iter().filter(|p| p.step < s.step) {
+            assert!(p.watched[1].abs() < 1e-9, "{method:?} step {}: sway {} on the primary path", p.step, p.watched[1]);
+        }
+        let ws = check_secondary(&run, s.step);
+        assert!(ws.len() >= 8, "{method:?}: only {} secondary states", ws.len());
+        assert!(ws.windows(2).all(|p| p[1] > p[0]), "{method:?}: sway not growing: {ws:?}");
+        assert!(*ws.last().unwrap() > 1.0, "{method:?}: the branch was not followed far: {ws:?}");
+        // The branch falls: λ below λc after the switch.
+        assert!(run.path.points.last().unwrap().lambda < 0.9 * critical_lambda());
+    }
+}
+
+/// Displacement control (T.z) carries on down the secondary branch.
+#[test]
+fn displacement_control_follows_the_secondary_branch() {
+    let m = model(&strut("control = \"displacement\"\ntarget = -1.0\nsteps = 20\nswitch_at = 1"));
+    let run = trace(m, Method::Newton);
+    assert_eq!(run.path.stop, StopReason::TargetReached, "{}", tautline::results::stop_message(&run.model, &run.path));
+    let s = switched(&run);
+    let ws = check_secondary(&run, s.step);
+    assert!(ws.windows(2).all(|p| p[1] > p[0]), "{ws:?}");
+    let last = run.path.points.last().unwrap();
+    assert!((last.watched[0] + 1.0).abs() < 1e-9, "T.z at the end {}", last.watched[0]);
+}
+
+/// Load control cannot follow a falling branch: it switches, keeps the first
+/// secondary state (on the closed form) and stops saying why.
+#[test]
+fn load_control_stops_on_a_falling_secondary_branch_and_says_so() {
+    let m = model(&strut("control = \"load\"\ntarget = 1.2\nsteps = 12\nswitch_at = 1"));
+    let run = trace(m, Method::Newton);
+    assert_eq!(run.path.stop, StopReason::BranchSwitch);
+    let s = switched(&run);
+    assert_eq!(s.step, run.path.points.last().unwrap().step);
+    let ws = check_secondary(&run, s.step);
+    assert_eq!(ws.len(), 1);
+    assert!(s.lambda_after < s.lambda);
+    let msg = tautline::results::stop_message(&run.model, &run.path);
+    assert!(msg.contains("falls") && msg.contains("arc-length"), "{msg}");
+}
+
+/// Fewer bifurcations than asked: the path is the primary one and says so.
+#[test]
+fn a_switch_never_met_is_reported() {
+    let m = model(&strut("control = \"load\"\ntarget = 1.2\nsteps = 12\nswitch_at = 2"));
+    let run = trace(m, Method::Newton);
+    assert_eq!(run.path.stop, StopReason::TargetReached);
+    assert_eq!(run.path.switch, Some(SwitchOutcome::NotMet { requested: 2, met: 1 }));
+    assert!(run.path.points.iter().all(|p| p.watched[1] == 0.0));
+}
+
+/// `switch_mode` beyond the multiplicity (1 here) stops the run at the point.
+#[test]
+fn switch_mode_out_of_range_stops_at_the_point() {
+    let m = model(&strut("control = \"load\"\ntarget = 1.2\nsteps = 12\nswitch_at = 1\nswitch_mode = 2"));
+    let run = trace(m, Method::Newton);
+    assert_eq!(run.path.stop, StopReason::BranchSwitch);
+    assert!(matches!(run.path.switch, Some(SwitchOutcome::ModeOutOfRange { requested: 2, multiplicity: 1, .. })), "{:?}", run.path.switch);
+}
+
+/// λ on the imperfect path at lateral position w (derived above).
+fn imperfect_lambda(w: f64, w0: f64, l0: f64) -> f64 {
+    let q = K * (w - w0) / (2.0 * w);
+    let l = l0 / (1.0 + q * l0 / EA);
+    q * (l * l - w * w).sqrt() / P_REF
+}
+
+/// The seeded strut (mode 1 of the perfect path, the sway, 0.02 m) follows a
+/// smooth path with sway from the first step, no bifurcation, every state on
+/// the closed form, rising to a limit point below the perfect bifurcation
+/// load and then approaching the secondary branch.
+#[test]
+fn seeded_strut_follows_the_imperfect_closed_form() {
+    let w0 = 0.02;
+    let perfect = model(&strut(&format!(
+        "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 80\nmax_displacement = 0.8\nimperfection = {{ mode = 1, amplitude = {w0:?} }}"
+    )));
+    let (seeded, seed) = tautline::path::branch::seed(&perfect, &mut tautline::observe::Silent).unwrap().unwrap();
+    assert_eq!(seed.kind, CriticalKind::Bifurcation);
+    assert_eq!(seeded.nodes[seed.node].label, "M");
+    let m_at = seeded.nodes[1].at;
+    assert!((m_at[0] - w0).abs() < 1e-12 && m_at[2] == 2.0, "M seeded to {m_at:?}");
+    assert_eq!(seeded.nodes[2].at, [0.0, 0.0, 4.0]);
+    let l0 = (w0 * w0 + L * L).sqrt();
+    for method in ALL_METHODS {
+        let run = trace(seeded.clone(), method);
+        assert_eq!(run.path.stop, StopReason::MaxDisplacement, "{method:?}");
+        assert!(run.path.critical.iter().all(|c| c.kind == CriticalKind::Limit), "{method:?}: {:?}", run.path.critical);
+        let mut gaps = Vec::new();
+        for p in run.path.points.iter().skip(1) {
+            let w = w0 + p.watched[1];
+            assert!(p.watched[1] > 0.0, "{method:?} step {}: no sway", p.step);
+            assert!(rel_err(p.lambda, imperfect_lambda(w, w0, l0), 1e-12) < 1e-7, "{method:?} step {}: {} vs {}", p.step, p.lambda, imperfect_lambda(w, w0, l0));
+            if w < L / (1.0 + K * L / (2.0 * EA)) {
+                gaps.push(secondary_lambda(w) - p.lambda);
+            }
+        }
+        // Below the perfect bifurcation load everywhere, and closing in on
+        // the secondary branch as the sway grows.
+        let peak = run.path.points.iter().map(|p| p.lambda).fold(0.0, f64::max);
+        assert!(peak < critical_lambda(), "{method:?}: peak {peak}");
+        assert!(gaps.iter().all(|g| *g > 0.0), "{method:?}: {gaps:?}");
+        assert!(gaps.last().unwrap() < &(0.1 * gaps[0]), "{method:?}: gap {gaps:?}");
+    }
+}
