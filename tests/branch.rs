@@ -129,7 +129,7 @@ fn switched(run: &Run) -> tautline::path::branch::Switched {
 fn arc_length_follows_the_secondary_branch_of_the_braced_strut() {
     for method in ALL_METHODS {
         let m = model(&strut(
-            "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 80\nmax_displacement = 1.2\nswitch_at = 1",
+            "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 400\nmax_displacement = 1.2\nswitch_at = 1",
         ));
         let run = trace(m, method);
         assert_eq!(run.path.stop, StopReason::MaxDisplacement, "{method:?}: {}", tautline::results::stop_message(&run.model, &run.path));
@@ -213,7 +213,7 @@ fn imperfect_lambda(w: f64, w0: f64, l0: f64) -> f64 {
 fn seeded_strut_follows_the_imperfect_closed_form() {
     let w0 = 0.02;
     let perfect = model(&strut(&format!(
-        "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 80\nmax_displacement = 0.8\nimperfection = {{ mode = 1, amplitude = {w0:?} }}"
+        "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 400\nmax_displacement = 0.8\nimperfection = {{ mode = 1, amplitude = {w0:?} }}"
     )));
     let (seeded, seed) = tautline::path::branch::seed(&perfect, &mut tautline::observe::Silent).unwrap().unwrap();
     assert_eq!(seed.kind, CriticalKind::Bifurcation);

@@ -195,6 +195,11 @@ impl Switcher {
         self.due = Some(Due { at_critical: index, u, lambda: c.lambda, modes: c.modes.clone(), chord });
     }
 
+    /// Whether the path is on the secondary branch.
+    pub fn has_switched(&self) -> bool {
+        matches!(self.outcome, Some(SwitchOutcome::Switched(_)))
+    }
+
     pub fn is_due(&self) -> bool {
         self.due.is_some()
     }

@@ -606,6 +606,14 @@ impl<'a> Tracer<'a> {
                 // Under arc-length control the cylinder meets the path behind
                 // the start as well as ahead: an increment at an obtuse angle
                 // to the last one has turned back and is cut back.
+                // After a branch switch (branch.rs) the controlled DOF may move
+                // only at second order along the secondary branch near the
+                // point, and a displacement step can land on the mirror
+                // branch: an increment turned back is cut back there too.
+                (Termination::Converged, Control::Displacement) if switcher.has_switched() && !last_increment.is_empty() => {
+                    let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
+                    if turned { Termination::Jumped } else { term }
+                }
                 (Termination::Converged, Control::ArcLength) if !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
                     if turned { Termination::Jumped } else { term }
