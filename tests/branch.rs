@@ -243,3 +243,151 @@ fn seeded_strut_follows_the_imperfect_closed_form() {
         assert!(gaps.last().unwrap() < &(0.1 * gaps[0]), "{method:?}: gap {gaps:?}");
     }
 }
+
+// ---------------------------------------------------------------------------
+// The command line: `--switch-at`, the keys, exit codes, results.json.
+
+mod cli {
+    use super::strut;
+    use serde_json::Value;
+    use std::path::PathBuf;
+    use std::process::Command;
+
+    const BIN: &str = env!("CARGO_BIN_EXE_tautline");
+
+    /// A scratch folder for one test, removed on drop.
+    struct Scratch(PathBuf);
+    impl Scratch {
+        fn new(name: &str) -> Scratch {
+            let dir = std::env::temp_dir().join(format!("tautline-branch-{name}-{}", std::process::id()));
+            let _ = std::fs::remove_dir_all(&dir);
+            std::fs::create_dir_all(&dir).unwrap();
+            Scratch(dir)
+        }
+    }
+    impl Drop for Scratch {
+        fn drop(&mut self) {
+            let _ = std::fs::remove_dir_all(&self.0);
+        }
+    }
+
+    /// Writes the model, solves it into `out`; (exit code, stdout + stderr).
+    fn solve(dir: &Scratch, analysis: &str, extra: &[&str]) -> (i32, String, PathBuf) {
+        let model = dir.0.join("strut.toml");
+        std::fs::write(&model, strut(analysis)).unwrap();
+        let out = dir.0.join("out");
+        let o = Command::new(BIN).arg("solve").arg(&model).arg("-o").arg(&out).args(extra).output().unwrap();
+        let text = format!("{}{}", String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr));
+        (o.status.code().unwrap_or(-1), text, out)
+    }
+
+    fn results(out: &std::path::Path) -> Value {
+        serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap()
+    }
+
+    #[test]
+    fn switch_at_on_the_command_line_switches_and_results_say_where() {
+        let dir = Scratch::new("switch");
+        let (code, text, out) = solve(
+            &dir,
+            "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 400\nmax_displacement = 1.2",
+            &["--switch-at", "1", "-q"],
+        );
+        assert_eq!(code, 0, "{text}");
+        let r = results(&out);
+        let s = &r["switched"];
+        assert_eq!(s["at_critical"], 0, "{r}");
+        assert_eq!(r["critical_points"][0]["kind"], "bifurcation");
+        assert_eq!(s["mode"], 1);
+        let step = s["step"].as_u64().unwrap() as usize;
+        assert!(r["steps"][step]["watched"][1].as_f64().unwrap() > 0.0);
+        assert!(r.get("switch_not_made").is_none());
+    }
+
+    #[test]
+    fn a_switch_not_met_exits_3_and_says_so() {
+        let dir = Scratch::new("notmet");
+        let (code, text, out) = solve(&dir, "control = \"load\"\ntarget = 1.2\nsteps = 12\nswitch_at = 2", &["-q"]);
+        assert_eq!(code, 3, "{text}");
+        assert!(text.contains("no switch was made"), "{text}");
+        let r = results(&out);
+        assert_eq!(r["switch_not_made"]["requested_at"], 2);
+        assert_eq!(r["switch_not_made"]["bifurcations_met"], 1);
+        assert_eq!(r["converged"], true);
+    }
+
+    #[test]
+    fn switch_mode_beyond_the_multiplicity_is_bad_input_and_writes_nothing() {
+        let dir = Scratch::new("mode");
+        let analysis = "control = \"load\"\ntarget = 1.2\nsteps = 12\nswitch_at = 1\nswitch_mode = 2";
+        let (code, text, out) = solve(&dir, analysis, &["-q"]);
+        assert_eq!(code, 2, "{text}");
+        let line = strut(analysis).lines().position(|l| l.starts_with("switch_mode")).unwrap() + 1;
+        assert!(text.contains(&format!("strut.toml:{line}: [analysis]: switch_mode = 2")), "{text}");
+        assert!(text.contains("1 mode(s)") && text.contains("set switch_mode from 1 to 1"), "{text}");
+        assert!(!out.join("results.json").exists());
+    }
+
+    #[test]
+    fn bad_switch_keys_are_reported_with_line_and_fix() {
+        let dir = Scratch::new("keys");
+        for (key, needle) in [
+            ("switch_at = 0", "`switch_at` must be at least 1"),
+            ("switch_at = 1.5", "expected a whole number"),
+            ("switch_mode = 1", "`switch_mode` is given without `switch_at`"),
+            ("imperfection = { mode = 0, amplitude = 0.01 }", "`imperfection.mode` must be at least 1"),
+            ("imperfection = { mode = 1, amplitude = 0.0 }", "`imperfection.amplitude` must be a finite, non-zero length"),
+        ] {
+            let analysis = format!("control = \"load\"\ntarget = 1.2\nsteps = 12\n{key}");
+            let (code, text, out) = solve(&dir, &analysis, &["-q"]);
+            let line = strut(&analysis).lines().position(|l| l == key).unwrap() + 1;
+            assert_eq!(code, 2, "{key}: {text}");
+            assert!(text.contains(&format!("strut.toml:{line}:")) && text.contains(needle), "{key}: {text}");
+            assert!(!out.join("results.json").exists());
+        }
+        let (code, text, _) = solve(&dir, "control = \"load\"\ntarget = 1.2\nsteps = 12", &["--switch-at", "0"]);
+        assert_eq!(code, 2, "{text}");
+        assert!(text.contains("--switch-at 0: must be from 1"), "{text}");
+    }
+
+    #[test]
+    fn imperfection_is_seeded_and_reported() {
+        let dir = Scratch::new("seed");
+        let (code, text, out) = solve(
+            &dir,
+            "control = \"arc-length\"\narc = 0.05\ntarget = 1.2\nmax_steps = 400\nmax_displacement = 0.8\nimperfection = { mode = 1, amplitude = 0.02 }",
+            &["-q"],
+        );
+        assert_eq!(code, 0, "{text}");
+        let r = results(&out);
+        let i = &r["imperfection"];
+        assert_eq!(i["mode"], 1, "{r}");
+        assert_eq!(i["kind"], "bifurcation");
+        assert_eq!(i["node"], "M");
+        assert!((i["amplitude"].as_f64().unwrap() - 0.02).abs() < 1e-15);
+        assert!(r["critical_points"].as_array().unwrap().iter().all(|c| c["kind"] == "limit"), "{r}");
+        // A mode the perfect path never meets: bad input, nothing written.
+        let dir = Scratch::new("seed3");
+        let (code, text, out) = solve(
+            &dir,
+            "control = \"load\"\ntarget = 1.2\nsteps = 12\nimperfection = { mode = 3, amplitude = 0.02 }",
+            &["-q"],
+        );
+        assert_eq!(code, 2, "{text}");
+        assert!(text.contains("imperfection.mode = 3") && text.contains("met 1 critical point"), "{text}");
+        assert!(!out.join("results.json").exists());
+    }
+
+    /// The keys survive the model writer (`to_toml`) and read back the same.
+    #[test]
+    fn branch_keys_are_written_back() {
+        let text = strut("control = \"load\"\ntarget = 1.2\nsteps = 12\nswitch_at = 2\nswitch_mode = 1\nimperfection = { mode = 1, amplitude = -0.02 }");
+        let m = crate::common::model(&text);
+        let back = tautline::model::write::to_toml(&m);
+        let again = crate::common::model(&back);
+        assert_eq!(again.analysis.branch.switch_at, Some(2));
+        assert_eq!(again.analysis.branch.switch_mode, Some(1));
+        assert_eq!(again.analysis.branch.imperfection, m.analysis.branch.imperfection);
+        assert_eq!(m.analysis.branch.imperfection.unwrap().amplitude, -0.02);
+    }
+}

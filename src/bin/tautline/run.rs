@@ -447,7 +447,11 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
                 eprintln!("warning: {w}");
             }
             if quiet {
-                let status = if res.converged { "done" } else { "stopped before the target" };
+                let status = match (res.converged, &res.switch_not_made) {
+                    (true, Some(_)) => "done without the branch switch",
+                    (true, None) => "done",
+                    (false, _) => "stopped before the target",
+                };
                 println!("{status}: {}", res.stop_message);
             } else {
                 print_run_summary(m, &res);
@@ -518,7 +522,11 @@ fn print_run_summary(m: &Model, r: &results::Results) {
         r.totals.iterations, r.totals.factorizations, r.totals.residual_evaluations, r.totals.cutbacks, r.totals.seconds
     );
     println!("equilibrium check: |loads + reactions| / |loads| = {:.2e}", r.equilibrium.relative_imbalance);
-    let status = if r.converged { "done" } else { "stopped before the target" };
+    let status = match (r.converged, &r.switch_not_made) {
+        (true, Some(_)) => "done without the branch switch",
+        (true, None) => "done",
+        (false, _) => "stopped before the target",
+    };
     println!("{status}: {}", r.stop_message);
 }
 
