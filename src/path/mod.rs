@@ -689,7 +689,9 @@ impl<'a> Tracer<'a> {
                         Control::Displacement => ev.point_displacement,
                         _ => state.lambda,
                     };
-                    if crossed || (progress - a.target).abs() <= 1e-12 * a.target.abs().max(1e-300) {
+                    // (A switch due at this step goes first: branch.rs.)
+                    let reached = crossed || (progress - a.target).abs() <= 1e-12 * a.target.abs().max(1e-300);
+                    if reached && !switcher.is_due() {
                         break 'path StopReason::TargetReached;
                     }
                     if let (Some(max_d), Some(p)) = (a.max_displacement, a.point) {
