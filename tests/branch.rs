@@ -244,6 +244,108 @@ fn seeded_strut_follows_the_imperfect_closed_form() {
     }
 }
 
+/// A steep square pyramid: four bars (EA = 1e6 N, engineering strain) from
+/// the base corners (±1, ±1, 0) m to the apex T at (0, 0, 3) m, 1e5 N down on
+/// T per unit load factor. The apex's lateral stiffness vanishes before its
+/// vertical one: a double bifurcation (x and y sway; the pivot count goes
+/// from 0 to 2). Leaving it with `switch_at = 1` under arc-length control,
+/// the path sways sideways; every state is checked for equilibrium of the
+/// apex computed here from the geometry alone (derived: N = EA(l − L)/L
+/// along each bar, Σ N·e + λ·f = 0), the sway is 0 before the switch and
+/// grows after it.
+#[test]
+fn pyramid_leaves_its_double_bifurcation_sideways_in_equilibrium() {
+    const PYRAMID_MODEL: &str = r#"title = "steep square pyramid"
+[[section]]
+name = "s"
+EA = 1.0e6
+[[node]]
+id = "A"
+at = [1.0, 1.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "B"
+at = [-1.0, 1.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [-1.0, -1.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "D"
+at = [1.0, -1.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "T"
+at = [0.0, 0.0, 3.0]
+[[member]]
+id = "a"
+kind = "bar"
+ends = ["A", "T"]
+section = "s"
+[[member]]
+id = "b"
+kind = "bar"
+ends = ["B", "T"]
+section = "s"
+[[member]]
+id = "c"
+kind = "bar"
+ends = ["C", "T"]
+section = "s"
+[[member]]
+id = "d"
+kind = "bar"
+ends = ["D", "T"]
+section = "s"
+[[load]]
+node = "T"
+force = [0.0, 0.0, -1.0e5]
+[analysis]
+strain = "engineering"
+control = "arc-length"
+arc = 0.05
+target = 8.0
+max_steps = 300
+node = "T"
+dir = "z"
+max_displacement = 2.5
+tolerance = 1e-11
+watch = ["T.z", "T.x", "T.y"]
+switch_at = 1
+"#;
+    let run = trace(model(PYRAMID_MODEL), Method::Newton);
+    assert_eq!(run.path.stop, StopReason::MaxDisplacement, "{}", tautline::results::stop_message(&run.model, &run.path));
+    let s = switched(&run);
+    let c = &run.path.critical[s.at_critical];
+    assert_eq!((c.kind, c.pivots), (CriticalKind::Bifurcation, (0, 2)));
+    let corners = [[1.0, 1.0], [-1.0, 1.0], [-1.0, -1.0], [1.0, -1.0]];
+    let l0 = (2.0f64 + 9.0).sqrt();
+    let mut sway = Vec::new();
+    for p in &run.path.points {
+        let (uz, ux, uy) = (p.watched[0], p.watched[1], p.watched[2]);
+        let apex = [ux, uy, 3.0 + uz];
+        let mut f = [0.0, 0.0, -1.0e5 * p.lambda];
+        for c in corners {
+            let d = [apex[0] - c[0], apex[1] - c[1], apex[2]];
+            let l = (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt();
+            let n = 1.0e6 * (l - l0) / l0;
+            for k in 0..3 {
+                f[k] -= n * d[k] / l;
+            }
+        }
+        let imbalance = (f[0] * f[0] + f[1] * f[1] + f[2] * f[2]).sqrt();
+        assert!(imbalance <= 1e-8 * 1.0e5 * p.lambda.abs().max(1.0), "step {}: apex imbalance {imbalance} N", p.step);
+        let h = (ux * ux + uy * uy).sqrt();
+        if p.step < s.step {
+            assert!(h < 1e-9, "step {}: sway {h} on the primary path", p.step);
+        } else {
+            sway.push(h);
+        }
+    }
+    assert!(sway.len() >= 10 && sway.windows(2).all(|w| w[1] > w[0]) && sway[0] > 0.0, "{sway:?}");
+}
+
 // ---------------------------------------------------------------------------
 // The command line: `--switch-at`, the keys, exit codes, results.json.
 
