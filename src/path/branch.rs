@@ -386,8 +386,8 @@ pub fn seed(model: &Model, observer: &mut dyn Observer) -> Result<Option<(Model,
     let mut seeded = model.clone();
     seeded.analysis.branch.imperfection = None;
     for (node, d) in seeded.nodes.iter_mut().zip(&offsets.0) {
-        for ax in 0..3 {
-            node.at[ax] += d[ax];
+        for (x, dx) in node.at.iter_mut().zip(d) {
+            *x += dx;
         }
     }
     Ok(Some((seeded, Seed { mode: imp.mode, amplitude: imp.amplitude, kind: c.kind, lambda: c.lambda, node: offsets.1 })))
