@@ -493,3 +493,19 @@ mod cli {
         assert_eq!(m.analysis.branch.imperfection.unwrap().amplitude, -0.02);
     }
 }
+
+/// The README's worked example (docs/branch/shoring_prop.toml) switches at
+/// its closed-form bifurcation, P = (kL/2)/(1 + kL/(2EA)) with k = 2e5 N/m,
+/// L = 3 m, EA = 1.1e8 N (derived above), and sways ever further after it.
+#[test]
+fn readme_shoring_prop_switches_at_its_closed_form_load() {
+    let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/docs/branch/shoring_prop.toml")).unwrap();
+    let run = trace(model(&text), Method::Newton);
+    assert_eq!(run.path.stop, StopReason::MaxDisplacement);
+    let s = switched(&run);
+    let (k, l, ea) = (2.0e5, 3.0, 1.1e8);
+    let p_cr = (k * l / 2.0) / (1.0 + k * l / (2.0 * ea));
+    assert!(rel_err(s.lambda * 1.0e5, p_cr, 1.0) < 1e-7, "{} vs {p_cr}", s.lambda * 1.0e5);
+    let sway: Vec<f64> = run.path.points.iter().filter(|p| p.step >= s.step).map(|p| p.watched[0]).collect();
+    assert!(sway[0] > 0.0 && sway.windows(2).all(|w| w[1] > w[0]) && *sway.last().unwrap() > 1.5, "{sway:?}");
+}
