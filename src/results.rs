@@ -340,7 +340,16 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 .last()
                 .map(|p| p.slack.iter().take(5).map(|&m| format!("{:?}", model.members[m as usize].label)).collect())
                 .unwrap_or_default();
+            let after_switch = matches!(path.switch, Some(SwitchOutcome::Switched(_)))
+                && model.analysis.control == crate::model::Control::Displacement;
             let hint = match &f.termination {
+                // Near a symmetric bifurcation the controlled displacement
+                // moves only at second order along the secondary branch.
+                Termination::Jumped if after_switch => {
+                    "after the branch switch, displacement control could not move on along the secondary branch \
+                     (near the bifurcation the controlled displacement changes only slowly along it): use control = \"arc-length\""
+                        .into()
+                }
                 Termination::SingularTangent { .. } if !slack.is_empty() => format!(
                     "cables were slack at the last converged state ({}): raise their prestress, or model them as bars if they may carry compression",
                     slack.join(", ")

@@ -330,8 +330,8 @@ switch_at = 1
             let d = [apex[0] - c[0], apex[1] - c[1], apex[2]];
             let l = (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt();
             let n = 1.0e6 * (l - l0) / l0;
-            for k in 0..3 {
-                f[k] -= n * d[k] / l;
+            for (fk, dk) in f.iter_mut().zip(d) {
+                *fk -= n * dk / l;
             }
         }
         let imbalance = (f[0] * f[0] + f[1] * f[1] + f[2] * f[2]).sqrt();
