@@ -509,3 +509,29 @@ fn readme_shoring_prop_switches_at_its_closed_form_load() {
     let sway: Vec<f64> = run.path.points.iter().filter(|p| p.step >= s.step).map(|p| p.watched[0]).collect();
     assert!(sway[0] > 0.0 && sway.windows(2).all(|w| w[1] > w[0]) && *sway.last().unwrap() > 1.5, "{sway:?}");
 }
+
+/// The stiff shoring prop under displacement control of its head: the switch
+/// lets the mode amplitude grow until the head has moved by half a step
+/// (near the bifurcation the head moves only at second order in the sway),
+/// and the run reaches its target on the secondary branch, every state on the
+/// closed form P = k·h/2, h = √(l*² − w²), l* = L/(1 + kL/(2EA)) (derived
+/// above), down to H.z = −1 m where h = 2.5 m and P = 250 kN exactly.
+#[test]
+fn stiff_prop_under_displacement_control_reaches_its_target_on_the_secondary_branch() {
+    let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/docs/branch/shoring_prop.toml"))
+        .unwrap()
+        .replace("control = \"arc-length\"\narc = 0.02\ntarget = 3.2", "control = \"displacement\"\nsteps = 100\ntarget = -1.0")
+        .replace("max_displacement = 1.0\n", "");
+    let run = trace(model(&text), Method::Newton);
+    assert_eq!(run.path.stop, StopReason::TargetReached, "{}", tautline::results::stop_message(&run.model, &run.path));
+    let s = switched(&run);
+    let (k, l, ea) = (2.0e5, 3.0, 1.1e8);
+    let l_star = l / (1.0 + k * l / (2.0 * ea));
+    for p in run.path.points.iter().filter(|p| p.step >= s.step) {
+        let (w, hz) = (p.watched[0], p.watched[1]);
+        let h = (l_star * l_star - w * w).sqrt();
+        assert!(w > 0.0 && rel_err(p.lambda, k * h / 2.0 / 1.0e5, 1e-12) < 1e-7, "step {}: λ {} vs {}", p.step, p.lambda, k * h / 2.0 / 1.0e5);
+        assert!((hz - (2.0 * h - 2.0 * l)).abs() < 1e-7, "step {}: H.z {hz}", p.step);
+    }
+    assert!((run.path.points.last().unwrap().lambda - 2.5).abs() < 1e-7);
+}

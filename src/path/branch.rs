@@ -26,6 +26,10 @@
 //! arc length under arc-length control, the length of the step that crossed
 //! the point otherwise; the hyperplane constraint for the first step is our
 //! choice, made so that the step cannot return to the primary path.
+//! Under displacement control ξ is then doubled (secant predictor from C,
+//! each a converged state) until the controlled displacement has moved by
+//! half a step: near a symmetric bifurcation it moves only as ξ², and the
+//! next displacement step's tangent predictor would otherwise overshoot.
 //!
 //! t is not available at C itself (the tangent stiffness is singular there):
 //! the chord of the step that bracketed C is used, whose angle with the
@@ -67,6 +71,9 @@ use crate::solve::{self, Constraint, CorrectorConfig, InverseTangent, State, Ter
 
 /// How many times the switch step is halved before the switch is given up.
 pub const SWITCH_HALVINGS: usize = 4;
+/// Under displacement control, how many times ξ may be doubled so that the
+/// controlled displacement moves by half a step (see `leave_along_mode`).
+pub const MAX_MODE_DOUBLINGS: usize = 20;
 
 /// Where the path left the primary branch.
 #[derive(Clone, Debug, PartialEq)]
@@ -270,7 +277,8 @@ pub fn injected_direction(mode: &[f64], chord: &[f64]) -> Option<Vec<f64>> {
 impl Tracer<'_> {
     /// Leaves the due bifurcation along its mode: predictor u_c + ξψ at λ_c,
     /// corrector with ψ·(u − u_c) = ξ, halving ξ up to [`SWITCH_HALVINGS`]
-    /// times. `step` numbers the new state. None: the run stops here (the
+    /// times. `control_step` (displacement control: the controlled DOF and
+    /// the step size) lets ξ grow until that DOF has moved by half a step. `step` numbers the new state. None: the run stops here (the
     /// outcome says why); Some with `stop`: recorded, then stop (a falling
     /// branch under load control).
     pub(super) fn leave_along_mode(
@@ -278,6 +286,7 @@ impl Tracer<'_> {
         ws: &mut Workspace,
         switcher: &mut Switcher,
         xi: f64,
+        control_step: Option<(usize, f64)>,
         step: usize,
         observer: &mut dyn Observer,
     ) -> Option<(Left, bool)> {
@@ -328,6 +337,32 @@ impl Tracer<'_> {
                 continue;
             }
             let mut record = rec;
+            // Displacement control: near a symmetric bifurcation the
+            // controlled displacement moves only at second order along the
+            // branch, so a first state at ξ leaves the next displacement step
+            // far too long for its tangent predictor. ξ is doubled (each time
+            // a converged state, predicted by the secant from C) until the
+            // controlled displacement has moved by half a step.
+            if let Some((dof, size)) = control_step {
+                let moved = |u: &[f64]| (u[dof] - due.u[dof]).abs();
+                let mut doublings = 0;
+                while moved(&state.u) < 0.5 * size.abs() && doublings < MAX_MODE_DOUBLINGS {
+                    doublings += 1;
+                    let mut next = state.clone();
+                    next.u = due.u.iter().zip(&state.u).map(|(c, u)| c + 2.0 * (u - c)).collect();
+                    next.lambda = due.lambda + 2.0 * (state.lambda - due.lambda);
+                    ws.fresh = false;
+                    let c = AlongMode { psi: &psi };
+                    let (term, rec) = solve::drive(sys, ws, &mut next, &due.u, due.lambda, &c, &self.corrector, step, observer);
+                    if term != Termination::Converged {
+                        super::add_records(&mut self.wasted, &rec);
+                        break;
+                    }
+                    super::add_records(&mut record, &rec);
+                    state = next;
+                    xi *= 2.0;
+                }
+            }
             let singular = solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
             let neg = ws.h.inertia.negative;
             let mut point = self.make_point(&state, step, record, neg);

@@ -704,7 +704,11 @@ impl<'a> Tracer<'a> {
                     if switcher.is_due() {
                         let xi = if a.control == Control::ArcLength { stepper.size.abs() } else { dot_dist(&state.u, &start_u) };
                         let next = points.len();
-                        let Some((left, falls)) = self.leave_along_mode(ws, &mut switcher, xi, next, observer) else {
+                        let control_step = match a.control {
+                            Control::Displacement => stepper.control_dof.map(|d| (d, stepper.size)),
+                            _ => None,
+                        };
+                        let Some((left, falls)) = self.leave_along_mode(ws, &mut switcher, xi, control_step, next, observer) else {
                             // Back to the factor of the last converged state.
                             let mut rec = StepRecord::default();
                             solve::refactor_at(sys, ws, &mut state, &mut rec);
