@@ -4,6 +4,7 @@
 
 use crate::assembly::System;
 use crate::model::Model;
+use crate::path::branch::SwitchOutcome;
 use crate::path::{Path, StopReason};
 use crate::solve::Termination;
 use serde::Serialize;
@@ -35,6 +36,52 @@ pub struct Results {
     /// Where the whole displacement fields are (never inline here).
     pub fields: FieldsOut,
     pub totals: Totals,
+    /// Where the path left its primary branch (`switch_at`); absent when no
+    /// switch was asked for or it was not made.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub switched: Option<SwitchedOut>,
+    /// A switch asked for and not made, and why.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub switch_not_made: Option<SwitchNotMadeOut>,
+    /// The mode seeded onto the geometry before the run (`imperfection`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub imperfection: Option<ImperfectionOut>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct SwitchedOut {
+    /// Index into `critical_points` of the bifurcation left (0-based).
+    pub at_critical: usize,
+    /// Load factor of that bifurcation.
+    pub load_factor: f64,
+    /// Mode left along (1-based) of the point's `multiplicity` modes.
+    pub mode: usize,
+    pub multiplicity: usize,
+    /// Step number of the first state on the secondary branch.
+    pub step: usize,
+    /// Distance moved along the mode by the switch predictor, model length units.
+    pub amplitude: f64,
+    /// Load factor at the first secondary state.
+    pub load_factor_after: f64,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct SwitchNotMadeOut {
+    pub requested_at: usize,
+    pub bifurcations_met: usize,
+    pub reason: String,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct ImperfectionOut {
+    /// Critical point of the perfect path whose mode was seeded (1-based).
+    pub mode: usize,
+    /// Its kind and load factor on the perfect path.
+    pub kind: String,
+    pub load_factor: f64,
+    /// Largest nodal offset, model length units (signed), and its node.
+    pub amplitude: f64,
+    pub node: String,
 }
 
 /// The sidecar files of whole displacement fields (`keep_fields`).
@@ -250,6 +297,17 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
         ),
         StopReason::Interrupted => format!("interrupted at load factor {last:.6}; converged steps are kept"),
         StopReason::NoStartEquilibrium => start_failure_message(model, path),
+        StopReason::BranchSwitch => match &path.switch {
+            Some(SwitchOutcome::Switched(s)) => format!(
+                "left the primary path at the bifurcation at load factor {:.6}; the secondary branch falls (load factor {last:.6} at its first state, step {}): \
+                 load control only raises the load factor and cannot follow it; use control = \"arc-length\" (or \"displacement\") to trace it",
+                s.lambda, s.step
+            ),
+            _ => match switch_not_made(path) {
+                Some(n) => format!("stopped at the requested branch switch, load factor {last:.6}: {}", n.reason),
+                None => format!("stopped at the requested branch switch, load factor {last:.6}"),
+            },
+        },
         StopReason::Mechanism => {
             let moving = path.mechanism.as_ref().map(|m| {
                 m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect::<Vec<_>>().join(", ")
@@ -283,7 +341,16 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 .last()
                 .map(|p| p.slack.iter().take(5).map(|&m| format!("{:?}", model.members[m as usize].label)).collect())
                 .unwrap_or_default();
+            let after_switch = matches!(path.switch, Some(SwitchOutcome::Switched(_)))
+                && model.analysis.control == crate::model::Control::Displacement;
             let hint = match &f.termination {
+                // Near a symmetric bifurcation the controlled displacement
+                // moves only at second order along the secondary branch.
+                Termination::Jumped if after_switch => {
+                    "after the branch switch, displacement control could not move on along the secondary branch \
+                     (near the bifurcation the controlled displacement changes only slowly along it): use control = \"arc-length\""
+                        .into()
+                }
                 Termination::SingularTangent { .. } if !slack.is_empty() => format!(
                     "cables were slack at the last converged state ({}): raise their prestress, or model them as bars if they may carry compression",
                     slack.join(", ")
@@ -497,7 +564,13 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
         caution: CAUTION.into(),
         converged: path.stop.is_complete(),
         stop_reason: path.stop.name().into(),
-        stop_message: stop_message(model, path),
+        stop_message: match (&path.switch, path.stop) {
+            // A switch asked for and never met is said in the message too.
+            (Some(SwitchOutcome::NotMet { .. }), _) => {
+                format!("{}; {}", stop_message(model, path), switch_not_made(path).map(|n| n.reason).unwrap_or_default())
+            }
+            _ => stop_message(model, path),
+        },
         analysis: AnalysisOut {
             strain: match a.strain {
                 crate::model::StrainMeasure::Green => "green".into(),
@@ -545,6 +618,26 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             load_factor: m.lambda,
             moving: m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect(),
         }),
+        switched: match &path.switch {
+            Some(SwitchOutcome::Switched(s)) => Some(SwitchedOut {
+                at_critical: s.at_critical,
+                load_factor: s.lambda,
+                mode: s.mode,
+                multiplicity: s.multiplicity,
+                step: s.step,
+                amplitude: len(s.amplitude),
+                load_factor_after: s.lambda_after,
+            }),
+            _ => None,
+        },
+        switch_not_made: switch_not_made(path),
+        imperfection: path.imperfection.as_ref().map(|s| ImperfectionOut {
+            mode: s.mode,
+            kind: kind_name(s.kind).into(),
+            load_factor: s.lambda,
+            amplitude: len(s.amplitude),
+            node: model.nodes[s.node].label.clone(),
+        }),
         fields: fields_out(model, path),
         totals: Totals {
             iterations: iterations + wasted.iterations,
@@ -554,6 +647,46 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             wasted_iterations: wasted.iterations,
             seconds,
         },
+    }
+}
+
+fn kind_name(k: crate::path::CriticalKind) -> &'static str {
+    match k {
+        crate::path::CriticalKind::Limit => "limit",
+        crate::path::CriticalKind::Bifurcation => "bifurcation",
+    }
+}
+
+/// A requested switch that was not made, in words.
+pub fn switch_not_made(path: &Path) -> Option<SwitchNotMadeOut> {
+    let bifurcations = |upto: usize| {
+        path.critical.iter().take(upto).filter(|c| c.kind == crate::path::CriticalKind::Bifurcation).count()
+    };
+    match path.switch.as_ref()? {
+        SwitchOutcome::Switched(_) => None,
+        SwitchOutcome::NotMet { requested, met } => Some(SwitchNotMadeOut {
+            requested_at: *requested,
+            bifurcations_met: *met,
+            reason: format!(
+                "the path met {met} bifurcation(s), fewer than switch_at = {requested}: no switch was made and the whole path is the primary one"
+            ),
+        }),
+        SwitchOutcome::ModeOutOfRange { at_critical, lambda, requested, multiplicity, .. } => Some(SwitchNotMadeOut {
+            requested_at: bifurcations(at_critical + 1),
+            bifurcations_met: bifurcations(at_critical + 1),
+            reason: format!(
+                "switch_mode = {requested}, but the bifurcation at load factor {lambda:.6} has {multiplicity} mode(s): choose switch_mode from 1 to {multiplicity}"
+            ),
+        }),
+        SwitchOutcome::Failed { at_critical, lambda } => Some(SwitchNotMadeOut {
+            requested_at: bifurcations(at_critical + 1),
+            bifurcations_met: bifurcations(at_critical + 1),
+            reason: format!(
+                "no equilibrium was found along the bifurcation mode at load factor {lambda:.6} after {} halvings of the switch step; \
+                 try a smaller arc (or more steps), or method = \"newton\"",
+                crate::path::branch::SWITCH_HALVINGS
+            ),
+        }),
     }
 }
 

@@ -21,4 +21,5 @@ mod report;
 mod browser;
 mod stability;
 mod start;
+mod branch;
 mod verification;

@@ -186,6 +186,19 @@ pub struct AnalysisEntry {
     pub self_weight: Option<Spanned<String>>,
     pub load_predictor: Option<Spanned<String>>,
     pub keep_fields: Option<Spanned<KeepFieldsEntry>>,
+    // Branch switching and imperfection seeding (path::branch).
+    pub switch_at: Option<Spanned<i64>>,
+    pub switch_mode: Option<Spanned<i64>>,
+    pub imperfection: Option<Spanned<ImperfectionEntry>>,
+}
+
+/// `imperfection = { mode = N, amplitude = a }`; the mode number is read as
+/// a signed integer so that `0` or `-1` gets a clear message.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ImperfectionEntry {
+    pub mode: Spanned<i64>,
+    pub amplitude: Spanned<f64>,
 }
 
 /// `keep_fields`: a policy name or an array of step numbers, as written.
@@ -369,6 +382,9 @@ pub const ANALYSIS_SPEC: TableSpec = TableSpec {
         key("self_weight", "self_weight = \"dead\""),
         key("load_predictor", "load_predictor = \"secant\""),
         key("keep_fields", "keep_fields = [0, 5, 10]"),
+        key("switch_at", "switch_at = 1"),
+        key("switch_mode", "switch_mode = 1"),
+        key("imperfection", "imperfection = { mode = 1, amplitude = 0.01 }"),
     ],
 };
 

@@ -401,6 +401,33 @@ pub struct Analysis {
     pub load_predictor: bool,
     /// Steps whose whole displacement field is kept (`keep_fields`).
     pub keep_fields: KeepFields,
+    /// Branch switching and imperfection seeding (see `path::branch`).
+    pub branch: BranchSettings,
+}
+
+/// `switch_at`, `switch_mode` and `imperfection` of `[analysis]`.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct BranchSettings {
+    /// Leave the primary path at its Nth bifurcation (1-based).
+    pub switch_at: Option<usize>,
+    /// Which mode of a multiple bifurcation to leave along (1-based); None:
+    /// the mode of largest projection (see `path::branch::pick_mode`).
+    pub switch_mode: Option<usize>,
+    /// Line of `switch_mode` in the model file, for a run-time message when
+    /// the point met has fewer modes.
+    pub switch_mode_line: Option<u32>,
+    /// Seed the geometry with a computed mode before the run.
+    pub imperfection: Option<Imperfection>,
+}
+
+/// `imperfection = { mode = N, amplitude = a }`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Imperfection {
+    /// The Nth critical point of the perfect path (1-based) whose mode is used.
+    pub mode: usize,
+    /// Largest nodal displacement of the scaled mode, m (signed: the sign
+    /// flips the shape).
+    pub amplitude: f64,
 }
 
 impl Default for Analysis {
@@ -432,6 +459,7 @@ impl Default for Analysis {
             self_weight: SelfWeight::Dead,
             load_predictor: true,
             keep_fields: KeepFields::Auto,
+            branch: BranchSettings::default(),
         }
     }
 }

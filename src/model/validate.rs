@@ -1771,7 +1771,67 @@ fn analysis(
         };
     }
     a.point = point.or_else(|| a.watch.first().copied());
+    a.branch = branch_settings(cx, t, e, &a);
     a
+}
+
+/// `switch_at`, `switch_mode` and `imperfection` (see `path::branch`). The
+/// upper bound of `switch_mode` depends on the point met, so it is checked at
+/// run time; here only what the file alone can get wrong.
+fn branch_settings(cx: &mut Ctx, t: &Toml, e: &AnalysisEntry, a: &Analysis) -> super::BranchSettings {
+    let mut b = super::BranchSettings::default();
+    let item = Item::Plain("[analysis]");
+    if let Some(v) = &e.switch_at {
+        b.switch_at = check_count(cx, t, v, "switch_at", 1, MAX_STEPS, "write N to leave the path at its Nth bifurcation, counting from 1");
+        if b.switch_at.is_some() && !a.pinpoint {
+            cx.error(
+                t.at(v),
+                item,
+                "`switch_at` needs the bifurcation pinpointed, but `pinpoint = false`",
+                "remove `pinpoint = false`, or remove `switch_at`",
+            );
+        }
+    }
+    if let Some(v) = &e.switch_mode {
+        b.switch_mode = check_count(cx, t, v, "switch_mode", 1, MAX_STEPS, "write K to leave along the Kth mode of a multiple bifurcation, counting from 1");
+        b.switch_mode_line = Some(t.at(v).line);
+        if e.switch_at.is_none() {
+            cx.error(
+                t.at(v),
+                item,
+                "`switch_mode` is given without `switch_at`",
+                "add `switch_at = N` (the bifurcation to leave the path at), or remove `switch_mode`",
+            );
+        }
+    }
+    if let Some(v) = &e.imperfection {
+        let entry = v.get_ref();
+        let mode = check_count(cx, t, &entry.mode, "imperfection.mode", 1, MAX_STEPS, "write N to seed the mode of the perfect path's Nth critical point, counting from 1");
+        let x = *entry.amplitude.get_ref();
+        let amplitude_ok = if x == 0.0 || !x.is_finite() {
+            cx.error(
+                t.at(&entry.amplitude),
+                item,
+                format!("`imperfection.amplitude` must be a finite, non-zero length, found {x}"),
+                "write the largest nodal offset of the seeded mode in model length units, e.g. amplitude = 0.01 (a negative value flips the shape)",
+            );
+            false
+        } else {
+            true
+        };
+        if let (Some(mode), true) = (mode, amplitude_ok) {
+            b.imperfection = Some(super::Imperfection { mode, amplitude: cx.units.length_in(x) });
+        }
+        if !a.pinpoint {
+            cx.error(
+                t.at(v),
+                item,
+                "`imperfection` takes its mode from a pinpointed critical point, but `pinpoint = false`",
+                "remove `pinpoint = false`, or remove `imperfection`",
+            );
+        }
+    }
+    b
 }
 
 /// `node` and `dir` of `[analysis]`: both or neither.

@@ -223,6 +223,16 @@ pub fn to_toml(model: &Model) -> String {
     if !a.load_predictor {
         let _ = writeln!(s, "load_predictor = \"none\"");
     }
+    // Branch switching and imperfection seeding (path::branch).
+    if let Some(n) = a.branch.switch_at {
+        let _ = writeln!(s, "switch_at = {n}");
+    }
+    if let Some(k) = a.branch.switch_mode {
+        let _ = writeln!(s, "switch_mode = {k}");
+    }
+    if let Some(imp) = a.branch.imperfection {
+        let _ = writeln!(s, "imperfection = {{ mode = {}, amplitude = {} }}", imp.mode, num(u.length_out(imp.amplitude)));
+    }
 
     let f = &model.form;
     let d = FormSettings::default();

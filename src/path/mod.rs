@@ -10,6 +10,7 @@
 //! J.-L. Batoz and G. Dhatt, "Incremental displacement algorithms for
 //! nonlinear problems", Int. J. Numer. Meth. Eng. 14 (1979).
 
+pub mod branch;
 pub mod constraints;
 pub mod fields;
 
@@ -38,6 +39,10 @@ pub enum StopReason {
     /// The given geometry and its prestress have no equilibrium at the start
     /// load factor that the corrector could find ([`StartFailure`] says why).
     NoStartEquilibrium,
+    /// Stopped at a requested branch switch: see `Path::switch` (the mode
+    /// asked for does not exist, no secondary state was found, or load
+    /// control cannot follow a falling secondary branch).
+    BranchSwitch,
 }
 
 impl StopReason {
@@ -50,6 +55,7 @@ impl StopReason {
             StopReason::Mechanism => "mechanism",
             StopReason::Interrupted => "interrupted",
             StopReason::NoStartEquilibrium => "no_start_equilibrium",
+            StopReason::BranchSwitch => "branch_switch",
         }
     }
 
@@ -107,6 +113,11 @@ pub struct Path {
     pub fields: Vec<Field>,
     /// Why no equilibrium was found at the start (stop `NoStartEquilibrium`).
     pub start_failure: Option<StartFailure>,
+    /// What became of `switch_at`, when it was given.
+    pub switch: Option<branch::SwitchOutcome>,
+    /// The imperfection seeded before the run (set by the caller of
+    /// [`branch::seed`]).
+    pub imperfection: Option<branch::Seed>,
 }
 
 /// The prestressed start could not be brought into balance: what the
@@ -162,6 +173,9 @@ pub struct Critical {
     /// The free-DOF displacements at the point (the middle of the final
     /// bracket), m, when the `keep_fields` policy keeps critical states.
     pub field: Option<Vec<f64>>,
+    /// The critical modes over the free DOFs, unit Euclidean norm, one per
+    /// multiplicity, orthonormal.
+    pub modes: Vec<Vec<f64>>,
 }
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
@@ -389,6 +403,11 @@ impl<'a> Tracer<'a> {
                 .map(|w| if max > 0.0 { self.displacement_of(&phi, *w) / max } else { 0.0 })
                 .collect(),
             mode_load_alignment: alignment,
+            // One mode, from the inverse iteration above, unit-normalised.
+            modes: {
+                let n = dot(&phi, &phi).sqrt();
+                if n > 0.0 && n.is_finite() { vec![phi.iter().map(|v| v / n).collect()] } else { Vec::new() }
+            },
             pivots: (na, nb),
             bisections,
             bracket: dist(&ua, &ub),
@@ -505,6 +524,8 @@ impl<'a> Tracer<'a> {
                 keep,
                 fields,
                 start_failure: None,
+                switch: None,
+                imperfection: None,
             };
         }
         ws.fresh = true;
@@ -545,6 +566,8 @@ impl<'a> Tracer<'a> {
                     keep: keeper.policy().clone(),
                     fields: Vec::new(),
                     start_failure: Some(start_failure),
+                    switch: None,
+                    imperfection: None,
                 };
             }
             ws.fresh = true;
@@ -557,6 +580,7 @@ impl<'a> Tracer<'a> {
         let mut last_increment: Vec<f64> = Vec::new();
         let mut critical: Vec<Critical> = Vec::new();
         let mut last_load_increment = 1.0;
+        let mut switcher = branch::Switcher::new(&a.branch);
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -648,6 +672,14 @@ impl<'a> Tracer<'a> {
                 // Under arc-length control the cylinder meets the path behind
                 // the start as well as ahead: an increment at an obtuse angle
                 // to the last one has turned back and is cut back.
+                // After a branch switch (branch.rs) the controlled DOF may move
+                // only at second order along the secondary branch near the
+                // point, and a displacement step can land on the mirror
+                // branch: an increment turned back is cut back there too.
+                (Termination::Converged, Control::Displacement) if switcher.has_switched() && !last_increment.is_empty() => {
+                    let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
+                    if turned { Termination::Jumped } else { term }
+                }
                 (Termination::Converged, Control::ArcLength) if !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
                     if turned { Termination::Jumped } else { term }
@@ -689,8 +721,14 @@ impl<'a> Tracer<'a> {
                     if let (true, Some((n_before, true))) = (pinpoint, before) {
                         if n_before != neg {
                             let keep_field = keeper.keeps_critical();
-                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, keep_field, observer);
+                            let want = keep_field || switcher.wants_field();
+                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, want, observer);
                             c.step = step;
+                            // Branch switching (branch.rs) counts the bifurcations.
+                            switcher.note(critical.len(), &c, &start_u, &state.u);
+                            if !keep_field {
+                                c.field = None;
+                            }
                             critical.push(c);
                             // Back to the factor of the converged state.
                             let mut rec = StepRecord::default();
@@ -717,7 +755,9 @@ impl<'a> Tracer<'a> {
                         Control::Displacement => ev.point_displacement,
                         _ => state.lambda,
                     };
-                    if crossed || (progress - a.target).abs() <= 1e-12 * a.target.abs().max(1e-300) {
+                    // (A switch due at this step goes first: branch.rs.)
+                    let reached = crossed || (progress - a.target).abs() <= 1e-12 * a.target.abs().max(1e-300);
+                    if reached && !switcher.is_due() {
                         break 'path StopReason::TargetReached;
                     }
                     if let (Some(max_d), Some(p)) = (a.max_displacement, a.point) {
@@ -725,6 +765,44 @@ impl<'a> Tracer<'a> {
                             break 'path StopReason::MaxDisplacement;
                         }
                     }
+                    // ---- Branch switching (branch.rs): at the `switch_at`th
+                    // bifurcation, leave the primary path along the mode.
+                    if switcher.is_due() {
+                        let xi = if a.control == Control::ArcLength { stepper.size.abs() } else { dot_dist(&state.u, &start_u) };
+                        let next = points.len();
+                        let control_step = match a.control {
+                            Control::Displacement => stepper.control_dof.map(|d| (d, stepper.size)),
+                            _ => None,
+                        };
+                        let Some((left, falls)) = self.leave_along_mode(ws, &mut switcher, xi, control_step, next, observer) else {
+                            // Back to the factor of the last converged state.
+                            let mut rec = StepRecord::default();
+                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            add_records(&mut self.wasted, &rec);
+                            ws.fresh = true;
+                            break 'path StopReason::BranchSwitch;
+                        };
+                        state = left.state;
+                        ws.fresh = left.fresh;
+                        keeper.offer(next, state.lambda, &state.u, false);
+                        let ev = StepEvent {
+                            step: next,
+                            lambda: state.lambda,
+                            iterations: left.point.record.iterations,
+                            point_displacement: left.point.point,
+                            negative_pivots: left.point.negative_pivots,
+                        };
+                        points.push(left.point);
+                        last_increment = left.increment;
+                        last_load_increment = left.load_increment;
+                        if falls {
+                            break 'path StopReason::BranchSwitch;
+                        }
+                        if observer.on_step(&ev) == Answer::Stop {
+                            break 'path StopReason::Interrupted;
+                        }
+                    }
+                    // ---- end of branch switching
                 }
                 Termination::Stopped => {
                     add_records(&mut self.wasted, &record);
@@ -761,7 +839,21 @@ impl<'a> Tracer<'a> {
         // The last converged state is `state` (a failed step restored it).
         let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
         let (keep, fields) = keeper.finish(last);
-        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields, start_failure: None }
+        let switch = switcher.finish();
+        Path {
+            points,
+            stop,
+            final_state: state,
+            mechanism,
+            last_failure,
+            n_cutbacks,
+            critical,
+            keep,
+            fields,
+            start_failure: None,
+            switch,
+            imperfection: None,
+        }
     }
 }
 

@@ -156,6 +156,10 @@ pub struct Overrides {
     /// Watched displacement NODE.DIR (repeatable; replaces the model's watch list)
     #[arg(long = "watch", value_name = "NODE.DIR")]
     pub watch: Vec<String>,
+    /// Leave the path at its Nth bifurcation (1-based) along the bifurcation
+    /// mode and follow the secondary branch (overrides [analysis] switch_at)
+    #[arg(long = "switch-at", value_name = "N")]
+    pub switch_at: Option<usize>,
 }
 
 #[derive(Subcommand, Debug)]

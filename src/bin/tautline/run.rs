@@ -177,6 +177,15 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
     if let Some(s) = &o.keep_fields {
         a.keep_fields = parse_keep_fields(s)?;
     }
+    if let Some(n) = o.switch_at {
+        if n == 0 || n > MAX_STEPS {
+            return Err(format!("--switch-at {n}: must be from 1 to {MAX_STEPS} (the Nth bifurcation met along the path, counting from 1)"));
+        }
+        if !a.pinpoint {
+            return Err(format!("--switch-at {n}: the model sets pinpoint = false; branch switching needs the bifurcation pinpointed, remove that line"));
+        }
+        a.branch.switch_at = Some(n);
+    }
     if !o.watch.is_empty() {
         let watch = o.watch.iter().map(|w| parse_node_dir(m, w)).collect::<Result<Vec<_>, _>>()?;
         if m.analysis.point.is_none() {
@@ -311,6 +320,25 @@ struct Outputs {
 
 fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs: Outputs) -> Result<u8, Failure> {
     let Outputs { quiet, png, format } = outputs;
+    // Imperfection seeding (path::branch): the perfect path is traced first
+    // and the model's geometry offset by the chosen mode; everything below
+    // runs on the seeded model.
+    let seeded = if m.analysis.branch.imperfection.is_some() {
+        let mut silent = tautline::observe::Silent;
+        match tautline::path::branch::seed(m, &mut silent) {
+            Ok(s) => s,
+            Err(e @ tautline::path::branch::SeedError::NotMet { .. }) => {
+                return Err(Failure::BadInput(format!("{}: [analysis]: {e}", m.files[0])));
+            }
+            Err(e) => return Err(Failure::BadInput(format!("{}: {e}", m.files[0]))),
+        }
+    } else {
+        None
+    };
+    let (m, seed) = match &seeded {
+        Some((model, seed)) => (model, Some(seed.clone())),
+        None => (m, None),
+    };
     let system = System::new(m).map_err(|e| {
         Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
     })?;
@@ -327,8 +355,19 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     let mut tracer = Tracer::new(&system, m, corrector);
     let mut interrupt = Interrupt::install();
     let mut progress = crate::progress::Progress::new(a, quiet, &mut interrupt);
-    let path = tracer.run(&mut ws, &mut progress);
+    let mut path = tracer.run(&mut ws, &mut progress);
     progress.finish();
+    path.imperfection = seed;
+    // A `switch_mode` larger than the multiplicity of the point met is bad
+    // input found at run time: exit 2, nothing written.
+    if let Some(tautline::path::branch::SwitchOutcome::ModeOutOfRange { lambda, requested, multiplicity, line, .. }) = &path.switch {
+        let place = line.map_or(String::new(), |l| format!(":{l}"));
+        return Err(Failure::BadInput(format!(
+            "{}{place}: [analysis]: switch_mode = {requested}, but the bifurcation met at load factor {lambda:.6} has {multiplicity} mode(s); \
+             set switch_mode from 1 to {multiplicity}, or remove it to take the mode of largest projection",
+            m.files[0]
+        )));
+    }
     let seconds = started.elapsed().as_secs_f64();
     let res = results::build(m, &system, &path, &tracer.wasted, seconds);
     let members = results::members(m, &system, &path);
@@ -393,6 +432,10 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
 
     let code = match path.stop {
+        // A switch asked for and never met: the path is right, but the
+        // secondary branch asked for was not traced (exit 3, as a run that
+        // stopped before its target).
+        s if s.is_complete() && matches!(path.switch, Some(tautline::path::branch::SwitchOutcome::NotMet { .. })) => exit::STOPPED,
         s if s.is_complete() => exit::DONE,
         StopReason::Interrupted => exit::INTERRUPTED,
         _ => exit::STOPPED,
@@ -404,7 +447,11 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
                 eprintln!("warning: {w}");
             }
             if quiet {
-                let status = if res.converged { "done" } else { "stopped before the target" };
+                let status = match (res.converged, &res.switch_not_made) {
+                    (true, Some(_)) => "done without the branch switch",
+                    (true, None) => "done",
+                    (false, _) => "stopped before the target",
+                };
                 println!("{status}: {}", res.stop_message);
             } else {
                 print_run_summary(m, &res);
@@ -437,6 +484,21 @@ fn print_run_summary(m: &Model, r: &results::Results) {
         let p = results_load(m, cp.load_factor);
         println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load)", cp.kind, cp.load_factor, u.force.name());
     }
+    if let Some(i) = &r.imperfection {
+        println!(
+            "imperfection: mode of critical point {} of the perfect path ({} at load factor {:.6}), largest offset {:.6e} {} at node {}",
+            i.mode, i.kind, i.load_factor, i.amplitude, u.length.name(), i.node
+        );
+    }
+    if let Some(s) = &r.switched {
+        println!(
+            "switched to the secondary branch at the bifurcation at load factor {:.6} (mode {} of {}); first secondary state: step {}, load factor {:.6}",
+            s.load_factor, s.mode, s.multiplicity, s.step, s.load_factor_after
+        );
+    }
+    if let Some(n) = &r.switch_not_made {
+        println!("no branch switch: {}", n.reason);
+    }
     if !r.slack_events.is_empty() {
         let mut members: Vec<&str> = r.slack_events.iter().map(|e| e.member.as_str()).collect();
         members.sort_unstable();
@@ -466,7 +528,11 @@ fn print_run_summary(m: &Model, r: &results::Results) {
     } else {
         println!("equilibrium check: |loads + reactions| / |loads| = {:.2e}", r.equilibrium.relative_imbalance);
     }
-    let status = if r.converged { "done" } else { "stopped before the target" };
+    let status = match (r.converged, &r.switch_not_made) {
+        (true, Some(_)) => "done without the branch switch",
+        (true, None) => "done",
+        (false, _) => "stopped before the target",
+    };
     println!("{status}: {}", r.stop_message);
 }
 
