@@ -26,6 +26,17 @@ pub struct Results {
     pub watch: Vec<String>,
     pub steps: Vec<StepOut>,
     pub critical_points: Vec<CriticalPoint>,
+    /// `critical_modes.csv`: the critical modes, one row per node per mode.
+    pub critical_modes_file: String,
+    /// False when the last converged state's tangent has negative pivots
+    /// (the state is in equilibrium but unstable); None when its pivots were
+    /// not counted (`stability_check = "on-refactor"` carried an older count
+    /// over), or when no state converged.
+    pub stable_at_end: Option<bool>,
+    /// Negative pivots of the last converged state, and whether they were
+    /// counted at that state.
+    pub negative_pivots_at_end: usize,
+    pub pivots_checked_at_end: bool,
     pub reactions: Vec<ReactionOut>,
     pub equilibrium: EquilibriumOut,
     pub slack_members: Vec<String>,
@@ -59,6 +70,8 @@ pub struct FieldsOut {
 /// Names of the two field files.
 pub const FIELDS_FILE: &str = "fields.csv";
 pub const CRITICAL_FIELDS_FILE: &str = "critical_fields.csv";
+/// Name of the critical modes file.
+pub const CRITICAL_MODES_FILE: &str = "critical_modes.csv";
 
 /// What the field files of `path` hold.
 pub fn fields_out(model: &Model, path: &Path) -> FieldsOut {
@@ -133,8 +146,25 @@ pub struct CriticalPoint {
     pub mode: Vec<String>,
     /// The critical mode at the watched DOFs, scaled to a largest component of 1.
     pub mode_watched: Vec<f64>,
-    /// |φ·f_ref|/(‖φ‖‖f_ref‖): near 1 at a limit point, near 0 at a bifurcation.
+    /// ‖Φᵀf_ref‖/‖f_ref‖ over the orthonormal null space Φ: near 1 at a
+    /// limit point, 0 at a bifurcation.
     pub mode_load_alignment: Option<f64>,
+    /// Number of pivots that changed sign across the point (the dimension of
+    /// the null space there).
+    pub multiplicity: usize,
+    /// Every mode passed the residual check ‖Kφ − μφ‖ ≤ 1e-8·max|K_ii|.
+    pub mode_converged: bool,
+    /// The displacement norm still bracketing the point, model length units
+    /// (None: not bisected).
+    pub bracket: Option<f64>,
+    /// The bracket the bisection aimed for: 1e-9 of the step's displacement
+    /// increment, model length units (None: not bisected).
+    pub pinpoint_tolerance: Option<f64>,
+    /// The load factors at the two ends of the bracket.
+    pub load_factor_bracket: [f64; 2],
+    /// Eigenvalues of the tangent for the modes in `critical_modes.csv`,
+    /// model force per length units.
+    pub mode_eigenvalues: Vec<f64>,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -345,6 +375,12 @@ pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
         let kind = if turns(d_after) || turns(previous) { "limit" } else { "bifurcation" };
         out.push(CriticalPoint {
             pinpointed: false,
+            multiplicity: a.negative_pivots.abs_diff(b.negative_pivots),
+            mode_converged: false,
+            bracket: None,
+            pinpoint_tolerance: None,
+            load_factor_bracket: [a.lambda, b.lambda],
+            mode_eigenvalues: Vec::new(),
             watched: b.watched.clone(),
             mode: Vec::new(),
             mode_watched: Vec::new(),
@@ -472,14 +508,28 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
                     step: c.step,
                     negative_pivots_before: c.pivots.0,
                     negative_pivots_after: c.pivots.1,
-                    pinpointed: true,
+                    pinpointed: c.pinpointed,
                     watched: c.watched.iter().map(|v| len(*v)).collect(),
                     mode: c.mode.iter().map(|nd| model.node_dir_label(*nd)).collect(),
                     mode_watched: c.mode_watched.clone(),
                     mode_load_alignment: Some(c.mode_load_alignment),
+                    multiplicity: c.multiplicity,
+                    mode_converged: c.mode_converged,
+                    bracket: Some(len(c.bracket)),
+                    pinpoint_tolerance: Some(len(c.tolerance)),
+                    load_factor_bracket: [c.lambda_bracket.0, c.lambda_bracket.1],
+                    mode_eigenvalues: c.mode_eigenvalues.iter().map(|k| units.force_per_length_out(*k)).collect(),
                 })
                 .collect()
         },
+        critical_modes_file: CRITICAL_MODES_FILE.into(),
+        stable_at_end: if path.stop == StopReason::Mechanism {
+            Some(false)
+        } else {
+            path.points.last().and_then(|p| p.pivots_checked.then_some(p.negative_pivots == 0))
+        },
+        negative_pivots_at_end: path.points.last().map_or(0, |p| p.negative_pivots),
+        pivots_checked_at_end: path.points.last().is_some_and(|p| p.pivots_checked),
         reactions,
         equilibrium,
         slack_members,

@@ -12,6 +12,7 @@
 
 pub mod constraints;
 pub mod fields;
+pub mod modes;
 
 use crate::assembly::System;
 use crate::model::{Control, KeepFields, Model, NodeDir};
@@ -121,22 +122,48 @@ pub struct Critical {
     pub step: usize,
     /// Watched displacements at the point, m.
     pub watched: Vec<f64>,
-    /// Node directions with the largest share of the critical mode.
+    /// Node directions with the largest share of the first critical mode.
     pub mode: Vec<NodeDir>,
-    /// The mode at the watched DOFs, scaled to a largest component of 1.
+    /// The first mode at the watched DOFs, scaled to a largest component of 1.
     pub mode_watched: Vec<f64>,
-    /// |φ·f_ref| / (‖φ‖·‖f_ref‖) of the mode φ: near 1 at a limit point,
-    /// near 0 at a bifurcation.
+    /// ‖Φᵀf_ref‖ / ‖f_ref‖ over the whole null space Φ (orthonormal): near 1
+    /// at a limit point, 0 at a bifurcation.
     pub mode_load_alignment: f64,
+    /// The critical modes: unit Euclidean norm over the free DOFs, mutually
+    /// orthogonal, one per pivot that changed sign (`multiplicity`). At a
+    /// limit point the first is the load's direction within the null space
+    /// and the others (a bifurcation coinciding with it) are orthogonal to
+    /// f_ref; at a bifurcation all are orthogonal to f_ref.
+    pub modes: Vec<Vec<f64>>,
+    /// Eigenvalues of the tangent belonging to `modes`, N/m, at the state
+    /// the modes were computed (the bracket's far end).
+    pub mode_eigenvalues: Vec<f64>,
+    /// Every mode passed the residual check ‖Kφ − μφ‖ ≤ 1e-8·max|K_ii|.
+    pub mode_converged: bool,
+    /// Number of pivots that changed sign across the point.
+    pub multiplicity: usize,
     /// Negative pivots before and after.
     pub pivots: (usize, usize),
-    /// Bisections done, and the arc length still bracketing the point, m.
+    /// Bisections done, and the distance (displacement norm) still
+    /// bracketing the point, m.
     pub bisections: usize,
     pub bracket: f64,
+    /// The load factors at the two ends of the final bracket.
+    pub lambda_bracket: (f64, f64),
+    /// The bisection met its tolerance: the bracket is at most
+    /// [`PINPOINT_TOLERANCE`] times the displacement increment of the step
+    /// it started from.
+    pub pinpointed: bool,
+    /// The bracket the bisection aimed for, m.
+    pub tolerance: f64,
     /// The free-DOF displacements at the point (the middle of the final
     /// bracket), m, when the `keep_fields` policy keeps critical states.
     pub field: Option<Vec<f64>>,
 }
+
+/// The bisection stops when the bracket is this fraction of the step's
+/// displacement increment.
+pub const PINPOINT_TOLERANCE: f64 = 1e-9;
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
 /// alignment. The null vector of a limit point carries load; that of a
@@ -179,31 +206,16 @@ pub struct Tracer<'a> {
     pub wasted: StepRecord,
 }
 
-/// The null direction of the tangent at (u, λ) by inverse iteration: the
-/// tangent is factored with tiny pivots regularized, so each solve amplifies
-/// the direction in which it is (nearly) singular. Starts from a vector with
-/// no special symmetry; returns the last finite unit vector and whether all
-/// `iterations` solves stayed finite.
-fn null_mode(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, iterations: usize) -> (Vec<f64>, bool) {
+/// The `m` modes of the tangent at (u, λ) nearest zero, from the true
+/// (sign-keeping) factorization: see [`modes::lowest_modes`]. The factor in
+/// the workspace is overwritten (`ws.fresh` is cleared).
+fn null_modes(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, m: usize) -> modes::LowModes {
     let mut k = system.new_tangent_values();
     let mut r = vec![0.0; system.n_free()];
     let mut react = vec![0.0; n_reactions];
     system.residual_and_tangent(u, lambda, &mut r, &mut react, &mut k);
-    ws.h.ldlt.factorize_regularized(&system.pattern, &k);
     ws.fresh = false;
-    let n = system.n_free();
-    let mut x: Vec<f64> = (0..n).map(|i| 1.0 + ((i * 7919) % 13) as f64 * 0.01).collect();
-    for _ in 0..iterations {
-        let mut next = x.clone();
-        ws.h.ldlt.solve_in_place(&mut next);
-        let norm = next.iter().map(|v| v * v).sum::<f64>().sqrt();
-        if !(norm > 0.0 && norm.is_finite()) {
-            return (x, false);
-        }
-        next.iter_mut().for_each(|v| *v /= norm);
-        x = next;
-    }
-    (x, true)
+    modes::lowest_modes(system, &mut ws.h.ldlt, &k, m)
 }
 
 /// Node directions carrying at least half the largest component of a mode,
@@ -217,12 +229,13 @@ fn dominant_dirs(system: &System, mode: &[f64]) -> Vec<NodeDir> {
     big.into_iter().map(|(_, d)| system.dofs.owner(d)).collect()
 }
 
-/// Finds the node directions of a mechanism: two steps of inverse iteration
-/// on the singular tangent.
+/// Finds the node directions of a mechanism: the mode of the singular
+/// tangent nearest zero.
 pub fn find_mechanism(system: &System, ws: &mut Workspace, state: &State) -> Vec<NodeDir> {
-    match null_mode(system, ws, &state.u, state.lambda, state.reactions.len(), 2) {
-        (mode, true) => dominant_dirs(system, &mode),
-        (_, false) => Vec::new(),
+    let low = null_modes(system, ws, &state.u, state.lambda, state.reactions.len(), 1);
+    match low.modes.first() {
+        Some(mode) => dominant_dirs(system, mode),
+        None => Vec::new(),
     }
 }
 
@@ -302,7 +315,7 @@ impl<'a> Tracer<'a> {
         let full = dist(&ua, &ub);
         let mut bisections = 0;
         let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > 1e-9 * full {
+        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > PINPOINT_TOLERANCE * full {
             let half = 0.5 * dist(&ua, &ub);
             // Predictor halfway along the chord, corrected on the cylinder of
             // radius `half` around A.
@@ -337,11 +350,20 @@ impl<'a> Tracer<'a> {
                 nb = ws.h.inertia.negative;
             }
         }
-        // Mode: inverse iteration with the (regularized) factor at B.
-        let (phi, _) = null_mode(sys, ws, &ub, lb, b.reactions.len(), 4);
+        let bracket = dist(&ua, &ub);
+        let tolerance = PINPOINT_TOLERANCE * full;
+        let pinpointed = bracket <= tolerance;
+        // Modes: the eigenvectors of K nearest zero at B, one per pivot that
+        // changed sign, from the sign-keeping factorization.
+        let multiplicity = na.abs_diff(nb).max(1);
+        let low = null_modes(sys, ws, &ub, lb, b.reactions.len(), multiplicity);
         self.wasted.factorizations += 1;
-        let f_norm = sys.f_ref_norm();
-        let alignment = (dot(&phi, &sys.f_ref) / f_norm.max(f64::MIN_POSITIVE)).abs();
+        // Classified by the whole null space: a limit point when f_ref has a
+        // component in it (the load factor has an extremum, Thompson & Hunt,
+        // *A General Theory of Elastic Stability*, 1973, ch. 3, from memory),
+        // a bifurcation when the null space is orthogonal to f_ref.
+        let (alignment, modes) = modes::split_by_load(&low.modes, &sys.f_ref);
+        let phi = modes.first().cloned().unwrap_or_else(|| vec![0.0; sys.n_free()]);
         let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
         let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
         Critical {
@@ -359,9 +381,16 @@ impl<'a> Tracer<'a> {
                 .map(|w| if max > 0.0 { self.displacement_of(&phi, *w) / max } else { 0.0 })
                 .collect(),
             mode_load_alignment: alignment,
+            modes,
+            mode_eigenvalues: low.eigenvalues.clone(),
+            mode_converged: low.converged && !low.modes.is_empty(),
+            multiplicity,
             pivots: (na, nb),
             bisections,
-            bracket: dist(&ua, &ub),
+            bracket,
+            lambda_bracket: (la, lb),
+            pinpointed,
+            tolerance,
         }
     }
 

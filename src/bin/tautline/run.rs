@@ -352,6 +352,9 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     stream(&mut staged, results::CRITICAL_FIELDS_FILE, &|w| {
         report::fields::critical_fields_csv(w, m, &system.dofs, &labels, &path.critical)
     })?;
+    stream(&mut staged, results::CRITICAL_MODES_FILE, &|w| {
+        report::fields::critical_modes_csv(w, &system.dofs, &labels, &path.critical)
+    })?;
     // Plots: a plot that cannot be drawn is reported and left out; the
     // numbers above are written regardless.
     let node_u: Vec<[f64; 3]> = (0..m.n_nodes())
@@ -435,7 +438,27 @@ fn print_run_summary(m: &Model, r: &results::Results) {
     }
     if let Some(cp) = r.critical_points.first() {
         let p = results_load(m, cp.load_factor);
-        println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load)", cp.kind, cp.load_factor, u.force.name());
+        let how = match (cp.pinpointed, cp.multiplicity) {
+            (true, 1) => String::new(),
+            (true, k) => format!(", multiplicity {k}"),
+            (false, k) => format!(", multiplicity {k}, not pinpointed: between two steps"),
+        };
+        println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load{how})", cp.kind, cp.load_factor, u.force.name());
+        if r.critical_points.len() > 1 {
+            println!("{} critical points in all (results.json critical_points; modes in {})", r.critical_points.len(), r.critical_modes_file);
+        }
+    }
+    match r.stable_at_end {
+        Some(false) => println!(
+            "warning: the last converged state is unstable ({} negative pivots): it is in equilibrium but a small disturbance \
+             moves it away; do not rely on it as built: check for a missing support, bracing or prestress, or follow the path \
+             with arc-length control to see where it loses stability (critical_points)",
+            r.negative_pivots_at_end
+        ),
+        None if !r.steps.is_empty() => println!(
+            "note: the stability of the last state was not checked (stability_check = \"on-refactor\"); use \"every-step\" to check it"
+        ),
+        _ => {}
     }
     if !r.slack_events.is_empty() {
         let mut members: Vec<&str> = r.slack_events.iter().map(|e| e.member.as_str()).collect();
