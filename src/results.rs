@@ -279,6 +279,21 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
             model.analysis.max_steps
         ),
         StopReason::Interrupted => format!("interrupted at load factor {last:.6}; converged steps are kept"),
+        StopReason::LimitPoint => {
+            let lim = path.critical.iter().rev().find(|c| c.kind == crate::path::CriticalKind::Limit);
+            let at = lim.map_or(String::new(), |c| {
+                format!(
+                    " at load factor {:.6}{}",
+                    c.lambda,
+                    if c.pinpointed { " (pinpointed)" } else { " (not pinpointed: between two states)" }
+                )
+            });
+            format!(
+                "stopped at a limit point{at}: past it the load factor falls and the structure snaps through, \
+                 which load control cannot follow; the last converged load factor is {last:.6}; \
+                 use control = \"arc-length\" to follow the path through it"
+            )
+        }
         StopReason::Mechanism => {
             let moving = path.mechanism.as_ref().map(|m| {
                 m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect::<Vec<_>>().join(", ")

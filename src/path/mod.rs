@@ -36,6 +36,9 @@ pub enum StopReason {
     Mechanism,
     /// An observer (Ctrl-C, a time budget) asked to stop.
     Interrupted,
+    /// Load control met a limit point: past it the load factor falls, so the
+    /// path cannot be followed by raising λ (the structure would snap).
+    LimitPoint,
 }
 
 impl StopReason {
@@ -47,6 +50,7 @@ impl StopReason {
             StopReason::NoConvergence => "no_convergence",
             StopReason::Mechanism => "mechanism",
             StopReason::Interrupted => "interrupted",
+            StopReason::LimitPoint => "limit_point",
         }
     }
 
@@ -394,6 +398,106 @@ impl<'a> Tracer<'a> {
         }
     }
 
+    /// Re-walks a suspect load-control step by arc length from its start A
+    /// (u, λ, negative pivots) until λ reaches B's, pinpointing every change
+    /// of the pivot count on the way; stops at the first limit point. The arc
+    /// is a quarter of the tangent's prediction for the step (or of the
+    /// chord to B, if shorter), halved when a sub-step fails or turns back.
+    /// Some(list): the critical points met (empty: none, B is on the path);
+    /// None: the walk failed (the caller cuts the step back).
+    fn probe(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
+        let chord = dot_dist(&b.u, a_state.0);
+        self.walk(ws, a_state, b.lambda, chord, b, keep_field, observer)
+    }
+
+    /// The walk of [`Tracer::probe`] towards `lambda_b`; `chord` bounds the
+    /// arc (ignored when zero: a step that never converged has no B).
+    #[allow(clippy::too_many_arguments)]
+    fn walk(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), lambda_b: f64, chord: f64, template: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
+        let sys = self.system;
+        let (ua, la, na) = a_state;
+        let b = template;
+        let mut st = b.clone();
+        st.u.copy_from_slice(ua);
+        st.lambda = la;
+        let mut rec = StepRecord::default();
+        let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+        add_records(&mut self.wasted, &rec);
+        if singular {
+            return None;
+        }
+        let direction = (lambda_b - la).signum();
+        let du_a = tangent_direction(sys, ws);
+        let predicted = dot(&du_a, &du_a).sqrt() * (lambda_b - la).abs();
+        let arc0 = if chord > 0.0 { 0.25 * predicted.min(chord).max(1e-12 * chord) } else { 0.25 * predicted };
+        if !(arc0 > 0.0 && arc0.is_finite()) {
+            return None;
+        }
+        let mut arc = arc0;
+        let mut found = Vec::new();
+        let mut prev_inc: Vec<f64> = Vec::new();
+        let mut neg = na;
+        for _ in 0..PROBE_MAX_STEPS {
+            if (st.lambda - lambda_b) * direction >= 0.0 {
+                return Some(found);
+            }
+            let (pu, pl) = (st.u.clone(), st.lambda);
+            let du_f = tangent_direction(sys, ws);
+            let norm = dot(&du_f, &du_f).sqrt();
+            let sign = if prev_inc.is_empty() {
+                direction
+            } else {
+                let d = dot(&du_f, &prev_inc);
+                if d == 0.0 { direction } else { d.signum() }
+            };
+            let dl = sign * arc / norm;
+            if !dl.is_finite() {
+                return None;
+            }
+            st.u.iter_mut().zip(&du_f).for_each(|(u, d)| *u += dl * d);
+            st.lambda += dl;
+            let (term, r) = solve::drive(sys, ws, &mut st, &pu, pl, &Cylindrical { arc }, &self.corrector, 0, observer);
+            add_records(&mut self.wasted, &r);
+            let turned = !prev_inc.is_empty()
+                && st.u.iter().zip(&pu).zip(&prev_inc).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
+            let mut rec = StepRecord::default();
+            if term != Termination::Converged || turned {
+                if term == Termination::Stopped {
+                    return None;
+                }
+                restore(&mut st, pu, pl);
+                solve::refactor_at(sys, ws, &mut st, &mut rec);
+                add_records(&mut self.wasted, &rec);
+                arc *= 0.5;
+                if arc < arc0 * 1e-4 {
+                    return None;
+                }
+                continue;
+            }
+            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            add_records(&mut self.wasted, &rec);
+            if singular {
+                return None;
+            }
+            let now = ws.h.inertia.negative;
+            if now != neg {
+                let c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
+                let limit = c.kind == CriticalKind::Limit;
+                found.push(c);
+                if limit {
+                    return Some(found);
+                }
+                let mut rec = StepRecord::default();
+                solve::refactor_at(sys, ws, &mut st, &mut rec);
+                add_records(&mut self.wasted, &rec);
+                neg = now;
+            }
+            prev_inc = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
+            arc = (arc * 1.5).min(4.0 * arc0);
+        }
+        None
+    }
+
     /// Finds the equilibrium under the full dead load (self-weight) at the
     /// start load factor by stepping its share μ from 0 to 1, each step a
     /// load-control corrector from the last converged state, halved on
@@ -520,6 +624,8 @@ impl<'a> Tracer<'a> {
         let mut last_increment: Vec<f64> = Vec::new();
         let mut critical: Vec<Critical> = Vec::new();
         let mut last_load_increment = 1.0;
+        // f_ref·K⁻¹·f_ref at the last converged state (NaN: not known).
+        let mut last_compliance = load_compliance(sys, ws);
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -601,12 +707,18 @@ impl<'a> Tracer<'a> {
             // Under load control a step past a limit point can converge on a
             // distant branch (the snap itself): an increment far larger than
             // the last one, for the load increment, is rejected as a jump.
+            let mut jumped = false;
             let term = match (&term, a.control) {
                 (Termination::Converged, Control::Load) if !last_increment.is_empty() => {
                     let now = dot_dist(&state.u, &start_u);
                     let before = dot(&last_increment, &last_increment).sqrt();
                     let load_ratio = ((state.lambda - start_lambda) / last_load_increment).abs();
-                    if now > JUMP_RATIO * before * load_ratio.max(1e-3) { Termination::Jumped } else { term }
+                    jumped = now > JUMP_RATIO * before * load_ratio.max(1e-3);
+                    // With the pivots counted, a jump is examined below (the
+                    // path is followed from the step's start by arc length);
+                    // without, it is cut back.
+                    let counted = a.stability_each_step || a.method == crate::model::Method::Newton;
+                    if jumped && !counted { Termination::Jumped } else { term }
                 }
                 // Under arc-length control the cylinder meets the path behind
                 // the start as well as ahead: an increment at an obtuse angle
@@ -648,7 +760,65 @@ impl<'a> Tracer<'a> {
                         negative_pivots: neg,
                     };
                     let before = points.last().map(|p: &PathPoint| (p.negative_pivots, p.pivots_checked));
-                    let pinpoint = a.pinpoint && check && !singular;
+                    // Load control never crosses a critical point silently
+                    // (see `crossing_suspected`): the step is re-walked from
+                    // its start by arc length; a limit point met on the way
+                    // ends the run there, bifurcations are recorded.
+                    let compliance = if check && !singular { load_compliance(sys, ws) } else { f64::NAN };
+                    if a.control == Control::Load && check && !singular {
+                        if let Some((n_before, true)) = before {
+                            let suspected = jumped
+                                || n_before != neg
+                                || crossing_suspected(sys, last_compliance, compliance, &start_u, start_lambda, &state);
+                            if suspected {
+                                let keep_field = keeper.keeps_critical();
+                                let a_state = (start_u.as_slice(), start_lambda, n_before);
+                                let outcome = self.probe(ws, a_state, &state, keep_field, observer);
+                                let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
+                                let clear = outcome.as_ref().is_some_and(|v| v.is_empty());
+                                let retreat = limit || outcome.is_none() || (clear && jumped);
+                                let lambda_tried = state.lambda;
+                                for mut c in outcome.into_iter().flatten() {
+                                    c.step = step;
+                                    critical.push(c);
+                                }
+                                if retreat {
+                                    // Back to the step's start and its factor.
+                                    add_records(&mut self.wasted, &point.record);
+                                    restore(&mut state, start_u.clone(), start_lambda);
+                                    let mut rec = StepRecord::default();
+                                    solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                    add_records(&mut self.wasted, &rec);
+                                    ws.fresh = true;
+                                    if limit {
+                                        break 'path StopReason::LimitPoint;
+                                    }
+                                    // A jump with no critical point on the
+                                    // way, or a walk that failed: cut back.
+                                    if !stepper.cut_back() {
+                                        last_failure = Some(Failure {
+                                            step,
+                                            lambda_tried,
+                                            termination: Termination::Jumped,
+                                            relative_residual: 0.0,
+                                            zero_pivot_dirs: Vec::new(),
+                                        });
+                                        break 'path StopReason::NoConvergence;
+                                    }
+                                    n_cutbacks += 1;
+                                    continue 'path;
+                                }
+                                // Bifurcations only: B is on the path; back
+                                // to its factor.
+                                let mut rec = StepRecord::default();
+                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                add_records(&mut self.wasted, &rec);
+                                ws.fresh = true;
+                            }
+                        }
+                    }
+                    last_compliance = compliance;
+                    let pinpoint = a.pinpoint && check && !singular && a.control != Control::Load;
                     if let (true, Some((n_before, true))) = (pinpoint, before) {
                         if n_before != neg {
                             let keep_field = keeper.keeps_critical();
@@ -714,6 +884,32 @@ impl<'a> Tracer<'a> {
                     add_records(&mut self.wasted, &rec);
                     ws.fresh = !singular;
                     if singular || !stepper.cut_back() {
+                        // Load control that cannot go on: is there a limit
+                        // point between here and where it tried to go?
+                        let counted = a.stability_each_step || a.method == crate::model::Method::Newton;
+                        let n_here = points.last().map_or(0, |p: &PathPoint| p.negative_pivots);
+                        if a.control == Control::Load && counted && !singular {
+                            let keep_field = keeper.keeps_critical();
+                            let u0 = state.u.clone();
+                            let l0 = state.lambda;
+                            let outcome = self.walk(ws, (&u0, l0, n_here), failure.lambda_tried, 0.0, &state, keep_field, observer);
+                            let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
+                            if limit {
+                                for mut c in outcome.into_iter().flatten() {
+                                    c.step = step;
+                                    critical.push(c);
+                                }
+                                restore(&mut state, u0, l0);
+                                let mut rec = StepRecord::default();
+                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                add_records(&mut self.wasted, &rec);
+                                break StopReason::LimitPoint;
+                            }
+                            restore(&mut state, u0, l0);
+                            let mut rec = StepRecord::default();
+                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            add_records(&mut self.wasted, &rec);
+                        }
                         last_failure = Some(failure);
                         break StopReason::NoConvergence;
                     }
@@ -727,6 +923,45 @@ impl<'a> Tracer<'a> {
         Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields }
     }
 }
+
+/// f_ref·K⁻¹·f_ref with the fresh factor of the converged state: the
+/// reciprocal of the current stiffness parameter's denominator (Bergan,
+/// Holand & Søreide 1978, S_p = f·δu₁ / f·δuᵢ with δu = K⁻¹f). It is
+/// positive on a stable path, passes through ±∞ at a limit point and changes
+/// sign there.
+fn load_compliance(sys: &System, ws: &mut Workspace) -> f64 {
+    if !ws.h.ldlt.is_factored() || sys.f_ref_norm() == 0.0 {
+        return f64::NAN;
+    }
+    let du = tangent_direction(sys, ws);
+    dot(&du, &sys.f_ref)
+}
+
+/// A load-control step from A to B is suspected of crossing a critical point
+/// when the current stiffness parameter changes sign (c = f·K⁻¹f, Bergan et
+/// al. 1978), when the work increment Δλ·f·Δu is negative (the load does
+/// negative work: the structure has unloaded), or when the secant compliance
+/// f·Δu/Δλ exceeds [`SECANT_RATIO`] times both end tangent compliances. On
+/// a smooth path with no critical point f·Δu/Δλ is the mean of c over the
+/// step, which lies between c's values at the ends unless c has an interior
+/// extremum; a snap-through between two stable states leaves c positive at
+/// both ends but makes the secant large (derived).
+fn crossing_suspected(sys: &System, c_a: f64, c_b: f64, start_u: &[f64], start_lambda: f64, b: &State) -> bool {
+    let dl = b.lambda - start_lambda;
+    let du: Vec<f64> = b.u.iter().zip(start_u).map(|(x, y)| x - y).collect();
+    let work = dot(&du, &sys.f_ref) * dl;
+    if !c_a.is_finite() || !c_b.is_finite() {
+        return work < 0.0;
+    }
+    let secant = if dl != 0.0 { dot(&du, &sys.f_ref) / dl } else { 0.0 };
+    c_a.signum() != c_b.signum() || work < 0.0 || secant > SECANT_RATIO * c_a.abs().max(c_b.abs())
+}
+
+/// See [`crossing_suspected`]: a margin for the curvature of c within a step.
+pub const SECANT_RATIO: f64 = 1.5;
+
+/// Arc-length steps allowed when re-walking one load step.
+const PROBE_MAX_STEPS: usize = 400;
 
 /// Steps and successive halvings allowed while stepping in the dead load.
 const DEAD_LOAD_MAX_STEPS: usize = 400;
