@@ -157,8 +157,9 @@ pub struct CriticalPoint {
     /// The displacement norm still bracketing the point, model length units
     /// (None: not bisected).
     pub bracket: Option<f64>,
-    /// The bracket the bisection aimed for: 1e-9 of the step's displacement
-    /// increment, model length units (None: not bisected).
+    /// The largest bracket accepted as pinpointed: 1e-8 of the step's
+    /// displacement increment (the bisection aims for 1e-9), model length
+    /// units (None: not bisected).
     pub pinpoint_tolerance: Option<f64>,
     /// The load factors at the two ends of the bracket.
     pub load_factor_bracket: [f64; 2],

@@ -156,7 +156,7 @@ pub struct Critical {
     pub lambda_bracket: (f64, f64),
     /// The bisection met its tolerance: the bracket is at most
     /// [`PINPOINT_TOLERANCE`] times the displacement increment of the step
-    /// it started from.
+    /// it started from (it aims for [`BISECTION_TARGET`]).
     pub pinpointed: bool,
     /// The bracket the bisection aimed for, m.
     pub tolerance: f64,
@@ -165,9 +165,15 @@ pub struct Critical {
     pub field: Option<Vec<f64>>,
 }
 
-/// The bisection stops when the bracket is this fraction of the step's
+/// The bisection aims for a bracket of this fraction of the step's
 /// displacement increment.
-pub const PINPOINT_TOLERANCE: f64 = 1e-9;
+pub const BISECTION_TARGET: f64 = 1e-9;
+
+/// A critical point is reported as pinpointed when its final bracket is at
+/// most this fraction of the step's displacement increment. Looser than the
+/// aim: next to a singular tangent a sub-step may fail to converge to a tight
+/// tolerance, which ends the bisection early.
+pub const PINPOINT_TOLERANCE: f64 = 1e-8;
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
 /// alignment. The null vector of a limit point carries load; that of a
@@ -319,7 +325,7 @@ impl<'a> Tracer<'a> {
         let full = dist(&ua, &ub);
         let mut bisections = 0;
         let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > PINPOINT_TOLERANCE * full {
+        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > BISECTION_TARGET * full {
             let half = 0.5 * dist(&ua, &ub);
             // Predictor halfway along the chord, corrected on the cylinder of
             // radius `half` around A.
