@@ -486,6 +486,9 @@ impl<'a> Tracer<'a> {
                 return None;
             }
             let now = ws.h.inertia.negative;
+            // λ fell along the path: a limit point lies in this sub-step or
+            // at its start (λ has its extremum there).
+            let fell = (st.lambda - pl) * direction < 0.0;
             if now != neg {
                 let c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
                 let limit = c.kind == CriticalKind::Limit;
@@ -497,6 +500,17 @@ impl<'a> Tracer<'a> {
                 solve::refactor_at(sys, ws, &mut st, &mut rec);
                 add_records(&mut self.wasted, &rec);
                 neg = now;
+            }
+            if fell {
+                // No pivot changed sign within the sub-step (the walk began
+                // on the limit, within the zero-pivot threshold of it): a
+                // limit at the walk's highest load, not bisected.
+                let mut c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
+                c.kind = CriticalKind::Limit;
+                c.pinpointed = false;
+                c.lambda = if direction > 0.0 { pl.max(st.lambda) } else { pl.min(st.lambda) };
+                found.push(c);
+                return Some(found);
             }
             prev_inc = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
             arc = (arc * 1.5).min(4.0 * arc0);
