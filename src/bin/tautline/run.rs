@@ -486,8 +486,8 @@ fn print_run_summary(m: &Model, r: &results::Results) {
     match r.stable_at_end {
         Some(false) => println!(
             "warning: the last converged state is unstable ({} negative pivots): it is in equilibrium but a small disturbance \
-             moves it away; do not rely on it as built: check for a missing support, bracing or prestress, or follow the path \
-             with arc-length control to see where it loses stability (critical_points)",
+             moves it away, so the structure cannot hold it; see critical_points in results.json for where stability was lost, \
+             and add a support, bracing or prestress, or keep the load below the first critical point",
             r.negative_pivots_at_end
         ),
         None if !r.steps.is_empty() => println!(
