@@ -26,6 +26,9 @@ pub struct Results {
     pub watch: Vec<String>,
     pub steps: Vec<StepOut>,
     pub critical_points: Vec<CriticalPoint>,
+    /// Turning points of the controlled displacement (snap-back) along an
+    /// arc-length path: not critical points (the tangent stays regular).
+    pub turning_points: Vec<TurningPointOut>,
     /// `critical_modes.csv`: the critical modes, one row per node per mode.
     pub critical_modes_file: String,
     /// False when the last converged state's tangent has negative pivots
@@ -157,15 +160,30 @@ pub struct CriticalPoint {
     /// The displacement norm still bracketing the point, model length units
     /// (None: not bisected).
     pub bracket: Option<f64>,
-    /// The largest bracket accepted as pinpointed: 1e-8 of the step's
-    /// displacement increment (the bisection aims for 1e-9), model length
-    /// units (None: not bisected).
+    /// The largest bracket accepted as pinpointed: 1e-8 of the larger of the
+    /// step's displacement increment and the displacement norm at the point
+    /// (the bisection aims for 1e-9 of the increment), model length units
+    /// (None: not bisected).
     pub pinpoint_tolerance: Option<f64>,
     /// The load factors at the two ends of the bracket.
     pub load_factor_bracket: [f64; 2],
     /// Eigenvalues of the tangent for the modes in `critical_modes.csv`,
     /// model force per length units.
     pub mode_eigenvalues: Vec<f64>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct TurningPointOut {
+    pub load_factor: f64,
+    /// First converged step past the point.
+    pub step: usize,
+    /// The controlled displacement at its extremum, model length units.
+    pub point: f64,
+    pub watched: Vec<f64>,
+    /// Whether the bisection met its tolerance (as for critical points).
+    pub pinpointed: bool,
+    pub bracket: f64,
+    pub pinpoint_tolerance: f64,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -538,6 +556,19 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
                 })
                 .collect()
         },
+        turning_points: path
+            .turning
+            .iter()
+            .map(|t| TurningPointOut {
+                load_factor: t.lambda,
+                step: t.step,
+                point: len(t.point),
+                watched: t.watched.iter().map(|v| len(*v)).collect(),
+                pinpointed: t.pinpointed,
+                bracket: len(t.bracket),
+                pinpoint_tolerance: len(t.tolerance),
+            })
+            .collect(),
         critical_modes_file: CRITICAL_MODES_FILE.into(),
         stable_at_end: if path.stop == StopReason::Mechanism {
             Some(false)

@@ -70,6 +70,7 @@ pub const CASES: &[fn() -> Case] = &[
     steep_arch_limit_after_bifurcation,
     steep_arch_bifurcation_after_limit,
     square_pyramid_double_bifurcation,
+    snap_back_turning_point,
 ];
 
 /// Runs every case.
@@ -846,4 +847,38 @@ fn square_pyramid_double_bifurcation() -> Case {
         nth_critical(&p, CriticalKind::Bifurcation, 0, 2)
     });
     Case::new("square four-bar pyramid (double)", SOURCE_STEEP, "bifurcation load", "kN", steep_bifurcation_loads(4)[0] / 1.0e3, computed, 1e-6)
+}
+
+/// Crown load at the snap-back turning point of the arch with a spring in
+/// series (derived): the loaded end's deflection v = w + P(w)/k turns where
+/// dv/dw = 1 − (dP/dz)/k = 0; with P = 2EA·(z/l − z/L),
+/// dP/dz = 2EA·(b²/l³ − 1/L), so l³ = b²/(k/(2EA) + 1/L).
+pub fn snap_back_turning_load() -> f64 {
+    let a = ARCH;
+    let k = 2.0e6;
+    let l0 = (a.b * a.b + a.h * a.h).sqrt();
+    let l = (a.b * a.b / (k / (2.0 * a.ea) + 1.0 / l0)).cbrt();
+    let z = (l * l - a.b * a.b).sqrt();
+    2.0 * a.ea * (z / l - z / l0)
+}
+
+fn snap_back_turning_point() -> Case {
+    let text = spring_arch("arc-length", 4.5, 10, "arc = 0.05");
+    let computed = load(&text, "snap_back.toml").and_then(|m| trace(&m)).and_then(|p| {
+        reached(&p)?;
+        let t = p.turning.first().ok_or("no turning point found")?;
+        if !t.pinpointed {
+            return Err(format!("turning point at {} not pinpointed", t.lambda));
+        }
+        Ok(t.lambda * 1.0e6 / 1.0e3)
+    });
+    Case::new(
+        "snap-back: turning point of the loaded end",
+        "dv/dw = 1 - (dP/dz)/k = 0 with the arch's crown equilibrium (derived; P(z) as in Bazant & Cedolin 1991, sec. 4.4)",
+        "load at the turning point",
+        "kN",
+        snap_back_turning_load() / 1.0e3,
+        computed,
+        1e-6,
+    )
 }

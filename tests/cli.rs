@@ -515,10 +515,15 @@ fn load_control_past_the_limit_point_stops_with_exit_3() {
     let res = assert_outputs(&out, 2);
     assert_eq!(res["converged"], false);
     assert_eq!(
-        res["stop_reason"], "no_convergence",
+        res["stop_reason"], "limit_point",
         "the limit load (about 3.79) cannot be passed under load control: {}",
         res["stop_message"]
     );
+    assert!(res["stop_message"].as_str().unwrap().contains("arc-length"), "{}", res["stop_message"]);
+    let limit = res["critical_points"].as_array().unwrap().last().unwrap();
+    assert_eq!(limit["kind"], "limit");
+    let lim = limit["load_factor"].as_f64().unwrap();
+    assert!(lim > 3.7 && lim < 3.8, "the limit is where the run stopped: {lim}");
     let steps = res["steps"].as_array().unwrap();
     assert!(steps.len() > 1, "the converged steps before the limit are kept");
     let lambdas: Vec<f64> = steps.iter().map(|st| st["load_factor"].as_f64().unwrap()).collect();

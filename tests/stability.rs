@@ -355,3 +355,38 @@ fn dome_load_control_stops_at_its_first_limit() {
         }
     }
 }
+
+/// Snap-back turning points of the arch with a spring in series (the model
+/// of `arc_length_traces_snap_back`): the controlled displacement
+/// v = w + P(w)/k turns where dv/dw = 1 − (dP/dz)/k = 0 (z = h − w). With
+/// P = 2EA·(z/l − z/L) (engineering strain, crown equilibrium; Bažant &
+/// Cedolin 1991, §4.4), dP/dz = 2EA·(b²/l³ − 1/L), so the turning points lie
+/// at l³ = b²/(k/(2EA) + 1/L), z = ±√(l² − b²) (derived). Arc-length control
+/// reports both as turning points (not critical points: the tangent stays
+/// regular there), pinpointed within 1e-6 of the closed form, the
+/// displacement there an extremum of the path's, on every corrector.
+#[test]
+fn snap_back_turning_points_are_pinpointed() {
+    let (b, h) = (5.0f64, 1.0f64);
+    let l0 = (b * b + h * h).sqrt();
+    let l = (b * b / (K / (2.0 * EA) + 1.0 / l0)).cbrt();
+    let z = (l * l - b * b).sqrt();
+    let p_turn = 2.0 * EA * (z / l - z / l0) / 1.0e6;
+    for method in ALL_METHODS {
+        let mut m = model(&spring_arch("arc-length", 1.2 * 3.7894625, 10, "arc = 0.05"));
+        m.analysis.method = method;
+        let run = trace(m, method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        let t = &run.path.turning;
+        assert_eq!(t.len(), 2, "{method:?}: {t:?}");
+        assert!(t.iter().all(|t| t.pinpointed), "{method:?}: {t:?}");
+        assert!(rel_err(t[0].lambda, p_turn, 1.0) < 1e-6, "{method:?}: {} vs {p_turn}", t[0].lambda);
+        assert!(rel_err(t[1].lambda, -p_turn, 1.0) < 1e-6, "{method:?}: {} vs {}", t[1].lambda, -p_turn);
+        // The spring end's deflection there is beyond every neighbouring
+        // converged state's: first a local maximum of −v... then a minimum.
+        let v: Vec<f64> = run.path.points.iter().map(|p| p.point).collect();
+        let near = |x: f64| v.iter().any(|p| (p - x).abs() < 0.2);
+        assert!(near(t[0].point) && near(t[1].point), "{method:?}");
+        assert!(run.path.critical.iter().all(|c| c.kind == CriticalKind::Limit), "{method:?}: no critical point for a turning point");
+    }
+}

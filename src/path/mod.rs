@@ -102,6 +102,9 @@ pub struct Path {
     pub n_cutbacks: usize,
     /// Critical points pinpointed along the path.
     pub critical: Vec<Critical>,
+    /// Turning points of the controlled displacement (snap-back) along an
+    /// arc-length path.
+    pub turning: Vec<Turning>,
     /// The `keep_fields` policy as resolved for this system (never `Auto`).
     pub keep: KeepFields,
     /// Whole displacement fields of the steps the policy keeps, ascending.
@@ -155,8 +158,9 @@ pub struct Critical {
     /// The load factors at the two ends of the final bracket.
     pub lambda_bracket: (f64, f64),
     /// The bisection met its tolerance: the bracket is at most
-    /// [`PINPOINT_TOLERANCE`] times the displacement increment of the step
-    /// it started from (it aims for [`BISECTION_TARGET`]).
+    /// [`PINPOINT_TOLERANCE`] times the larger of the displacement increment
+    /// of the step it started from and ‖u‖ there (it aims for
+    /// [`BISECTION_TARGET`] of the increment).
     pub pinpointed: bool,
     /// The bracket the bisection aimed for, m.
     pub tolerance: f64,
@@ -165,14 +169,39 @@ pub struct Critical {
     pub field: Option<Vec<f64>>,
 }
 
+/// A turning point of the controlled displacement along the path (the
+/// displacement has an extremum while the load factor goes on: snap-back).
+/// The tangent stiffness stays regular there, so the pivot count does not
+/// see it: it is found where du/ds at the controlled DOF changes sign, with
+/// du/ds ∝ (K⁻¹f_ref)·dλ/ds (derived from K·du = f_ref·dλ), and bisected as
+/// a critical point is.
+#[derive(Clone, Debug)]
+pub struct Turning {
+    pub lambda: f64,
+    /// First converged step past the point.
+    pub step: usize,
+    /// The controlled displacement at the point (its extremum), m.
+    pub point: f64,
+    /// Watched displacements at the point, m.
+    pub watched: Vec<f64>,
+    pub bisections: usize,
+    /// Displacement norm still bracketing the point, m.
+    pub bracket: f64,
+    /// As for [`Critical::pinpointed`].
+    pub pinpointed: bool,
+    pub tolerance: f64,
+}
+
 /// The bisection aims for a bracket of this fraction of the step's
 /// displacement increment.
 pub const BISECTION_TARGET: f64 = 1e-9;
 
 /// A critical point is reported as pinpointed when its final bracket is at
-/// most this fraction of the step's displacement increment. Looser than the
-/// aim: next to a singular tangent a sub-step may fail to converge to a tight
-/// tolerance, which ends the bisection early.
+/// most this fraction of the step's displacement increment or of the
+/// displacement itself (‖u‖ at the bracket's end), whichever is larger.
+/// Looser than the aim: next to a singular tangent, or in a very short step,
+/// a sub-step may fail to converge to a tight tolerance, which ends the
+/// bisection early.
 pub const PINPOINT_TOLERANCE: f64 = 1e-8;
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
@@ -361,7 +390,7 @@ impl<'a> Tracer<'a> {
             }
         }
         let bracket = dist(&ua, &ub);
-        let tolerance = PINPOINT_TOLERANCE * full;
+        let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
         let pinpointed = bracket <= tolerance;
         // Modes: the eigenvectors of K nearest zero at B, one per pivot that
         // changed sign, from the sign-keeping factorization.
@@ -400,6 +429,62 @@ impl<'a> Tracer<'a> {
             bracket,
             lambda_bracket: (la, lb),
             pinpointed,
+            tolerance,
+        }
+    }
+
+    /// Bisects the step from A (u, λ, du/ds at the controlled DOF) to B in
+    /// which du/ds at `dof` changed sign, as [`Tracer::pinpoint`] does with
+    /// the pivot count; `dir` is the sign of dλ/ds across the step.
+    #[allow(clippy::too_many_arguments)]
+    fn pinpoint_turning(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, f64), b: &State, dir: f64, dof: usize, observer: &mut dyn Observer) -> Turning {
+        let sys = self.system;
+        let (ua, la, va) = a_state;
+        let (mut ua, mut la) = (ua.to_vec(), la);
+        let (mut ub, mut lb) = (b.u.clone(), b.lambda);
+        let full = dot_dist(&ua, &ub);
+        let mut bisections = 0;
+        let mut st = b.clone();
+        while bisections < MAX_BISECTIONS && dot_dist(&ua, &ub) > BISECTION_TARGET * full {
+            for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
+                *u = 0.5 * (a + b);
+            }
+            st.lambda = 0.5 * (la + lb);
+            ws.fresh = false;
+            // λ is monotone through a displacement turning point (the tangent
+            // is regular there), so the sub-step is a load-control one.
+            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &FixedLoad, &self.corrector, 0, observer);
+            add_records(&mut self.wasted, &rec);
+            if term != Termination::Converged {
+                break;
+            }
+            let mut rec = StepRecord::default();
+            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            add_records(&mut self.wasted, &rec);
+            if singular {
+                break;
+            }
+            bisections += 1;
+            let v = tangent_direction(sys, ws)[dof] * dir;
+            if v * va > 0.0 {
+                ua.clone_from(&st.u);
+                la = st.lambda;
+            } else {
+                ub.clone_from(&st.u);
+                lb = st.lambda;
+            }
+        }
+        let bracket = dot_dist(&ua, &ub);
+        let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
+        let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
+        Turning {
+            lambda: 0.5 * (la + lb),
+            step: 0,
+            point: mid[dof],
+            watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
+            bisections,
+            bracket,
+            pinpointed: bracket <= tolerance,
             tolerance,
         }
     }
@@ -592,6 +677,7 @@ impl<'a> Tracer<'a> {
                 last_failure: None,
                 n_cutbacks,
                 critical: Vec::new(),
+                turning: Vec::new(),
                 keep,
                 fields,
             };
@@ -630,6 +716,7 @@ impl<'a> Tracer<'a> {
                     last_failure: Some(failure),
                     n_cutbacks,
                     critical: Vec::new(),
+                turning: Vec::new(),
                     keep: keeper.policy().clone(),
                     fields: Vec::new(),
                 };
@@ -646,6 +733,13 @@ impl<'a> Tracer<'a> {
         let mut last_load_increment = 1.0;
         // f_ref·K⁻¹·f_ref at the last converged state (NaN: not known).
         let mut last_compliance = load_compliance(sys, ws);
+        // (K⁻¹f_ref) at the controlled DOF at the last converged state (NaN:
+        // not known): du/ds there up to the sign of dλ/ds.
+        let mut last_tangent_at_dof = match (a.control, stepper.control_dof) {
+            (Control::ArcLength, Some(dof)) => tangent_direction(sys, ws)[dof],
+            _ => f64::NAN,
+        };
+        let mut turning: Vec<Turning> = Vec::new();
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -785,6 +879,13 @@ impl<'a> Tracer<'a> {
                     // its start by arc length; a limit point met on the way
                     // ends the run there, bifurcations are recorded.
                     let compliance = if check && !singular { load_compliance(sys, ws) } else { f64::NAN };
+                    // (K⁻¹f_ref) at the controlled DOF, for turning points of
+                    // the displacement under arc-length control.
+                    let dir = (state.lambda - start_lambda).signum();
+                    let tangent_at_dof = match (a.control, stepper.control_dof) {
+                        (Control::ArcLength, Some(dof)) if check && !singular => tangent_direction(sys, ws)[dof],
+                        _ => f64::NAN,
+                    };
                     if a.control == Control::Load && check && !singular {
                         if let Some((n_before, true)) = before {
                             let suspected = jumped
@@ -852,6 +953,24 @@ impl<'a> Tracer<'a> {
                             ws.fresh = true;
                         }
                     }
+                    // A turning point of the controlled displacement within
+                    // the step (none when a critical point is in it too: the
+                    // sign of dλ/ds is then not one across the step).
+                    let same_count = before.is_some_and(|(n, c)| c && n == neg);
+                    // Both ends' du/ds take this step's sign of dλ/ds: with
+                    // the pivot count unchanged no limit point lies in it,
+                    // so dλ/ds keeps its sign across it.
+                    if a.pinpoint && same_count && tangent_at_dof * last_tangent_at_dof < 0.0 && dir != 0.0 {
+                        let dof = stepper.control_dof.expect("the tangent is known only with a controlled DOF");
+                        let mut t = self.pinpoint_turning(ws, (&start_u, start_lambda, last_tangent_at_dof * dir), &state, dir, dof, observer);
+                        t.step = step;
+                        turning.push(t);
+                        let mut rec = StepRecord::default();
+                        solve::refactor_at(sys, ws, &mut state, &mut rec);
+                        add_records(&mut self.wasted, &rec);
+                        ws.fresh = true;
+                    }
+                    last_tangent_at_dof = tangent_at_dof;
                     let pivots_changed = before.is_some_and(|(n, _)| n != neg);
                     keeper.offer(step, state.lambda, &state.u, pivots_changed);
                     points.push(point);
@@ -940,7 +1059,7 @@ impl<'a> Tracer<'a> {
         // The last converged state is `state` (a failed step restored it).
         let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
         let (keep, fields) = keeper.finish(last);
-        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, keep, fields }
+        Path { points, stop, final_state: state, mechanism, last_failure, n_cutbacks, critical, turning, keep, fields }
     }
 }
 

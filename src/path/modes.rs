@@ -101,11 +101,17 @@ pub fn lowest_modes(system: &System, ldlt: &mut Ldlt, k: &[f64], m: usize) -> Lo
     // stops faer; then shift by a small σ, far from every other eigenvalue
     // of a well-scaled structure.
     ldlt.factorize(&system.pattern, k);
-    if !ldlt.is_factored() {
-        ldlt.factorize_shifted(&system.pattern, k, 1e-8 * scale);
-        if !ldlt.is_factored() {
-            return LowModes { scale, ..Default::default() };
+    // A tangent that is all zero (a lone slack cable) has no scale of its
+    // own: any shift then separates nothing, 1 N/m is as good as another.
+    let unit = if scale > 1e-300 { scale } else { 1.0 };
+    for sigma in [1e-8 * unit, -1e-8 * unit, 1e-4 * unit] {
+        if ldlt.is_factored() {
+            break;
         }
+        ldlt.factorize_shifted(&system.pattern, k, sigma);
+    }
+    if !ldlt.is_factored() {
+        return LowModes { scale, ..Default::default() };
     }
     let p = (m + 3).min(n);
     let mut x = start_block(n, p);
