@@ -181,8 +181,8 @@ fn check_against_dense(run: &Run, c: &tautline::path::Critical, tag: &str) {
     let m = c.multiplicity;
     assert!(c.mode_converged && c.pinpointed, "{tag}: {c:?}");
     assert_eq!(c.modes.len(), m, "{tag}");
-    for j in 0..m {
-        assert!(vals[j].abs() < 1e-6 * scale, "{tag}: dense eigenvalue {j} = {} (scale {scale})", vals[j]);
+    for (j, mu) in vals.iter().enumerate().take(m) {
+        assert!(mu.abs() < 1e-6 * scale, "{tag}: dense eigenvalue {j} = {mu} (scale {scale})");
     }
     if vals.len() > m {
         assert!(vals[m].abs() > 1e-5 * scale, "{tag}: a further eigenvalue {} is near zero too (scale {scale})", vals[m]);
@@ -191,7 +191,7 @@ fn check_against_dense(run: &Run, c: &tautline::path::Critical, tag: &str) {
     for (j, phi) in c.modes.iter().enumerate() {
         let v = nalgebra::DVector::from_column_slice(phi);
         assert!((v.norm() - 1.0).abs() < 1e-12, "{tag}: mode {j} norm {}", v.norm());
-        let outside = &v - &null * (null.transpose() * &v);
+        let outside = &v - null * (null.transpose() * &v);
         assert!(outside.norm() < 1e-6, "{tag}: mode {j} leaves the dense null space by {}", outside.norm());
         for (i, psi) in c.modes.iter().enumerate().take(j) {
             let d: f64 = phi.iter().zip(psi).map(|(a, b)| a * b).sum();

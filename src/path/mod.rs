@@ -886,8 +886,8 @@ impl<'a> Tracer<'a> {
                         (Control::ArcLength, Some(dof)) if check && !singular => tangent_direction(sys, ws)[dof],
                         _ => f64::NAN,
                     };
-                    if a.control == Control::Load && check && !singular {
-                        if let Some((n_before, true)) = before {
+                    if let (Control::Load, true, Some((n_before, true))) = (a.control, check && !singular, before) {
+                        {
                             let suspected = jumped
                                 || n_before != neg
                                 || crossing_suspected(sys, last_compliance, compliance, &start_u, start_lambda, &state);
