@@ -27,6 +27,20 @@ pub struct Results {
     pub watch: Vec<String>,
     pub steps: Vec<StepOut>,
     pub critical_points: Vec<CriticalPoint>,
+    /// Turning points of the controlled displacement (snap-back) along an
+    /// arc-length path: not critical points (the tangent stays regular).
+    pub turning_points: Vec<TurningPointOut>,
+    /// `critical_modes.csv`: the critical modes, one row per node per mode.
+    pub critical_modes_file: String,
+    /// False when the last converged state's tangent has negative pivots
+    /// (the state is in equilibrium but unstable); None when its pivots were
+    /// not counted (`stability_check = "on-refactor"` carried an older count
+    /// over), or when no state converged.
+    pub stable_at_end: Option<bool>,
+    /// Negative pivots of the last converged state, and whether they were
+    /// counted at that state.
+    pub negative_pivots_at_end: usize,
+    pub pivots_checked_at_end: bool,
     pub reactions: Vec<ReactionOut>,
     pub equilibrium: EquilibriumOut,
     pub slack_members: Vec<String>,
@@ -106,6 +120,8 @@ pub struct FieldsOut {
 /// Names of the two field files.
 pub const FIELDS_FILE: &str = "fields.csv";
 pub const CRITICAL_FIELDS_FILE: &str = "critical_fields.csv";
+/// Name of the critical modes file.
+pub const CRITICAL_MODES_FILE: &str = "critical_modes.csv";
 
 /// What the field files of `path` hold.
 pub fn fields_out(model: &Model, path: &Path) -> FieldsOut {
@@ -180,8 +196,41 @@ pub struct CriticalPoint {
     pub mode: Vec<String>,
     /// The critical mode at the watched DOFs, scaled to a largest component of 1.
     pub mode_watched: Vec<f64>,
-    /// |φ·f_ref|/(‖φ‖‖f_ref‖): near 1 at a limit point, near 0 at a bifurcation.
+    /// ‖Φᵀf_ref‖/‖f_ref‖ over the orthonormal null space Φ: near 1 at a
+    /// limit point, 0 at a bifurcation.
     pub mode_load_alignment: Option<f64>,
+    /// Number of pivots that changed sign across the point (the dimension of
+    /// the null space there).
+    pub multiplicity: usize,
+    /// Every mode passed the residual check ‖Kφ − μφ‖ ≤ 1e-8·max|K_ii|.
+    pub mode_converged: bool,
+    /// The displacement norm still bracketing the point, model length units
+    /// (None: not bisected).
+    pub bracket: Option<f64>,
+    /// The largest bracket accepted as pinpointed: 1e-8 of the larger of the
+    /// step's displacement increment and the displacement norm at the point
+    /// (the bisection aims for 1e-9 of the increment), model length units
+    /// (None: not bisected).
+    pub pinpoint_tolerance: Option<f64>,
+    /// The load factors at the two ends of the bracket.
+    pub load_factor_bracket: [f64; 2],
+    /// Eigenvalues of the tangent for the modes in `critical_modes.csv`,
+    /// model force per length units.
+    pub mode_eigenvalues: Vec<f64>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct TurningPointOut {
+    pub load_factor: f64,
+    /// First converged step past the point.
+    pub step: usize,
+    /// The controlled displacement at its extremum, model length units.
+    pub point: f64,
+    pub watched: Vec<f64>,
+    /// Whether the bisection met its tolerance (as for critical points).
+    pub pinpointed: bool,
+    pub bracket: f64,
+    pub pinpoint_tolerance: f64,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -308,6 +357,21 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 None => format!("stopped at the requested branch switch, load factor {last:.6}"),
             },
         },
+        StopReason::LimitPoint => {
+            let lim = path.critical.iter().rev().find(|c| c.kind == crate::path::CriticalKind::Limit);
+            let at = lim.map_or(String::new(), |c| {
+                format!(
+                    " at load factor {:.6}{}",
+                    c.lambda,
+                    if c.pinpointed { " (pinpointed)" } else { " (not pinpointed: between two states)" }
+                )
+            });
+            format!(
+                "stopped at a limit point{at}: past it the load factor falls and the structure snaps through, \
+                 which load control cannot follow; the last converged load factor is {last:.6}; \
+                 use control = \"arc-length\" to follow the path through it"
+            )
+        }
         StopReason::Mechanism => {
             let moving = path.mechanism.as_ref().map(|m| {
                 m.moving.iter().map(|nd| model.node_dir_label(*nd)).collect::<Vec<_>>().join(", ")
@@ -466,6 +530,12 @@ pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
         let kind = if turns(d_after) || turns(previous) { "limit" } else { "bifurcation" };
         out.push(CriticalPoint {
             pinpointed: false,
+            multiplicity: a.negative_pivots.abs_diff(b.negative_pivots),
+            mode_converged: false,
+            bracket: None,
+            pinpoint_tolerance: None,
+            load_factor_bracket: [a.lambda, b.lambda],
+            mode_eigenvalues: Vec::new(),
             watched: b.watched.clone(),
             mode: Vec::new(),
             mode_watched: Vec::new(),
@@ -602,14 +672,41 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
                     step: c.step,
                     negative_pivots_before: c.pivots.0,
                     negative_pivots_after: c.pivots.1,
-                    pinpointed: true,
+                    pinpointed: c.pinpointed,
                     watched: c.watched.iter().map(|v| len(*v)).collect(),
                     mode: c.mode.iter().map(|nd| model.node_dir_label(*nd)).collect(),
                     mode_watched: c.mode_watched.clone(),
                     mode_load_alignment: Some(c.mode_load_alignment),
+                    multiplicity: c.multiplicity,
+                    mode_converged: c.mode_converged,
+                    bracket: Some(len(c.bracket)),
+                    pinpoint_tolerance: Some(len(c.tolerance)),
+                    load_factor_bracket: [c.lambda_bracket.0, c.lambda_bracket.1],
+                    mode_eigenvalues: c.mode_eigenvalues.iter().map(|k| units.force_per_length_out(*k)).collect(),
                 })
                 .collect()
         },
+        turning_points: path
+            .turning
+            .iter()
+            .map(|t| TurningPointOut {
+                load_factor: t.lambda,
+                step: t.step,
+                point: len(t.point),
+                watched: t.watched.iter().map(|v| len(*v)).collect(),
+                pinpointed: t.pinpointed,
+                bracket: len(t.bracket),
+                pinpoint_tolerance: len(t.tolerance),
+            })
+            .collect(),
+        critical_modes_file: CRITICAL_MODES_FILE.into(),
+        stable_at_end: if path.stop == StopReason::Mechanism {
+            Some(false)
+        } else {
+            path.points.last().and_then(|p| p.pivots_checked.then_some(p.negative_pivots == 0))
+        },
+        negative_pivots_at_end: path.points.last().map_or(0, |p| p.negative_pivots),
+        pivots_checked_at_end: path.points.last().is_some_and(|p| p.pivots_checked),
         reactions,
         equilibrium,
         slack_members,

@@ -66,6 +66,11 @@ pub const CASES: &[fn() -> Case] = &[
     braced_strut_bifurcation,
     snap_back_limit,
     elastic_catenary_support_force,
+    steep_arch_bifurcation_before_limit,
+    steep_arch_limit_after_bifurcation,
+    steep_arch_bifurcation_after_limit,
+    square_pyramid_double_bifurcation,
+    snap_back_turning_point,
 ];
 
 /// Runs every case.
@@ -695,4 +700,185 @@ pub fn table(cases: &[Case]) -> String {
     let passed = cases.iter().filter(|c| c.pass).count();
     s += &format!("{passed} of {} cases pass\n", cases.len());
     s
+}
+
+// ------------------------------------------------- steep arch and pyramid
+
+/// Half-span b, rise h and EA of the steep two-leg arch and the four-leg
+/// pyramid; the crown load is 1e5 N per unit load factor.
+pub const STEEP: (f64, f64, f64) = (1.0, 3.0, 1.0e6);
+/// Crown load per unit load factor, N.
+pub const STEEP_LOAD: f64 = 1.0e5;
+
+/// A steep crown on `legs` bars (2: a two-bar arch in the x-z plane, the
+/// crown held in y; 4: a square pyramid, legs at (±b, 0, 0) and (0, ±b, 0),
+/// the crown free in x, y and z), engineering strain, a downward crown load.
+/// `extra` is appended to `[analysis]`.
+pub fn steep_crown(legs: usize, control: &str, target: f64, steps: usize, extra: &str) -> String {
+    let (b, h, ea) = STEEP;
+    let feet: Vec<(&str, f64, f64)> = if legs == 4 {
+        vec![("A", -b, 0.0), ("B", b, 0.0), ("D", 0.0, -b), ("E", 0.0, b)]
+    } else {
+        vec![("A", -b, 0.0), ("B", b, 0.0)]
+    };
+    let mut t = format!("title = \"steep crown on {legs} legs\"\n[[section]]\nname = \"leg\"\nEA = {ea:?}\n");
+    for (id, x, y) in &feet {
+        t += &format!("[[node]]\nid = \"{id}\"\nat = [{x:?}, {y:?}, 0.0]\nfix = \"xyz\"\n");
+    }
+    let fix = if legs == 4 { "" } else { "fix = \"y\"\n" };
+    t += &format!("[[node]]\nid = \"C\"\nat = [0.0, 0.0, {h:?}]\n{fix}");
+    for (id, _, _) in &feet {
+        t += &format!("[[member]]\nid = \"{id}C\"\nkind = \"bar\"\nends = [\"{id}\", \"C\"]\nsection = \"leg\"\n");
+    }
+    t += &format!(
+        "[[load]]\nnode = \"C\"\nforce = [0.0, 0.0, {:?}]\n[analysis]\nstrain = \"engineering\"\ncontrol = \"{control}\"\nsteps = {steps}\ntarget = {target:?}\nnode = \"C\"\ndir = \"z\"\ntolerance = 1e-12\nwatch = [\"C.z\", \"C.x\"]\n{extra}\n",
+        -STEEP_LOAD
+    );
+    t
+}
+
+/// The crown load P at crown height z (derived): each leg of length
+/// l = √(b² + z²) carries N = EA(l − L)/L (engineering strain, L = √(b² + h²)),
+/// and vertical equilibrium gives P = −n·N·z/l = n·EA·(z/l − z/L).
+pub fn steep_load(legs: usize, z: f64) -> f64 {
+    let (b, h, ea) = STEEP;
+    let (l0, l) = ((b * b + h * h).sqrt(), (b * b + z * z).sqrt());
+    legs as f64 * ea * (z / l - z / l0)
+}
+
+/// Crown height at the limit point (derived): dP/dz = n·EA·(b²/l³ − 1/L) = 0,
+/// so l³ = b²·L. The load there is the limit load.
+pub fn steep_limit_load(legs: usize) -> f64 {
+    let (b, h, _) = STEEP;
+    let l0 = (b * b + h * h).sqrt();
+    let l = (b * b * l0).cbrt();
+    steep_load(legs, (l * l - b * b).sqrt())
+}
+
+/// Crown loads at the bifurcations of the symmetric path (derived): the
+/// crown's lateral (x) stiffness on that path, from the bar tangent
+/// (EA/L)·e·eᵀ + (N/l)·(I − e·eᵀ) of each leg, is
+/// k_x = 2·[(EA/L)·b²/l² + (N/l)·z²/l²] (+ 2N/l from the two legs along y
+/// of the pyramid, which add only geometric stiffness across them). Every z
+/// in (0, h) where k_x changes sign (scanned in steps of h/10⁴, then
+/// bisected to round-off), from the top down: for b = 1, h = 3 the first
+/// lies before the limit point (k_x falls through zero as the legs shorten)
+/// and the second after it (k_x recovers as the crown nears the supports'
+/// level). The pyramid's y stiffness is the same by symmetry: its points are
+/// double.
+pub fn steep_bifurcation_loads(legs: usize) -> Vec<f64> {
+    let (b, h, ea) = STEEP;
+    let l0 = (b * b + h * h).sqrt();
+    let kx = |z: f64| {
+        let l = (b * b + z * z).sqrt();
+        let n = ea * (l - l0) / l0;
+        let mut k = 2.0 * (ea / l0 * b * b / (l * l) + n / l * z * z / (l * l));
+        if legs == 4 {
+            k += 2.0 * n / l;
+        }
+        k
+    };
+    let mut loads = Vec::new();
+    let mut hi = h;
+    for i in 1..10_000 {
+        let lo = h * (1.0 - i as f64 / 10_000.0);
+        if kx(lo).signum() != kx(hi).signum() {
+            let (mut a, mut c) = (lo, hi);
+            let s = kx(lo).signum();
+            for _ in 0..200 {
+                let mid = 0.5 * (a + c);
+                if kx(mid).signum() == s { a = mid } else { c = mid }
+            }
+            loads.push(steep_load(legs, 0.5 * (a + c)));
+        }
+        hi = lo;
+    }
+    loads
+}
+
+const SOURCE_STEEP: &str = "derived: leg tangent (EA/L)ee' + (N/l)(I - ee'), crown stiffness on the symmetric path (verify::steep_bifurcation_loads, steep_limit_load)";
+
+fn steep_arc(legs: usize) -> String {
+    steep_crown(legs, "arc-length", 1.0e9, 10, "arc = 0.05\nmax_steps = 400\nmax_displacement = 2.5")
+}
+
+fn nth_critical(path: &Path, kind: CriticalKind, nth: usize, multiplicity: usize) -> Result<f64, String> {
+    let c = path.critical.iter().filter(|c| c.kind == kind).nth(nth).ok_or_else(|| format!("no {kind:?} number {} found", nth + 1))?;
+    if !c.pinpointed || !c.mode_converged || c.multiplicity != multiplicity {
+        return Err(format!(
+            "{kind:?} at {}: pinpointed {}, mode converged {}, multiplicity {} (expected {multiplicity})",
+            c.lambda, c.pinpointed, c.mode_converged, c.multiplicity
+        ));
+    }
+    Ok(c.lambda * STEEP_LOAD / 1.0e3)
+}
+
+fn ends_at_max_displacement(path: &Path) -> Result<(), String> {
+    if path.stop == StopReason::MaxDisplacement { Ok(()) } else { Err(format!("run stopped: {:?}", path.stop)) }
+}
+
+fn steep_arch_bifurcation_before_limit() -> Case {
+    let computed = load(&steep_arc(2), "steep_arch.toml").and_then(|m| trace(&m)).and_then(|p| {
+        ends_at_max_displacement(&p)?;
+        nth_critical(&p, CriticalKind::Bifurcation, 0, 1)
+    });
+    Case::new("steep two-bar arch (b = 1 m, h = 3 m)", SOURCE_STEEP, "bifurcation load (before the limit)", "kN", steep_bifurcation_loads(2)[0] / 1.0e3, computed, 1e-6)
+}
+
+fn steep_arch_limit_after_bifurcation() -> Case {
+    let computed = load(&steep_arc(2), "steep_arch.toml").and_then(|m| trace(&m)).and_then(|p| {
+        ends_at_max_displacement(&p)?;
+        nth_critical(&p, CriticalKind::Limit, 0, 1)
+    });
+    Case::new("steep two-bar arch, past its bifurcation", SOURCE_STEEP, "limit load", "kN", steep_limit_load(2) / 1.0e3, computed, 1e-6)
+}
+
+fn steep_arch_bifurcation_after_limit() -> Case {
+    let computed = load(&steep_arc(2), "steep_arch.toml").and_then(|m| trace(&m)).and_then(|p| {
+        ends_at_max_displacement(&p)?;
+        nth_critical(&p, CriticalKind::Bifurcation, 1, 1)
+    });
+    Case::new("steep two-bar arch, past its limit", SOURCE_STEEP, "bifurcation load (after the limit)", "kN", steep_bifurcation_loads(2)[1] / 1.0e3, computed, 1e-6)
+}
+
+fn square_pyramid_double_bifurcation() -> Case {
+    let computed = load(&steep_arc(4), "pyramid.toml").and_then(|m| trace(&m)).and_then(|p| {
+        ends_at_max_displacement(&p)?;
+        nth_critical(&p, CriticalKind::Bifurcation, 0, 2)
+    });
+    Case::new("square four-bar pyramid (double)", SOURCE_STEEP, "bifurcation load", "kN", steep_bifurcation_loads(4)[0] / 1.0e3, computed, 1e-6)
+}
+
+/// Crown load at the snap-back turning point of the arch with a spring in
+/// series (derived): the loaded end's deflection v = w + P(w)/k turns where
+/// dv/dw = 1 − (dP/dz)/k = 0; with P = 2EA·(z/l − z/L),
+/// dP/dz = 2EA·(b²/l³ − 1/L), so l³ = b²/(k/(2EA) + 1/L).
+pub fn snap_back_turning_load() -> f64 {
+    let a = ARCH;
+    let k = 2.0e6;
+    let l0 = (a.b * a.b + a.h * a.h).sqrt();
+    let l = (a.b * a.b / (k / (2.0 * a.ea) + 1.0 / l0)).cbrt();
+    let z = (l * l - a.b * a.b).sqrt();
+    2.0 * a.ea * (z / l - z / l0)
+}
+
+fn snap_back_turning_point() -> Case {
+    let text = spring_arch("arc-length", 4.5, 10, "arc = 0.05");
+    let computed = load(&text, "snap_back.toml").and_then(|m| trace(&m)).and_then(|p| {
+        reached(&p)?;
+        let t = p.turning.first().ok_or("no turning point found")?;
+        if !t.pinpointed {
+            return Err(format!("turning point at {} not pinpointed", t.lambda));
+        }
+        Ok(t.lambda * 1.0e6 / 1.0e3)
+    });
+    Case::new(
+        "snap-back: turning point of the loaded end",
+        "dv/dw = 1 - (dP/dz)/k = 0 with the arch's crown equilibrium (derived; P(z) as in Bazant & Cedolin 1991, sec. 4.4)",
+        "load at the turning point",
+        "kN",
+        snap_back_turning_load() / 1.0e3,
+        computed,
+        1e-6,
+    )
 }

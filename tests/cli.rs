@@ -515,10 +515,15 @@ fn load_control_past_the_limit_point_stops_with_exit_3() {
     let res = assert_outputs(&out, 2);
     assert_eq!(res["converged"], false);
     assert_eq!(
-        res["stop_reason"], "no_convergence",
+        res["stop_reason"], "limit_point",
         "the limit load (about 3.79) cannot be passed under load control: {}",
         res["stop_message"]
     );
+    assert!(res["stop_message"].as_str().unwrap().contains("arc-length"), "{}", res["stop_message"]);
+    let limit = res["critical_points"].as_array().unwrap().last().unwrap();
+    assert_eq!(limit["kind"], "limit");
+    let lim = limit["load_factor"].as_f64().unwrap();
+    assert!(lim > 3.7 && lim < 3.8, "the limit is where the run stopped: {lim}");
     let steps = res["steps"].as_array().unwrap();
     assert!(steps.len() > 1, "the converged steps before the limit are kept");
     let lambdas: Vec<f64> = steps.iter().map(|st| st["load_factor"].as_f64().unwrap()).collect();
@@ -969,4 +974,56 @@ fn results_do_not_depend_on_the_thread_count() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("TAUTLINE_THREADS"));
     assert!(!bad.exists(), "nothing written");
+}
+
+// ---------------------------------------------------------------------------
+// Critical points (issue 13): exit codes, critical_modes.csv, stable_at_end
+
+/// The steep two-bar arch (closed forms in `tautline::verify`) under load
+/// control: past its limit the run stops there with exit 3 and the advice
+/// to use arc-length; to a load between its bifurcation and its limit it
+/// exits 0, writes `stable_at_end: false` and prints a line with
+/// "unstable"; `critical_modes.csv` is named in results.json, has the
+/// contract's header, one row per node per mode, each mode of unit norm
+/// over the free DOFs (C.x and C.z here) with fixed directions 0, and every
+/// critical point carries `mode_converged` and `multiplicity`.
+#[test]
+fn limit_stops_load_control_and_an_unstable_end_is_flagged() {
+    let sc = Scratch::new("critical");
+    let lim = tautline::verify::steep_limit_load(2) / tautline::verify::STEEP_LOAD;
+    let bif = tautline::verify::steep_bifurcation_loads(2)[0] / tautline::verify::STEEP_LOAD;
+    let past = sc.write("past.toml", &tautline::verify::steep_crown(2, "load", 1.9 * lim, 8, ""));
+    let r = solve(&past, &sc.path("past"), &["--plot-mode", "1"]);
+    assert_eq!(r.code, 3, "{r}");
+    assert!(r.stdout.contains("limit point") && r.stdout.contains("arc-length"), "{r}");
+    let j = json(&sc.path("past/results.json"));
+    assert_eq!(j["stop_reason"], "limit_point");
+    let kinds: Vec<&str> = j["critical_points"].as_array().unwrap().iter().map(|c| c["kind"].as_str().unwrap()).collect();
+    assert_eq!(kinds, ["bifurcation", "limit"], "{j}");
+    assert!(sc.path("past/mode.svg").exists());
+
+    let mid = sc.write("mid.toml", &tautline::verify::steep_crown(2, "load", 0.5 * (bif + lim), 8, ""));
+    let r = solve(&mid, &sc.path("mid"), &[]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stdout.lines().any(|l| l.contains("unstable")), "{r}");
+    let j = json(&sc.path("mid/results.json"));
+    assert_eq!(j["stable_at_end"], false);
+    assert_eq!(j["critical_modes_file"], "critical_modes.csv");
+    let c = &j["critical_points"][0];
+    assert_eq!((c["kind"].as_str(), c["multiplicity"].as_u64(), c["mode_converged"].as_bool(), c["pinpointed"].as_bool()), (Some("bifurcation"), Some(1), Some(true), Some(true)), "{c}");
+    let (header, rows) = csv(&sc.path("mid/critical_modes.csv"));
+    assert_eq!(header.join(","), "critical,load_factor,node,ux,uy,uz");
+    assert_eq!(rows.len(), 3, "one row per node (A, B, C) for the one mode");
+    let norm: f64 = rows.iter().flat_map(|r| r[3..6].iter().map(|v| num(v).powi(2))).sum::<f64>().sqrt();
+    assert!((norm - 1.0).abs() < 1e-12, "{norm}");
+    let c_row = rows.iter().find(|r| r[2] == "C").unwrap();
+    assert!((num(&c_row[3]).abs() - 1.0).abs() < 1e-9 && num(&c_row[4]) == 0.0, "the sway is C.x: {c_row:?}");
+    assert!(rows.iter().filter(|r| r[2] != "C").all(|r| r[3..6].iter().all(|v| num(v) == 0.0)));
+
+    // A stable end: below the bifurcation.
+    let low = sc.write("low.toml", &tautline::verify::steep_crown(2, "load", 0.5 * bif, 4, ""));
+    let r = solve(&low, &sc.path("low"), &[]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(!r.stdout.contains("unstable"), "{r}");
+    assert_eq!(json(&sc.path("low/results.json"))["stable_at_end"], true);
 }

@@ -52,13 +52,15 @@ fn arc_length_traces_snap_back() {
 }
 
 /// Load control cannot pass the limit point of the same system: it stops
-/// cleanly short of the target (exit 3 in the CLI), with the last converged
-/// load below the limit load P_lim = 3789.4625 kN (Bažant & Cedolin 1991,
-/// eq. 4.4.5) and above 90 % of it.
+/// there (`limit_point`, exit 3 in the CLI) with the limit pinpointed at
+/// P_lim = 3789.4625 kN (Bažant & Cedolin 1991, eq. 4.4.5) within 1e-6, the
+/// last converged load below it and above 90 % of it.
 #[test]
 fn load_control_stops_at_the_snap_back_limit() {
     let run = solve_text(&spring_arch("load", 1.2 * 3.7894625, 12, ""));
-    assert_eq!(run.path.stop, StopReason::NoConvergence);
+    assert_eq!(run.path.stop, StopReason::LimitPoint);
+    let limit = run.path.critical.last().unwrap();
+    assert!(limit.kind == CriticalKind::Limit && limit.pinpointed && rel_err(limit.lambda, 3.7894625, 1.0) < 1e-6, "{limit:?}");
     let last = run.path.points.last().unwrap().lambda;
     assert!(last < 3.7894626 && last > 0.9 * 3.7894625, "last converged λ = {last}");
     let msg = tautline::results::stop_message(&run.model, &run.path);
@@ -125,5 +127,266 @@ fn dome_first_critical_load_is_independent_of_arc_and_corrector() {
     for method in ALL_METHODS {
         let c = first(0.05, method);
         assert!(rel_err(c.lambda, reference.lambda, 1e-12) < 1e-6, "{method:?}: {} vs {}", c.lambda, reference.lambda);
+    }
+}
+
+// ------------------------------------------------------------------
+// Critical points an engineer can sign off on (issue 13): kinds,
+// multiplicity, modes, load control stopping at limits. The steep arch and
+// the square pyramid have closed forms derived in `tautline::verify`
+// (`steep_bifurcation_loads`, `steep_limit_load`: the crown's lateral and
+// vertical stiffness on the symmetric path, from the leg tangent
+// (EA/L)·e·eᵀ + (N/l)·(I − e·eᵀ)); every mode is also checked against an
+// independent dense eigen-analysis of the assembled tangent (nalgebra's
+// symmetric QR eigen-solver, not the shift-invert code under test).
+
+use tautline::verify::{STEEP_LOAD, steep_bifurcation_loads, steep_crown, steep_limit_load};
+
+/// The dense tangent at the critical state (its kept field), its eigenpairs
+/// sorted by |μ|, and the largest |K_ii|.
+fn dense_eigen(run: &Run, c: &tautline::path::Critical) -> (Vec<f64>, nalgebra::DMatrix<f64>, f64) {
+    let sys = &run.system;
+    let u = c.field.as_ref().expect("the critical field is kept for small models");
+    let n = sys.n_free();
+    let mut k = sys.new_tangent_values();
+    let mut r = vec![0.0; n];
+    let mut react = vec![0.0; 3 * run.model.n_nodes()];
+    sys.residual_and_tangent(u, c.lambda, &mut r, &mut react, &mut k);
+    let mut dense = nalgebra::DMatrix::zeros(n, n);
+    let mut col = vec![0.0; n];
+    for j in 0..n {
+        let mut e = vec![0.0; n];
+        e[j] = 1.0;
+        sys.tangent_times(&k, &e, &mut col);
+        for i in 0..n {
+            dense[(i, j)] = col[i];
+        }
+    }
+    let scale = (0..n).map(|i| dense[(i, i)].abs()).fold(0.0, f64::max);
+    let eig = nalgebra::SymmetricEigen::new(dense);
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| eig.eigenvalues[a].abs().total_cmp(&eig.eigenvalues[b].abs()));
+    let vals = order.iter().map(|&i| eig.eigenvalues[i]).collect();
+    let vecs = nalgebra::DMatrix::from_fn(n, n, |i, j| eig.eigenvectors[(i, order[j])]);
+    (vals, vecs, scale)
+}
+
+/// Checks a critical point against the dense eigen-analysis: exactly
+/// `multiplicity` eigenvalues near zero (≤ 1e-6 of max|K_ii|, the next one
+/// above 1e-5 of it), every reported mode unit and inside their span to
+/// 1e-6, the modes mutually orthogonal, and the kind given by the load's
+/// share of that span (limit above 1e-3, bifurcation below).
+fn check_against_dense(run: &Run, c: &tautline::path::Critical, tag: &str) {
+    let (vals, vecs, scale) = dense_eigen(run, c);
+    let m = c.multiplicity;
+    assert!(c.mode_converged && c.pinpointed, "{tag}: {c:?}");
+    assert_eq!(c.modes.len(), m, "{tag}");
+    for (j, mu) in vals.iter().enumerate().take(m) {
+        assert!(mu.abs() < 1e-6 * scale, "{tag}: dense eigenvalue {j} = {mu} (scale {scale})");
+    }
+    if vals.len() > m {
+        assert!(vals[m].abs() > 1e-5 * scale, "{tag}: a further eigenvalue {} is near zero too (scale {scale})", vals[m]);
+    }
+    let null = vecs.columns(0, m);
+    for (j, phi) in c.modes.iter().enumerate() {
+        let v = nalgebra::DVector::from_column_slice(phi);
+        assert!((v.norm() - 1.0).abs() < 1e-12, "{tag}: mode {j} norm {}", v.norm());
+        let outside = &v - null * (null.transpose() * &v);
+        assert!(outside.norm() < 1e-6, "{tag}: mode {j} leaves the dense null space by {}", outside.norm());
+        for (i, psi) in c.modes.iter().enumerate().take(j) {
+            let d: f64 = phi.iter().zip(psi).map(|(a, b)| a * b).sum();
+            assert!(d.abs() < 1e-9, "{tag}: modes {i} and {j} not orthogonal ({d})");
+        }
+    }
+    let f = nalgebra::DVector::from_column_slice(&run.system.f_ref);
+    let share = (null.transpose() * &f).norm() / f.norm();
+    let expected = if share > 1e-3 { CriticalKind::Limit } else { CriticalKind::Bifurcation };
+    assert_eq!(c.kind, expected, "{tag}: load share of the dense null space {share}");
+    assert!((c.mode_load_alignment - share).abs() < 1e-6, "{tag}: alignment {} vs dense {share}", c.mode_load_alignment);
+}
+
+fn steep_arc(legs: usize) -> String {
+    steep_crown(legs, "arc-length", 1.0e9, 10, "arc = 0.05\nmax_steps = 400\nmax_displacement = 2.5")
+}
+
+/// The steep two-bar arch (b = 1 m, h = 3 m; derived closed forms, see the
+/// head of this section): along its symmetric path a bifurcation (lateral
+/// crown sway, orthogonal to the load) comes before the limit point, and a
+/// second bifurcation after it, where the lateral stiffness recovers. Each is
+/// called by its kind, pinpointed within 1e-6 of the closed form, with
+/// multiplicity 1, its pivot change, and a converged unit mode in the
+/// direction the closed form says (C.x for the sway, C.z at the limit), on
+/// every corrector; the modes agree with a dense eigen-analysis.
+#[test]
+fn steep_arch_bifurcates_before_and_after_its_limit() {
+    let bif = steep_bifurcation_loads(2);
+    let lim = steep_limit_load(2);
+    assert_eq!(bif.len(), 2);
+    assert!(bif[0] < lim && bif[1] < lim, "closed forms: {bif:?} vs {lim}");
+    for method in ALL_METHODS {
+        let run = trace(model(&steep_arc(2)), method);
+        assert_eq!(run.path.stop, StopReason::MaxDisplacement, "{method:?}");
+        let c = &run.path.critical;
+        let kinds: Vec<CriticalKind> = c.iter().map(|c| c.kind).collect();
+        assert_eq!(kinds, [CriticalKind::Bifurcation, CriticalKind::Limit, CriticalKind::Bifurcation], "{method:?}: {c:?}");
+        let expected = [bif[0], lim, bif[1]];
+        let pivots = [(0, 1), (1, 2), (2, 1)];
+        for (i, cp) in c.iter().enumerate() {
+            let tag = format!("{method:?} critical {i}");
+            assert!(rel_err(cp.lambda * STEEP_LOAD, expected[i], 1.0) < 1e-6, "{tag}: {} vs {}", cp.lambda * STEEP_LOAD, expected[i]);
+            assert_eq!(cp.pivots, pivots[i], "{tag}");
+            assert_eq!(cp.multiplicity, 1, "{tag}");
+            // watch = [C.z, C.x]; the free DOFs are C.x and C.z only.
+            let dir = if cp.kind == CriticalKind::Limit { 0 } else { 1 };
+            assert!((cp.mode_watched[dir].abs() - 1.0).abs() < 1e-9 && cp.mode_watched[1 - dir].abs() < 1e-6, "{tag}: {:?}", cp.mode_watched);
+            check_against_dense(&run, cp, &tag);
+        }
+        // The limit mode moves with the load (down).
+        let limit = &c[1];
+        let along: f64 = limit.modes[0].iter().zip(&run.system.f_ref).map(|(a, b)| a * b).sum();
+        assert!(along > 0.0, "{method:?}");
+    }
+}
+
+/// The square four-bar pyramid (derived closed form): its first critical
+/// point is a double bifurcation, the crown free to sway in x and y alike:
+/// multiplicity 2 (two pivots change sign at once), two orthonormal modes
+/// spanning the crown's x and y and orthogonal to the load, within 1e-6 of
+/// the closed form, on every corrector; then the limit point.
+#[test]
+fn square_pyramid_has_a_double_bifurcation() {
+    let bif = steep_bifurcation_loads(4)[0];
+    let lim = steep_limit_load(4);
+    for method in ALL_METHODS {
+        let run = trace(model(&steep_arc(4)), method);
+        assert_eq!(run.path.stop, StopReason::MaxDisplacement, "{method:?}");
+        let c = &run.path.critical[0];
+        let tag = format!("{method:?}");
+        assert_eq!(c.kind, CriticalKind::Bifurcation, "{tag}: {c:?}");
+        assert_eq!((c.multiplicity, c.pivots), (2, (0, 2)), "{tag}");
+        assert!(rel_err(c.lambda * STEEP_LOAD, bif, 1.0) < 1e-6, "{tag}: {} vs {bif}", c.lambda * STEEP_LOAD);
+        let z = run.system.dofs.dof(run.model.nodes.iter().position(|n| n.label == "C").unwrap(), 2).unwrap();
+        for phi in &c.modes {
+            assert!(phi[z].abs() < 1e-6, "{tag}: a sway mode moves the crown vertically: {phi:?}");
+        }
+        check_against_dense(&run, c, &tag);
+        let limit = run.path.critical.iter().find(|c| c.kind == CriticalKind::Limit).expect("the limit follows");
+        assert!(rel_err(limit.lambda * STEEP_LOAD, lim, 1.0) < 1e-6, "{tag}: limit {} vs {lim}", limit.lambda * STEEP_LOAD);
+        assert_eq!(limit.pivots, (2, 3), "{tag}");
+        check_against_dense(&run, limit, &format!("{tag} limit"));
+    }
+}
+
+/// Load control on the steep arch: to a target between the bifurcation and
+/// the limit it reaches the target, reports the bifurcation pinpointed
+/// (closed form, 1e-6), and flags the end state as unstable (one negative
+/// pivot: `stable_at_end` false); to a target past the limit it stops at
+/// the limit (closed form, 1e-6) with `limit_point`, never beyond the loads
+/// it walked. Every corrector.
+#[test]
+fn load_control_reports_the_bifurcation_and_stops_at_the_limit() {
+    let bif = steep_bifurcation_loads(2)[0] / STEEP_LOAD;
+    let lim = steep_limit_load(2) / STEEP_LOAD;
+    for method in ALL_METHODS {
+        let mid = 0.5 * (bif + lim);
+        let run = trace(model(&steep_crown(2, "load", mid, 8, "")), method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        assert_eq!(run.path.critical.len(), 1, "{method:?}: {:?}", run.path.critical);
+        let c = &run.path.critical[0];
+        assert_eq!(c.kind, CriticalKind::Bifurcation, "{method:?}");
+        assert!(c.pinpointed && rel_err(c.lambda, bif, 1.0) < 1e-6, "{method:?}: {} vs {bif}", c.lambda);
+        let res = tautline::results::build(&run.model, &run.system, &run.path, &run.wasted, 0.0);
+        assert_eq!(res.stable_at_end, Some(false), "{method:?}");
+        assert_eq!(res.critical_points[0].multiplicity, 1);
+        assert!(res.critical_points[0].mode_converged && res.critical_points[0].pinpointed);
+
+        let run = trace(model(&steep_crown(2, "load", 2.0 * lim, 8, "")), method);
+        assert_eq!(run.path.stop, StopReason::LimitPoint, "{method:?}");
+        let limits: Vec<_> = run.path.critical.iter().filter(|c| c.kind == CriticalKind::Limit).collect();
+        assert_eq!(limits.len(), 1, "{method:?}: {:?}", run.path.critical);
+        assert!(rel_err(limits[0].lambda, lim, 1.0) < 1e-6, "{method:?}: {} vs {lim}", limits[0].lambda);
+        assert!(run.path.critical.iter().all(|c| c.lambda > 0.0 && c.lambda <= lim * (1.0 + 1e-9)), "{method:?}");
+        let msg = tautline::results::stop_message(&run.model, &run.path);
+        assert!(msg.contains("limit point") && msg.contains("arc-length"), "{msg}");
+    }
+}
+
+/// The generator's shallow dome (2 rings × 6 sectors: the 24 bars of a star
+/// dome plus the six between its supports, which carry nothing) under load
+/// control to 30 times its first limit load, in 10, 20 and 25 steps: every
+/// run stops at that limit (stop `limit_point`, exit 3 in the CLI), found
+/// within 1e-6 of the arc-length value, with no critical point outside the
+/// loads the run walked (0 < λ ≤ the limit), on every corrector. The limit
+/// load is this project's own (from its arc-length run, checked against the
+/// dense eigen-analysis); no literature value is claimed.
+#[test]
+fn dome_load_control_stops_at_its_first_limit() {
+    let g = tautline::generate::lattice_dome(
+        &tautline::generate::DomeOptions { rings: 2, sectors: 6, ..Default::default() },
+        "dome",
+    )
+    .unwrap();
+    let arc = g
+        .toml
+        .replace("control = \"load\"", "control = \"arc-length\"")
+        .replace("target = 1.0", "target = 1.0e9")
+        .replace("[analysis]", "[analysis]\narc = 0.05\nmax_steps = 400\nmax_displacement = 2.5");
+    let reference = trace(model(&arc), Method::Newton);
+    let first = reference.path.critical[0].clone();
+    assert_eq!(first.kind, CriticalKind::Limit);
+    check_against_dense(&reference, &first, "dome arc-length");
+    for c in &reference.path.critical {
+        check_against_dense(&reference, c, &format!("dome critical at {}", c.lambda));
+    }
+    for steps in [10, 20, 25] {
+        let text = g
+            .toml
+            .replace("target = 1.0", &format!("target = {:?}", 30.0 * first.lambda))
+            .replace("steps = 10", &format!("steps = {steps}"));
+        for method in ALL_METHODS {
+            let run = trace(model(&text), method);
+            let tag = format!("{method:?}, {steps} steps");
+            assert_eq!(run.path.stop, StopReason::LimitPoint, "{tag}: {:?}", run.path.critical);
+            let c = run.path.critical.last().unwrap();
+            assert_eq!(c.kind, CriticalKind::Limit, "{tag}");
+            assert!(rel_err(c.lambda, first.lambda, 1.0) < 1e-6, "{tag}: {} vs {}", c.lambda, first.lambda);
+            assert!(run.path.critical.iter().all(|c| c.lambda > 0.0 && c.lambda <= first.lambda * (1.0 + 1e-9)), "{tag}");
+            assert!(run.path.points.iter().all(|p| p.lambda < first.lambda), "{tag}");
+        }
+    }
+}
+
+/// Snap-back turning points of the arch with a spring in series (the model
+/// of `arc_length_traces_snap_back`): the controlled displacement
+/// v = w + P(w)/k turns where dv/dw = 1 − (dP/dz)/k = 0 (z = h − w). With
+/// P = 2EA·(z/l − z/L) (engineering strain, crown equilibrium; Bažant &
+/// Cedolin 1991, §4.4), dP/dz = 2EA·(b²/l³ − 1/L), so the turning points lie
+/// at l³ = b²/(k/(2EA) + 1/L), z = ±√(l² − b²) (derived). Arc-length control
+/// reports both as turning points (not critical points: the tangent stays
+/// regular there), pinpointed within 1e-6 of the closed form, the
+/// displacement there an extremum of the path's, on every corrector.
+#[test]
+fn snap_back_turning_points_are_pinpointed() {
+    let (b, h) = (5.0f64, 1.0f64);
+    let l0 = (b * b + h * h).sqrt();
+    let l = (b * b / (K / (2.0 * EA) + 1.0 / l0)).cbrt();
+    let z = (l * l - b * b).sqrt();
+    let p_turn = 2.0 * EA * (z / l - z / l0) / 1.0e6;
+    for method in ALL_METHODS {
+        let mut m = model(&spring_arch("arc-length", 1.2 * 3.7894625, 10, "arc = 0.05"));
+        m.analysis.method = method;
+        let run = trace(m, method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        let t = &run.path.turning;
+        assert_eq!(t.len(), 2, "{method:?}: {t:?}");
+        assert!(t.iter().all(|t| t.pinpointed), "{method:?}: {t:?}");
+        assert!(rel_err(t[0].lambda, p_turn, 1.0) < 1e-6, "{method:?}: {} vs {p_turn}", t[0].lambda);
+        assert!(rel_err(t[1].lambda, -p_turn, 1.0) < 1e-6, "{method:?}: {} vs {}", t[1].lambda, -p_turn);
+        // The spring end's deflection there is beyond every neighbouring
+        // converged state's: first a local maximum of −v... then a minimum.
+        let v: Vec<f64> = run.path.points.iter().map(|p| p.point).collect();
+        let near = |x: f64| v.iter().any(|p| (p - x).abs() < 0.2);
+        assert!(near(t[0].point) && near(t[1].point), "{method:?}");
+        assert!(run.path.critical.iter().all(|c| c.kind == CriticalKind::Limit), "{method:?}: no critical point for a turning point");
     }
 }

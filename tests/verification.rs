@@ -251,13 +251,16 @@ fn arch_arc_length_through_snap_through() {
 }
 
 /// Under load control the arch cannot pass its limit point: loaded towards
-/// 1.5·P_lim, the run stops cleanly short of the target with the last
-/// converged load below the limit load (Bažant & Cedolin 1991, §4.4).
+/// 1.5·P_lim, the run stops at it (`LimitPoint`) short of the target, the
+/// limit reported within 1e-6 of P_lim and the last converged load below it
+/// (Bažant & Cedolin 1991, §4.4).
 #[test]
 fn arch_load_control_stops_at_the_limit_point() {
     let (p_lim, _) = arch_limit(false);
     let run = solve_text(&arch_model("engineering", "load", p_lim, 10, 1.5));
-    assert_eq!(run.path.stop, StopReason::NoConvergence);
+    assert_eq!(run.path.stop, StopReason::LimitPoint);
+    let limit = run.path.critical.last().unwrap();
+    assert!(limit.kind == tautline::path::CriticalKind::Limit && rel_err(limit.lambda, 1.0, 1.0) < 1e-6, "{limit:?}");
     let last = run.path.points.last().unwrap().lambda;
     assert!(last <= 1.0 + 1e-9 && last > 0.9, "last converged λ = {last}");
 }

@@ -131,10 +131,25 @@ impl Ldlt {
         self.factorize_with(pattern, k_values, None)
     }
 
-    /// As [`Ldlt::factorize`], but pivots below the zero threshold are replaced
-    /// by a tiny positive value, so a singular tangent still gives a factor
-    /// whose solves amplify the null direction (for mechanism and mode
-    /// detection by inverse iteration).
+    /// Numeric LDLᵀ of K − σ·I (the diagonal shifted by `sigma`), with every
+    /// pivot kept as it is: the factor of the true shifted matrix, whose
+    /// inertia counts the eigenvalues of K below σ. Shift-invert iteration
+    /// with it converges to the eigenvalues of K nearest σ with their signs
+    /// (Parlett, *The Symmetric Eigenvalue Problem*, 1980, §4.6, from memory).
+    pub fn factorize_shifted(&mut self, pattern: &Pattern, k_values: &[f64], sigma: f64) -> Inertia {
+        let mut shifted = k_values.to_vec();
+        for &s in &pattern.diag_slot {
+            shifted[s as usize] -= sigma;
+        }
+        self.factorize_with(pattern, &shifted, None)
+    }
+
+    /// As [`Ldlt::factorize`], but pivots below the zero threshold, and
+    /// negative ones, are replaced by a tiny positive value (faer's dynamic
+    /// regularization with all signs +1). The factor is not that of K when K
+    /// is indefinite: use it only to get *a* usable factor of a singular
+    /// tangent (the fuzz target does); modes come from
+    /// [`Ldlt::factorize_shifted`], which keeps the signs.
     pub fn factorize_regularized(&mut self, pattern: &Pattern, k_values: &[f64]) -> Inertia {
         let max_diag = pattern.diag_slot.iter().map(|&s| k_values[s as usize].abs()).fold(0.0, f64::max);
         let signs = vec![1i8; self.n];

@@ -13,6 +13,7 @@
 pub mod branch;
 pub mod constraints;
 pub mod fields;
+pub mod modes;
 
 use crate::assembly::System;
 use crate::model::{Control, KeepFields, Model, NodeDir};
@@ -43,6 +44,9 @@ pub enum StopReason {
     /// asked for does not exist, no secondary state was found, or load
     /// control cannot follow a falling secondary branch).
     BranchSwitch,
+    /// Load control met a limit point: past it the load factor falls, so the
+    /// path cannot be followed by raising λ (the structure would snap).
+    LimitPoint,
 }
 
 impl StopReason {
@@ -56,6 +60,7 @@ impl StopReason {
             StopReason::Interrupted => "interrupted",
             StopReason::NoStartEquilibrium => "no_start_equilibrium",
             StopReason::BranchSwitch => "branch_switch",
+            StopReason::LimitPoint => "limit_point",
         }
     }
 
@@ -107,6 +112,9 @@ pub struct Path {
     pub n_cutbacks: usize,
     /// Critical points pinpointed along the path.
     pub critical: Vec<Critical>,
+    /// Turning points of the controlled displacement (snap-back) along an
+    /// arc-length path.
+    pub turning: Vec<Turning>,
     /// The `keep_fields` policy as resolved for this system (never `Auto`).
     pub keep: KeepFields,
     /// Whole displacement fields of the steps the policy keeps, ascending.
@@ -158,25 +166,80 @@ pub struct Critical {
     pub step: usize,
     /// Watched displacements at the point, m.
     pub watched: Vec<f64>,
-    /// Node directions with the largest share of the critical mode.
+    /// Node directions with the largest share of the first critical mode.
     pub mode: Vec<NodeDir>,
-    /// The mode at the watched DOFs, scaled to a largest component of 1.
+    /// The first mode at the watched DOFs, scaled to a largest component of 1.
     pub mode_watched: Vec<f64>,
-    /// |φ·f_ref| / (‖φ‖·‖f_ref‖) of the mode φ: near 1 at a limit point,
-    /// near 0 at a bifurcation.
+    /// ‖Φᵀf_ref‖ / ‖f_ref‖ over the whole null space Φ (orthonormal): near 1
+    /// at a limit point, 0 at a bifurcation.
     pub mode_load_alignment: f64,
+    /// The critical modes: unit Euclidean norm over the free DOFs, mutually
+    /// orthogonal, one per pivot that changed sign (`multiplicity`). At a
+    /// limit point the first is the load's direction within the null space
+    /// and the others (a bifurcation coinciding with it) are orthogonal to
+    /// f_ref; at a bifurcation all are orthogonal to f_ref.
+    pub modes: Vec<Vec<f64>>,
+    /// Eigenvalues of the tangent belonging to `modes`, N/m, at the state
+    /// the modes were computed (the bracket's far end).
+    pub mode_eigenvalues: Vec<f64>,
+    /// Every mode passed the residual check ‖Kφ − μφ‖ ≤ 1e-8·max|K_ii|.
+    pub mode_converged: bool,
+    /// Number of pivots that changed sign across the point.
+    pub multiplicity: usize,
     /// Negative pivots before and after.
     pub pivots: (usize, usize),
-    /// Bisections done, and the arc length still bracketing the point, m.
+    /// Bisections done, and the distance (displacement norm) still
+    /// bracketing the point, m.
     pub bisections: usize,
     pub bracket: f64,
+    /// The load factors at the two ends of the final bracket.
+    pub lambda_bracket: (f64, f64),
+    /// The bisection met its tolerance: the bracket is at most
+    /// [`PINPOINT_TOLERANCE`] times the larger of the displacement increment
+    /// of the step it started from and ‖u‖ there (it aims for
+    /// [`BISECTION_TARGET`] of the increment).
+    pub pinpointed: bool,
+    /// The bracket the bisection aimed for, m.
+    pub tolerance: f64,
     /// The free-DOF displacements at the point (the middle of the final
     /// bracket), m, when the `keep_fields` policy keeps critical states.
     pub field: Option<Vec<f64>>,
-    /// The critical modes over the free DOFs, unit Euclidean norm, one per
-    /// multiplicity, orthonormal.
-    pub modes: Vec<Vec<f64>>,
 }
+
+/// A turning point of the controlled displacement along the path (the
+/// displacement has an extremum while the load factor goes on: snap-back).
+/// The tangent stiffness stays regular there, so the pivot count does not
+/// see it: it is found where du/ds at the controlled DOF changes sign, with
+/// du/ds ∝ (K⁻¹f_ref)·dλ/ds (derived from K·du = f_ref·dλ), and bisected as
+/// a critical point is.
+#[derive(Clone, Debug)]
+pub struct Turning {
+    pub lambda: f64,
+    /// First converged step past the point.
+    pub step: usize,
+    /// The controlled displacement at the point (its extremum), m.
+    pub point: f64,
+    /// Watched displacements at the point, m.
+    pub watched: Vec<f64>,
+    pub bisections: usize,
+    /// Displacement norm still bracketing the point, m.
+    pub bracket: f64,
+    /// As for [`Critical::pinpointed`].
+    pub pinpointed: bool,
+    pub tolerance: f64,
+}
+
+/// The bisection aims for a bracket of this fraction of the step's
+/// displacement increment.
+pub const BISECTION_TARGET: f64 = 1e-9;
+
+/// A critical point is reported as pinpointed when its final bracket is at
+/// most this fraction of the step's displacement increment or of the
+/// displacement itself (‖u‖ at the bracket's end), whichever is larger.
+/// Looser than the aim: next to a singular tangent, or in a very short step,
+/// a sub-step may fail to converge to a tight tolerance, which ends the
+/// bisection early.
+pub const PINPOINT_TOLERANCE: f64 = 1e-8;
 
 /// A mode is taken as orthogonal to the load (a bifurcation) below this
 /// alignment. The null vector of a limit point carries load; that of a
@@ -223,31 +286,16 @@ pub struct Tracer<'a> {
     pub wasted: StepRecord,
 }
 
-/// The null direction of the tangent at (u, λ) by inverse iteration: the
-/// tangent is factored with tiny pivots regularized, so each solve amplifies
-/// the direction in which it is (nearly) singular. Starts from a vector with
-/// no special symmetry; returns the last finite unit vector and whether all
-/// `iterations` solves stayed finite.
-fn null_mode(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, iterations: usize) -> (Vec<f64>, bool) {
+/// The `m` modes of the tangent at (u, λ) nearest zero, from the true
+/// (sign-keeping) factorization: see [`modes::lowest_modes`]. The factor in
+/// the workspace is overwritten (`ws.fresh` is cleared).
+fn null_modes(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, m: usize) -> modes::LowModes {
     let mut k = system.new_tangent_values();
     let mut r = vec![0.0; system.n_free()];
     let mut react = vec![0.0; n_reactions];
     system.residual_and_tangent(u, lambda, &mut r, &mut react, &mut k);
-    ws.h.ldlt.factorize_regularized(&system.pattern, &k);
     ws.fresh = false;
-    let n = system.n_free();
-    let mut x: Vec<f64> = (0..n).map(|i| 1.0 + ((i * 7919) % 13) as f64 * 0.01).collect();
-    for _ in 0..iterations {
-        let mut next = x.clone();
-        ws.h.ldlt.solve_in_place(&mut next);
-        let norm = next.iter().map(|v| v * v).sum::<f64>().sqrt();
-        if !(norm > 0.0 && norm.is_finite()) {
-            return (x, false);
-        }
-        next.iter_mut().for_each(|v| *v /= norm);
-        x = next;
-    }
-    (x, true)
+    modes::lowest_modes(system, &mut ws.h.ldlt, &k, m)
 }
 
 /// Node directions carrying at least half the largest component of a mode,
@@ -261,12 +309,13 @@ fn dominant_dirs(system: &System, mode: &[f64]) -> Vec<NodeDir> {
     big.into_iter().map(|(_, d)| system.dofs.owner(d)).collect()
 }
 
-/// Finds the node directions of a mechanism: two steps of inverse iteration
-/// on the singular tangent.
+/// Finds the node directions of a mechanism: the mode of the singular
+/// tangent nearest zero.
 pub fn find_mechanism(system: &System, ws: &mut Workspace, state: &State) -> Vec<NodeDir> {
-    match null_mode(system, ws, &state.u, state.lambda, state.reactions.len(), 2) {
-        (mode, true) => dominant_dirs(system, &mode),
-        (_, false) => Vec::new(),
+    let low = null_modes(system, ws, &state.u, state.lambda, state.reactions.len(), 1);
+    match low.modes.first() {
+        Some(mode) => dominant_dirs(system, mode),
+        None => Vec::new(),
     }
 }
 
@@ -346,7 +395,7 @@ impl<'a> Tracer<'a> {
         let full = dist(&ua, &ub);
         let mut bisections = 0;
         let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > 1e-9 * full {
+        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > BISECTION_TARGET * full {
             let half = 0.5 * dist(&ua, &ub);
             // Predictor halfway along the chord, corrected on the cylinder of
             // radius `half` around A.
@@ -381,11 +430,20 @@ impl<'a> Tracer<'a> {
                 nb = ws.h.inertia.negative;
             }
         }
-        // Mode: inverse iteration with the (regularized) factor at B.
-        let (phi, _) = null_mode(sys, ws, &ub, lb, b.reactions.len(), 4);
+        let bracket = dist(&ua, &ub);
+        let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
+        let pinpointed = bracket <= tolerance;
+        // Modes: the eigenvectors of K nearest zero at B, one per pivot that
+        // changed sign, from the sign-keeping factorization.
+        let multiplicity = na.abs_diff(nb).max(1);
+        let low = null_modes(sys, ws, &ub, lb, b.reactions.len(), multiplicity);
         self.wasted.factorizations += 1;
-        let f_norm = sys.f_ref_norm();
-        let alignment = (dot(&phi, &sys.f_ref) / f_norm.max(f64::MIN_POSITIVE)).abs();
+        // Classified by the whole null space: a limit point when f_ref has a
+        // component in it (the load factor has an extremum, Thompson & Hunt,
+        // *A General Theory of Elastic Stability*, 1973, ch. 3, from memory),
+        // a bifurcation when the null space is orthogonal to f_ref.
+        let (alignment, modes) = modes::split_by_load(&low.modes, &sys.f_ref);
+        let phi = modes.first().cloned().unwrap_or_else(|| vec![0.0; sys.n_free()]);
         let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
         let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
         Critical {
@@ -403,15 +461,187 @@ impl<'a> Tracer<'a> {
                 .map(|w| if max > 0.0 { self.displacement_of(&phi, *w) / max } else { 0.0 })
                 .collect(),
             mode_load_alignment: alignment,
-            // One mode, from the inverse iteration above, unit-normalised.
-            modes: {
-                let n = dot(&phi, &phi).sqrt();
-                if n > 0.0 && n.is_finite() { vec![phi.iter().map(|v| v / n).collect()] } else { Vec::new() }
-            },
+            modes,
+            mode_eigenvalues: low.eigenvalues.clone(),
+            mode_converged: low.converged && !low.modes.is_empty(),
+            multiplicity,
             pivots: (na, nb),
             bisections,
-            bracket: dist(&ua, &ub),
+            bracket,
+            lambda_bracket: (la, lb),
+            pinpointed,
+            tolerance,
         }
+    }
+
+    /// Bisects the step from A (u, λ, du/ds at the controlled DOF) to B in
+    /// which du/ds at `dof` changed sign, as [`Tracer::pinpoint`] does with
+    /// the pivot count; `dir` is the sign of dλ/ds across the step.
+    #[allow(clippy::too_many_arguments)]
+    fn pinpoint_turning(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, f64), b: &State, dir: f64, dof: usize, observer: &mut dyn Observer) -> Turning {
+        let sys = self.system;
+        let (ua, la, va) = a_state;
+        let (mut ua, mut la) = (ua.to_vec(), la);
+        let (mut ub, mut lb) = (b.u.clone(), b.lambda);
+        let full = dot_dist(&ua, &ub);
+        let mut bisections = 0;
+        let mut st = b.clone();
+        while bisections < MAX_BISECTIONS && dot_dist(&ua, &ub) > BISECTION_TARGET * full {
+            for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
+                *u = 0.5 * (a + b);
+            }
+            st.lambda = 0.5 * (la + lb);
+            ws.fresh = false;
+            // λ is monotone through a displacement turning point (the tangent
+            // is regular there), so the sub-step is a load-control one.
+            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &FixedLoad, &self.corrector, 0, observer);
+            add_records(&mut self.wasted, &rec);
+            if term != Termination::Converged {
+                break;
+            }
+            let mut rec = StepRecord::default();
+            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            add_records(&mut self.wasted, &rec);
+            if singular {
+                break;
+            }
+            bisections += 1;
+            let v = tangent_direction(sys, ws)[dof] * dir;
+            if v * va > 0.0 {
+                ua.clone_from(&st.u);
+                la = st.lambda;
+            } else {
+                ub.clone_from(&st.u);
+                lb = st.lambda;
+            }
+        }
+        let bracket = dot_dist(&ua, &ub);
+        let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
+        let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
+        Turning {
+            lambda: 0.5 * (la + lb),
+            step: 0,
+            point: mid[dof],
+            watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
+            bisections,
+            bracket,
+            pinpointed: bracket <= tolerance,
+            tolerance,
+        }
+    }
+
+    /// Re-walks a suspect load-control step by arc length from its start A
+    /// (u, λ, negative pivots) until λ reaches B's, pinpointing every change
+    /// of the pivot count on the way; stops at the first limit point. The arc
+    /// is a quarter of the tangent's prediction for the step (or of the
+    /// chord to B, if shorter), halved when a sub-step fails or turns back.
+    /// Some(list): the critical points met (empty: none, B is on the path);
+    /// None: the walk failed (the caller cuts the step back).
+    fn probe(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
+        let chord = dot_dist(&b.u, a_state.0);
+        self.walk(ws, a_state, b.lambda, chord, b, keep_field, observer)
+    }
+
+    /// The walk of [`Tracer::probe`] towards `lambda_b`; `chord` bounds the
+    /// arc (ignored when zero: a step that never converged has no B).
+    #[allow(clippy::too_many_arguments)]
+    fn walk(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), lambda_b: f64, chord: f64, template: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
+        let sys = self.system;
+        let (ua, la, na) = a_state;
+        let b = template;
+        let mut st = b.clone();
+        st.u.copy_from_slice(ua);
+        st.lambda = la;
+        let mut rec = StepRecord::default();
+        let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+        add_records(&mut self.wasted, &rec);
+        if singular {
+            return None;
+        }
+        let direction = (lambda_b - la).signum();
+        let du_a = tangent_direction(sys, ws);
+        let predicted = dot(&du_a, &du_a).sqrt() * (lambda_b - la).abs();
+        let arc0 = if chord > 0.0 { 0.25 * predicted.min(chord).max(1e-12 * chord) } else { 0.25 * predicted };
+        if !(arc0 > 0.0 && arc0.is_finite()) {
+            return None;
+        }
+        let mut arc = arc0;
+        let mut found = Vec::new();
+        let mut prev_inc: Vec<f64> = Vec::new();
+        let mut neg = na;
+        for _ in 0..PROBE_MAX_STEPS {
+            if (st.lambda - lambda_b) * direction >= 0.0 {
+                return Some(found);
+            }
+            let (pu, pl) = (st.u.clone(), st.lambda);
+            let du_f = tangent_direction(sys, ws);
+            let norm = dot(&du_f, &du_f).sqrt();
+            let sign = if prev_inc.is_empty() {
+                direction
+            } else {
+                let d = dot(&du_f, &prev_inc);
+                if d == 0.0 { direction } else { d.signum() }
+            };
+            let dl = sign * arc / norm;
+            if !dl.is_finite() {
+                return None;
+            }
+            st.u.iter_mut().zip(&du_f).for_each(|(u, d)| *u += dl * d);
+            st.lambda += dl;
+            let (term, r) = solve::drive(sys, ws, &mut st, &pu, pl, &Cylindrical { arc }, &self.corrector, 0, observer);
+            add_records(&mut self.wasted, &r);
+            let turned = !prev_inc.is_empty()
+                && st.u.iter().zip(&pu).zip(&prev_inc).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
+            let mut rec = StepRecord::default();
+            if term != Termination::Converged || turned {
+                if term == Termination::Stopped {
+                    return None;
+                }
+                restore(&mut st, pu, pl);
+                solve::refactor_at(sys, ws, &mut st, &mut rec);
+                add_records(&mut self.wasted, &rec);
+                arc *= 0.5;
+                if arc < arc0 * 1e-4 {
+                    return None;
+                }
+                continue;
+            }
+            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            add_records(&mut self.wasted, &rec);
+            if singular {
+                return None;
+            }
+            let now = ws.h.inertia.negative;
+            // λ fell along the path: a limit point lies in this sub-step or
+            // at its start (λ has its extremum there).
+            let fell = (st.lambda - pl) * direction < 0.0;
+            if now != neg {
+                let c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
+                let limit = c.kind == CriticalKind::Limit;
+                found.push(c);
+                if limit {
+                    return Some(found);
+                }
+                let mut rec = StepRecord::default();
+                solve::refactor_at(sys, ws, &mut st, &mut rec);
+                add_records(&mut self.wasted, &rec);
+                neg = now;
+            }
+            if fell {
+                // No pivot changed sign within the sub-step (the walk began
+                // on the limit, within the zero-pivot threshold of it): a
+                // limit at the walk's highest load, not bisected.
+                let mut c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
+                c.kind = CriticalKind::Limit;
+                c.pinpointed = false;
+                c.lambda = if direction > 0.0 { pl.max(st.lambda) } else { pl.min(st.lambda) };
+                found.push(c);
+                return Some(found);
+            }
+            prev_inc = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
+            arc = (arc * 1.5).min(4.0 * arc0);
+        }
+        None
     }
 
     /// Finds the equilibrium under the full dead load (self-weight) at the
@@ -521,6 +751,7 @@ impl<'a> Tracer<'a> {
                 last_failure: None,
                 n_cutbacks,
                 critical: Vec::new(),
+                turning: Vec::new(),
                 keep,
                 fields,
                 start_failure: None,
@@ -563,6 +794,7 @@ impl<'a> Tracer<'a> {
                     last_failure: None,
                     n_cutbacks,
                     critical: Vec::new(),
+                turning: Vec::new(),
                     keep: keeper.policy().clone(),
                     fields: Vec::new(),
                     start_failure: Some(start_failure),
@@ -581,6 +813,15 @@ impl<'a> Tracer<'a> {
         let mut critical: Vec<Critical> = Vec::new();
         let mut last_load_increment = 1.0;
         let mut switcher = branch::Switcher::new(&a.branch);
+        // f_ref·K⁻¹·f_ref at the last converged state (NaN: not known).
+        let mut last_compliance = load_compliance(sys, ws);
+        // (K⁻¹f_ref) at the controlled DOF at the last converged state (NaN:
+        // not known): du/ds there up to the sign of dλ/ds.
+        let mut last_tangent_at_dof = match (a.control, stepper.control_dof) {
+            (Control::ArcLength, Some(dof)) => tangent_direction(sys, ws)[dof],
+            _ => f64::NAN,
+        };
+        let mut turning: Vec<Turning> = Vec::new();
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -662,12 +903,18 @@ impl<'a> Tracer<'a> {
             // Under load control a step past a limit point can converge on a
             // distant branch (the snap itself): an increment far larger than
             // the last one, for the load increment, is rejected as a jump.
+            let mut jumped = false;
             let term = match (&term, a.control) {
                 (Termination::Converged, Control::Load) if !last_increment.is_empty() => {
                     let now = dot_dist(&state.u, &start_u);
                     let before = dot(&last_increment, &last_increment).sqrt();
                     let load_ratio = ((state.lambda - start_lambda) / last_load_increment).abs();
-                    if now > JUMP_RATIO * before * load_ratio.max(1e-3) { Termination::Jumped } else { term }
+                    jumped = now > JUMP_RATIO * before * load_ratio.max(1e-3);
+                    // With the pivots counted, a jump is examined below (the
+                    // path is followed from the step's start by arc length);
+                    // without, it is cut back.
+                    let counted = a.stability_each_step || a.method == crate::model::Method::Newton;
+                    if jumped && !counted { Termination::Jumped } else { term }
                 }
                 // Under arc-length control the cylinder meets the path behind
                 // the start as well as ahead: an increment at an obtuse angle
@@ -717,7 +964,72 @@ impl<'a> Tracer<'a> {
                         negative_pivots: neg,
                     };
                     let before = points.last().map(|p: &PathPoint| (p.negative_pivots, p.pivots_checked));
-                    let pinpoint = a.pinpoint && check && !singular;
+                    // Load control never crosses a critical point silently
+                    // (see `crossing_suspected`): the step is re-walked from
+                    // its start by arc length; a limit point met on the way
+                    // ends the run there, bifurcations are recorded.
+                    let compliance = if check && !singular { load_compliance(sys, ws) } else { f64::NAN };
+                    // (K⁻¹f_ref) at the controlled DOF, for turning points of
+                    // the displacement under arc-length control.
+                    let dir = (state.lambda - start_lambda).signum();
+                    let tangent_at_dof = match (a.control, stepper.control_dof) {
+                        (Control::ArcLength, Some(dof)) if check && !singular => tangent_direction(sys, ws)[dof],
+                        _ => f64::NAN,
+                    };
+                    if let (Control::Load, true, Some((n_before, true))) = (a.control, check && !singular, before) {
+                        {
+                            let suspected = jumped
+                                || n_before != neg
+                                || crossing_suspected(sys, last_compliance, compliance, &start_u, start_lambda, &state);
+                            if suspected {
+                                let keep_field = keeper.keeps_critical();
+                                let a_state = (start_u.as_slice(), start_lambda, n_before);
+                                let outcome = self.probe(ws, a_state, &state, keep_field, observer);
+                                let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
+                                let clear = outcome.as_ref().is_some_and(|v| v.is_empty());
+                                let retreat = limit || outcome.is_none() || (clear && jumped);
+                                let lambda_tried = state.lambda;
+                                for mut c in outcome.into_iter().flatten() {
+                                    c.step = step;
+                                    critical.push(c);
+                                }
+                                if retreat {
+                                    // Back to the step's start and its factor.
+                                    add_records(&mut self.wasted, &point.record);
+                                    restore(&mut state, start_u.clone(), start_lambda);
+                                    let mut rec = StepRecord::default();
+                                    solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                    add_records(&mut self.wasted, &rec);
+                                    ws.fresh = true;
+                                    if limit {
+                                        break 'path StopReason::LimitPoint;
+                                    }
+                                    // A jump with no critical point on the
+                                    // way, or a walk that failed: cut back.
+                                    if !stepper.cut_back() {
+                                        last_failure = Some(Failure {
+                                            step,
+                                            lambda_tried,
+                                            termination: Termination::Jumped,
+                                            relative_residual: 0.0,
+                                            zero_pivot_dirs: Vec::new(),
+                                        });
+                                        break 'path StopReason::NoConvergence;
+                                    }
+                                    n_cutbacks += 1;
+                                    continue 'path;
+                                }
+                                // Bifurcations only: B is on the path; back
+                                // to its factor.
+                                let mut rec = StepRecord::default();
+                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                add_records(&mut self.wasted, &rec);
+                                ws.fresh = true;
+                            }
+                        }
+                    }
+                    last_compliance = compliance;
+                    let pinpoint = a.pinpoint && check && !singular && a.control != Control::Load;
                     if let (true, Some((n_before, true))) = (pinpoint, before) {
                         if n_before != neg {
                             let keep_field = keeper.keeps_critical();
@@ -737,6 +1049,24 @@ impl<'a> Tracer<'a> {
                             ws.fresh = true;
                         }
                     }
+                    // A turning point of the controlled displacement within
+                    // the step (none when a critical point is in it too: the
+                    // sign of dλ/ds is then not one across the step).
+                    let same_count = before.is_some_and(|(n, c)| c && n == neg);
+                    // Both ends' du/ds take this step's sign of dλ/ds: with
+                    // the pivot count unchanged no limit point lies in it,
+                    // so dλ/ds keeps its sign across it.
+                    if a.pinpoint && same_count && tangent_at_dof * last_tangent_at_dof < 0.0 && dir != 0.0 {
+                        let dof = stepper.control_dof.expect("the tangent is known only with a controlled DOF");
+                        let mut t = self.pinpoint_turning(ws, (&start_u, start_lambda, last_tangent_at_dof * dir), &state, dir, dof, observer);
+                        t.step = step;
+                        turning.push(t);
+                        let mut rec = StepRecord::default();
+                        solve::refactor_at(sys, ws, &mut state, &mut rec);
+                        add_records(&mut self.wasted, &rec);
+                        ws.fresh = true;
+                    }
+                    last_tangent_at_dof = tangent_at_dof;
                     let pivots_changed = before.is_some_and(|(n, _)| n != neg);
                     keeper.offer(step, state.lambda, &state.u, pivots_changed);
                     points.push(point);
@@ -829,6 +1159,32 @@ impl<'a> Tracer<'a> {
                     add_records(&mut self.wasted, &rec);
                     ws.fresh = !singular;
                     if singular || !stepper.cut_back() {
+                        // Load control that cannot go on: is there a limit
+                        // point between here and where it tried to go?
+                        let counted = a.stability_each_step || a.method == crate::model::Method::Newton;
+                        let n_here = points.last().map_or(0, |p: &PathPoint| p.negative_pivots);
+                        if a.control == Control::Load && counted && !singular {
+                            let keep_field = keeper.keeps_critical();
+                            let u0 = state.u.clone();
+                            let l0 = state.lambda;
+                            let outcome = self.walk(ws, (&u0, l0, n_here), failure.lambda_tried, 0.0, &state, keep_field, observer);
+                            let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
+                            if limit {
+                                for mut c in outcome.into_iter().flatten() {
+                                    c.step = step;
+                                    critical.push(c);
+                                }
+                                restore(&mut state, u0, l0);
+                                let mut rec = StepRecord::default();
+                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                add_records(&mut self.wasted, &rec);
+                                break StopReason::LimitPoint;
+                            }
+                            restore(&mut state, u0, l0);
+                            let mut rec = StepRecord::default();
+                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            add_records(&mut self.wasted, &rec);
+                        }
                         last_failure = Some(failure);
                         break StopReason::NoConvergence;
                     }
@@ -848,6 +1204,7 @@ impl<'a> Tracer<'a> {
             last_failure,
             n_cutbacks,
             critical,
+            turning,
             keep,
             fields,
             start_failure: None,
@@ -856,6 +1213,45 @@ impl<'a> Tracer<'a> {
         }
     }
 }
+
+/// f_ref·K⁻¹·f_ref with the fresh factor of the converged state: the
+/// reciprocal of the current stiffness parameter's denominator (Bergan,
+/// Holand & Søreide 1978, S_p = f·δu₁ / f·δuᵢ with δu = K⁻¹f). It is
+/// positive on a stable path, passes through ±∞ at a limit point and changes
+/// sign there.
+fn load_compliance(sys: &System, ws: &mut Workspace) -> f64 {
+    if !ws.h.ldlt.is_factored() || sys.f_ref_norm() == 0.0 {
+        return f64::NAN;
+    }
+    let du = tangent_direction(sys, ws);
+    dot(&du, &sys.f_ref)
+}
+
+/// A load-control step from A to B is suspected of crossing a critical point
+/// when the current stiffness parameter changes sign (c = f·K⁻¹f, Bergan et
+/// al. 1978), when the work increment Δλ·f·Δu is negative (the load does
+/// negative work: the structure has unloaded), or when the secant compliance
+/// f·Δu/Δλ exceeds [`SECANT_RATIO`] times both end tangent compliances. On
+/// a smooth path with no critical point f·Δu/Δλ is the mean of c over the
+/// step, which lies between c's values at the ends unless c has an interior
+/// extremum; a snap-through between two stable states leaves c positive at
+/// both ends but makes the secant large (derived).
+fn crossing_suspected(sys: &System, c_a: f64, c_b: f64, start_u: &[f64], start_lambda: f64, b: &State) -> bool {
+    let dl = b.lambda - start_lambda;
+    let du: Vec<f64> = b.u.iter().zip(start_u).map(|(x, y)| x - y).collect();
+    let work = dot(&du, &sys.f_ref) * dl;
+    if !c_a.is_finite() || !c_b.is_finite() {
+        return work < 0.0;
+    }
+    let secant = if dl != 0.0 { dot(&du, &sys.f_ref) / dl } else { 0.0 };
+    c_a.signum() != c_b.signum() || work < 0.0 || secant > SECANT_RATIO * c_a.abs().max(c_b.abs())
+}
+
+/// See [`crossing_suspected`]: a margin for the curvature of c within a step.
+pub const SECANT_RATIO: f64 = 1.5;
+
+/// Arc-length steps allowed when re-walking one load step.
+const PROBE_MAX_STEPS: usize = 400;
 
 /// Steps and successive halvings allowed while stepping in the dead load.
 const DEAD_LOAD_MAX_STEPS: usize = 400;

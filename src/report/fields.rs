@@ -81,3 +81,23 @@ pub fn critical_fields_csv(
     }
     Ok(())
 }
+
+/// Header of `critical_modes.csv`: `critical` is the index into
+/// `results.json`'s `critical_points`; a point of multiplicity m has m modes,
+/// written one after the other under the same index.
+pub const CRITICAL_MODES_HEADER: &str = "critical,load_factor,node,ux,uy,uz";
+
+/// `critical_modes.csv`: every mode of every critical point, one row per
+/// node. Each mode has unit Euclidean norm over the free DOFs (a shape, not a
+/// length: written as it is, whatever the model's length unit); supported
+/// directions are 0.
+pub fn critical_modes_csv(w: &mut impl Write, dofs: &DofMap, labels: &NodeLabels, critical: &[Critical]) -> io::Result<()> {
+    writeln!(w, "{CRITICAL_MODES_HEADER}")?;
+    for (i, c) in critical.iter().enumerate() {
+        let prefix = format!("{i},{},", num(c.lambda));
+        for phi in &c.modes {
+            rows(w, &prefix, labels, dofs, phi, 1.0)?;
+        }
+    }
+    Ok(())
+}

@@ -705,3 +705,12 @@ fn force_legend(svg: &mut Svg, x: f64, y: f64, fmax: f64, unit: &str) {
     legend(svg, x + 6.0, key_y, &rows);
     let _ = BAR_W;
 }
+
+/// The largest side of the nodes' bounding box, m (1 when the model has no
+/// extent), the length a mode drawing is scaled to.
+pub fn model_extent(model: &Model) -> f64 {
+    let side = (0..3)
+        .map(|a| extent(model.nodes.iter().map(|n| n.at[a])).map_or(0.0, |(lo, hi)| hi - lo))
+        .fold(0.0, f64::max);
+    if side > 0.0 && side.is_finite() { side } else { 1.0 }
+}

@@ -42,6 +42,10 @@ pub enum Command {
         /// Also write path.png, shape.png and convergence.png
         #[arg(long)]
         png: bool,
+        /// Also draw mode.svg: the first mode of critical point N (1-based,
+        /// in results.json order) on the shape at that point
+        #[arg(long, value_name = "N")]
+        plot_mode: Option<usize>,
         #[command(flatten)]
         overrides: Overrides,
     },

@@ -69,7 +69,16 @@ pub fn solve(m: &Model, r: &Results, written: &[String], extra_warnings: &[Strin
     let critical: Vec<Value> = r
         .critical_points
         .iter()
-        .map(|c| json!({ "kind": c.kind, "load_factor": c.load_factor, "step": c.step, "pinpointed": c.pinpointed }))
+        .map(|c| {
+            json!({
+                "kind": c.kind,
+                "load_factor": c.load_factor,
+                "step": c.step,
+                "pinpointed": c.pinpointed,
+                "multiplicity": c.multiplicity,
+                "mode_converged": c.mode_converged,
+            })
+        })
         .collect();
     json!({
         "ok": true,
@@ -86,6 +95,7 @@ pub fn solve(m: &Model, r: &Results, written: &[String], extra_warnings: &[Strin
         "watch": r.watch,
         "watched": last.map(|s| s.watched.clone()),
         "critical_points": critical,
+        "stable_at_end": r.stable_at_end,
         "slack_members": r.slack_members.len(),
         "relative_imbalance": r.equilibrium.relative_imbalance,
         "totals": {

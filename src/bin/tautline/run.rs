@@ -59,10 +59,13 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             }
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, force, format, png, overrides } => {
+        Command::Solve { model, out, force, format, png, plot_mode, overrides } => {
             let mut m = load(&model, format)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
-            solve(&m, &out, Some(&model), force, Outputs { quiet, png, format })
+            if plot_mode == Some(0) {
+                return Err(Failure::BadInput("--plot-mode 0: critical points are counted from 1".into()));
+            }
+            solve(&m, &out, Some(&model), force, Outputs { quiet, png, format, plot_mode })
         }
         Command::Form { model, out, method } => form(&model, &out, method.as_deref()),
         Command::Relax { model, out, load_factor, tolerance, max_steps } => {
@@ -75,7 +78,7 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            solve(&m, &out, None, false, Outputs { quiet, png, format: Format::Text })
+            solve(&m, &out, None, false, Outputs { quiet, png, format: Format::Text, plot_mode: None })
         }
         Command::Verify { format } => verify(&format),
     }
@@ -316,10 +319,12 @@ struct Outputs {
     png: bool,
     /// Summary and errors as text or JSON.
     format: Format,
+    /// Critical point (1-based) whose first mode `mode.svg` draws.
+    plot_mode: Option<usize>,
 }
 
 fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs: Outputs) -> Result<u8, Failure> {
-    let Outputs { quiet, png, format } = outputs;
+    let Outputs { quiet, png, format, plot_mode } = outputs;
     // Imperfection seeding (path::branch): the perfect path is traced first
     // and the model's geometry offset by the chosen mode; everything below
     // runs on the seeded model.
@@ -391,6 +396,9 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     stream(&mut staged, results::CRITICAL_FIELDS_FILE, &|w| {
         report::fields::critical_fields_csv(w, m, &system.dofs, &labels, &path.critical)
     })?;
+    stream(&mut staged, results::CRITICAL_MODES_FILE, &|w| {
+        report::fields::critical_modes_csv(w, &system.dofs, &labels, &path.critical)
+    })?;
     // Plots: a plot that cannot be drawn is reported and left out; the
     // numbers above are written regardless.
     let node_u: Vec<[f64; 3]> = (0..m.n_nodes())
@@ -399,13 +407,43 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     let member_state = system.member_results(&path.final_state.u);
     let forces: Vec<f64> = member_state.iter().map(|r| r.force).collect();
     let slack: Vec<bool> = member_state.iter().map(|r| r.slack).collect();
-    let plots = [
-        ("path.svg", "Load path: load factor against the watched displacements", report::plot::path_svg(&res)),
-        ("shape.svg", "Deformed shape at the last converged state, members shaded by axial force", report::plot::shape_svg(m, &node_u, &forces, &slack)),
-        ("convergence.svg", "Convergence: relative residual of every iteration", report::plot::convergence_svg(&res)),
+    let mut plots = vec![
+        ("path.svg", "Load path: load factor against the watched displacements".to_string(), report::plot::path_svg(&res)),
+        ("shape.svg", "Deformed shape at the last converged state, members shaded by axial force".to_string(), report::plot::shape_svg(m, &node_u, &forces, &slack)),
+        ("convergence.svg", "Convergence: relative residual of every iteration".to_string(), report::plot::convergence_svg(&res)),
     ];
+    let mut mode_warning = None;
+    if let Some(k) = plot_mode {
+        match path.critical.get(k - 1).filter(|c| !c.modes.is_empty()) {
+            Some(c) => {
+                // The mode (unit norm, a shape) drawn on the structure at the
+                // critical state, scaled so its largest node movement is a
+                // tenth of the structure's largest extent.
+                let at = c.field.as_deref().unwrap_or(&path.final_state.u);
+                let phi = &c.modes[0];
+                let span = report::plot::model_extent(m);
+                let big = (0..m.n_nodes())
+                    .map(|n| (0..3).map(|a| system.dofs.displacement(phi, n, a).powi(2)).sum::<f64>().sqrt())
+                    .fold(0.0, f64::max);
+                let scale = if big > 0.0 { 0.1 * span / big } else { 0.0 };
+                let shown: Vec<[f64; 3]> = (0..m.n_nodes())
+                    .map(|n| std::array::from_fn(|a| system.dofs.displacement(at, n, a) + scale * system.dofs.displacement(phi, n, a)))
+                    .collect();
+                let st = system.member_results(at);
+                let f: Vec<f64> = st.iter().map(|r| r.force).collect();
+                let sl: Vec<bool> = st.iter().map(|r| r.slack).collect();
+                let kind = if c.kind == tautline::path::CriticalKind::Limit { "limit" } else { "bifurcation" };
+                plots.push((
+                    "mode.svg",
+                    format!("Critical point {k} ({kind} at load factor {:.6}): its first mode, largest movement drawn at a tenth of the structure's extent", c.lambda),
+                    report::plot::shape_svg(m, &shown, &f, &sl),
+                ));
+            }
+            None => mode_warning = Some(format!("mode.svg not drawn: the run found {} critical point(s) with modes, not {k}", path.critical.len())),
+        }
+    }
     let mut drawn = Vec::new();
-    let mut plot_warnings = Vec::new();
+    let mut plot_warnings: Vec<String> = mode_warning.into_iter().collect();
     for (name, caption, svg) in plots {
         match svg {
             Ok(text) => {
@@ -425,7 +463,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         }
     }
     let figures: Vec<report::html::Figure> =
-        drawn.iter().map(|(caption, svg)| report::html::Figure { caption, svg }).collect();
+        drawn.iter().map(|(caption, svg): &(String, String)| report::html::Figure { caption, svg }).collect();
     write(&mut staged, "report.html", report::html::report_html(m, &res, &members, &figures))?;
     let written: Vec<PathBuf> = staged
         .commit()
@@ -482,7 +520,27 @@ fn print_run_summary(m: &Model, r: &results::Results) {
     }
     if let Some(cp) = r.critical_points.first() {
         let p = results_load(m, cp.load_factor);
-        println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load)", cp.kind, cp.load_factor, u.force.name());
+        let how = match (cp.pinpointed, cp.multiplicity) {
+            (true, 1) => String::new(),
+            (true, k) => format!(", multiplicity {k}"),
+            (false, k) => format!(", multiplicity {k}, not pinpointed: between two steps"),
+        };
+        println!("first critical point: {} at load factor {:.6} ({p:.6e} {} total load{how})", cp.kind, cp.load_factor, u.force.name());
+        if r.critical_points.len() > 1 {
+            println!("{} critical points in all (results.json critical_points; modes in {})", r.critical_points.len(), r.critical_modes_file);
+        }
+    }
+    match r.stable_at_end {
+        Some(false) => println!(
+            "warning: the last converged state is unstable ({} negative pivots): it is in equilibrium but a small disturbance \
+             moves it away, so the structure cannot hold it; see critical_points in results.json for where stability was lost, \
+             and add a support, bracing or prestress, or keep the load below the first critical point",
+            r.negative_pivots_at_end
+        ),
+        None if !r.steps.is_empty() => println!(
+            "note: the stability of the last state was not checked (stability_check = \"on-refactor\"); use \"every-step\" to check it"
+        ),
+        _ => {}
     }
     if let Some(i) = &r.imperfection {
         println!(
