@@ -104,7 +104,13 @@ fn braced_strut_bifurcates_at_closed_form_load() {
 #[test]
 fn dome_first_critical_load_is_independent_of_arc_and_corrector() {
     let g = tautline::generate::lattice_dome(
-        &tautline::generate::DomeOptions { rings: 2, sectors: 6, ..Default::default() },
+        &tautline::generate::DomeOptions {
+            rings: 2,
+            sectors: 6,
+            load: tautline::generate::Loading::PerNode(0.0),
+            crown_load: 1000.0,
+            ..Default::default()
+        },
         "dome",
     )
     .unwrap();
@@ -322,7 +328,13 @@ fn load_control_reports_the_bifurcation_and_stops_at_the_limit() {
 #[test]
 fn dome_load_control_stops_at_its_first_limit() {
     let g = tautline::generate::lattice_dome(
-        &tautline::generate::DomeOptions { rings: 2, sectors: 6, ..Default::default() },
+        &tautline::generate::DomeOptions {
+            rings: 2,
+            sectors: 6,
+            load: tautline::generate::Loading::PerNode(0.0),
+            crown_load: 1000.0,
+            ..Default::default()
+        },
         "dome",
     )
     .unwrap();

@@ -984,7 +984,17 @@ impl<'a> Tracer<'a> {
                             if suspected {
                                 let keep_field = keeper.keeps_critical();
                                 let a_state = (start_u.as_slice(), start_lambda, n_before);
-                                let outcome = self.probe(ws, a_state, &state, keep_field, observer);
+                                let want = keep_field || switcher.wants_field();
+                                let mut outcome = self.probe(ws, a_state, &state, want, observer);
+                                // Branch switching (branch.rs) counts the
+                                // bifurcations met on the walk; the load
+                                // step's chord stands for the primary tangent.
+                                for (k, c) in outcome.iter_mut().flatten().enumerate() {
+                                    switcher.note(critical.len() + k, c, &start_u, &state.u);
+                                    if !keep_field {
+                                        c.field = None;
+                                    }
+                                }
                                 let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
                                 let clear = outcome.as_ref().is_some_and(|v| v.is_empty());
                                 let retreat = limit || outcome.is_none() || (clear && jumped);
