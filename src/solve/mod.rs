@@ -113,6 +113,10 @@ pub struct CorrectorConfig {
     pub energy_tolerance: Option<f64>,
     pub refactor: RefactorPolicy,
     pub line_search: LineSearch,
+    /// A quasi-Newton corrector that stalls again after refactoring finishes
+    /// the step with Newton iterations (see [`drive`]); off only to show
+    /// what the quasi-Newton iterations alone would do.
+    pub newton_fallback: bool,
 }
 
 impl CorrectorConfig {
@@ -148,6 +152,7 @@ impl CorrectorConfig {
             energy_tolerance: None,
             refactor: RefactorPolicy::default(),
             line_search,
+            newton_fallback: true,
         }
     }
 }
@@ -493,10 +498,15 @@ pub fn drive(
     let mut pending: Option<(f64, f64)> = None;
     // ws.du_f holds H·f_ref for the current H.
     let mut du_f_valid = false;
-    let mut escalate = false;
+    // Set when the quasi-Newton iterations give up: the failure to report
+    // if the Newton fallback is switched off.
+    let mut escalate: Option<Termination> = None;
     loop {
-        if escalate {
-            escalate = false;
+        if let Some(term) = escalate.take() {
+            if !config.newton_fallback {
+                rec.residual_history.push(state.relative_residual);
+                return (term, rec);
+            }
             newton = true;
             stage_start = rec.iterations;
             pending = None;
@@ -526,7 +536,7 @@ pub fn drive(
         }
         if !state.relative_residual.is_finite() {
             if !newton {
-                escalate = true;
+                escalate = Some(Termination::Diverged);
                 continue;
             }
             return (Termination::Diverged, rec);
@@ -540,7 +550,7 @@ pub fn drive(
         if rec.iterations - stage_start >= config.max_iterations {
             if !newton {
                 rec.residual_history.pop();
-                escalate = true;
+                escalate = Some(Termination::MaxIterations);
                 continue;
             }
             return (Termination::MaxIterations, rec);
@@ -578,7 +588,7 @@ pub fn drive(
         let Some(dl) = constraint.load_correction(&ws.du_r, &ws.du_f, &delta_u, state.lambda - step_start_lambda) else {
             if !newton {
                 rec.residual_history.pop();
-                escalate = true;
+                escalate = Some(Termination::ConstraintFailed);
                 continue;
             }
             return (Termination::ConstraintFailed, rec);
@@ -637,7 +647,7 @@ pub fn drive(
         let Some((alpha_best, _, rel_best, key)) = best else {
             if !newton {
                 rec.residual_history.pop();
-                escalate = true;
+                escalate = Some(Termination::Diverged);
                 continue;
             }
             return (Termination::Diverged, rec);
@@ -722,12 +732,14 @@ pub fn drive(
             let full = ws.h.updates() && ws.h.n_pairs() + pending.is_some() as usize >= config.refactor.max_updates;
             if !converged_residual {
                 if diverged {
-                    escalate = true;
+                    escalate = Some(Termination::Diverged);
                 } else if stalled {
                     // Modified Newton with no pairs and a fresh K₀ stalls
                     // the same way a refactor would: count it all the same.
                     match refreshed_at {
-                        Some(r) if state.relative_residual > REFRESH_GAIN * r => escalate = true,
+                        Some(r) if config.newton_fallback && state.relative_residual > REFRESH_GAIN * r => {
+                            escalate = Some(Termination::MaxIterations)
+                        }
                         _ => {
                             refreshed_at = Some(state.relative_residual);
                             rec.event(Ev::StallRefactor);
@@ -747,7 +759,7 @@ pub fn drive(
             iteration: rec.iterations,
             lambda: state.lambda,
             relative_residual: state.relative_residual,
-            refactored: need_factor || escalate,
+            refactored: need_factor || escalate.is_some(),
             line_search_trials: trials,
         };
         if observer.on_iteration(&ev) == Control::Stop {
@@ -758,7 +770,7 @@ pub fn drive(
             rec.residual_history.push(state.relative_residual);
             return (Termination::Converged, rec);
         }
-        if escalate {
+        if escalate.is_some() {
             continue;
         }
         if newton && state.relative_residual > 1e8 * rec.residual_history[0].max(1.0) {
