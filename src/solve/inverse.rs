@@ -210,7 +210,7 @@ impl InverseTangent {
             Method::Bfgs => {
                 let ys = dot(y, s);
                 let yy = dot(y, y).sqrt();
-                if !(ys > 1e-12 * ss * yy) {
+                if ys.is_nan() || ys <= 1e-12 * ss * yy {
                     return false;
                 }
                 let i = self.next_slot(s.len());
@@ -278,6 +278,60 @@ mod tests {
             let first = cycle();
             assert_eq!(first.0, 2);
             assert_eq!(first, cycle(), "{method:?}");
+        }
+    }
+
+    /// The stored forms against the dense updates they stand for (Broyden
+    /// 1965 good and bad inverse updates, written out as 3×3 matrices), and
+    /// `extend` against a fresh `apply`: H₀ = K⁻¹ of a 3×3 SPD K, two pairs.
+    #[test]
+    fn stored_broyden_forms_match_the_dense_updates() {
+        let k = vec![vec![4.0, 1.0, 0.0], vec![1.0, 3.0, 0.5], vec![0.0, 0.5, 2.0]];
+        let (p, v) = Pattern::from_dense_upper(&k);
+        let pairs = [([0.3, -0.1, 0.2], [1.5, 0.1, 0.6]), ([0.05, 0.2, -0.1], [0.4, 0.7, -0.05])];
+        let mul = |h: &[[f64; 3]; 3], x: &[f64]| -> [f64; 3] { [0, 1, 2].map(|i| (0..3).map(|j| h[i][j] * x[j]).sum()) };
+        for method in [Method::Broyden, Method::BroydenBad] {
+            let mut it = InverseTangent::new(method, Ldlt::new(&p, faer::Par::Seq).unwrap(), 4);
+            it.refactor(&p, &v);
+            // Dense H₀ = K⁻¹, column by column.
+            let mut h = [[0.0; 3]; 3];
+            for j in 0..3 {
+                let mut e = vec![0.0; 3];
+                e[j] = 1.0;
+                it.apply(&mut e);
+                for i in 0..3 {
+                    h[i][j] = e[i];
+                }
+            }
+            for (s, y) in &pairs {
+                let hy = mul(&h, y);
+                // Broyden good: H += (s − Hy) sᵀH / (sᵀHy); bad: H += (s − Hy) yᵀ / (yᵀy).
+                let row: [f64; 3] = if method == Method::Broyden {
+                    let sh = [0, 1, 2].map(|j| (0..3).map(|i| s[i] * h[i][j]).sum::<f64>());
+                    let d = dot(s, &hy);
+                    sh.map(|x| x / d)
+                } else {
+                    let d = dot(y, y);
+                    y.map(|x| x / d)
+                };
+                let x_in = [0.7, -0.4, 1.1];
+                let mut before = x_in.to_vec();
+                it.apply(&mut before);
+                assert!(it.update(s, y), "{method:?}");
+                for i in 0..3 {
+                    for j in 0..3 {
+                        h[i][j] += (s[i] - hy[i]) * row[j];
+                    }
+                }
+                let mut x = x_in.to_vec();
+                it.apply(&mut x);
+                let dense = mul(&h, &x_in);
+                it.extend(&x_in, &mut before);
+                for i in 0..3 {
+                    assert!((x[i] - dense[i]).abs() < 1e-12, "{method:?}: stored {x:?}, dense {dense:?}");
+                    assert!((before[i] - x[i]).abs() < 1e-12, "{method:?}: extended {before:?}, applied {x:?}");
+                }
+            }
         }
     }
 }

@@ -511,7 +511,7 @@ pub fn drive(
             stage_start = rec.iterations;
             pending = None;
             rec.event(Ev::NewtonFallback);
-            if !(state.relative_residual <= pred_residual) {
+            if state.relative_residual.is_nan() || state.relative_residual > pred_residual {
                 state.u.copy_from_slice(&ws.pred_u);
                 state.lambda = pred_lambda;
                 for ((d, u), u0) in delta_u.iter_mut().zip(&state.u).zip(step_start_u) {
@@ -694,13 +694,11 @@ pub fn drive(
             // Slack-aware memory: a changed slack set makes the stored pairs
             // (and the pair across the change) describe another tangent.
             let slack_changed = key != ws.memory_key;
-            if slack_changed && slack.restart {
-                if ws.h.n_pairs() > 0 || pending.is_some() {
-                    ws.h.restart();
-                    pending = None;
-                    du_f_valid = false;
-                    rec.event(Ev::SlackRestart);
-                }
+            if slack_changed && slack.restart && (ws.h.n_pairs() > 0 || pending.is_some()) {
+                ws.h.restart();
+                pending = None;
+                du_f_valid = false;
+                rec.event(Ev::SlackRestart);
             }
             if slack_changed {
                 ws.memory_key = key;
@@ -728,7 +726,7 @@ pub fn drive(
                 }
             }
             let stalled = state.relative_residual > config.refactor.stall_ratio * previous;
-            let diverged = !(state.relative_residual <= QN_DIVERGENCE * pred_residual);
+            let diverged = state.relative_residual.is_nan() || state.relative_residual > QN_DIVERGENCE * pred_residual;
             let full = ws.h.updates() && ws.h.n_pairs() + pending.is_some() as usize >= config.refactor.max_updates;
             if !converged_residual {
                 if diverged {
