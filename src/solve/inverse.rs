@@ -35,7 +35,8 @@
 //! equations", Math. Comp. 19 (1965). H. Matthies and G. Strang, "The solution
 //! of nonlinear finite element equations", Int. J. Numer. Meth. Eng. 14 (1979).
 //! C. T. Kelley, *Iterative Methods for Linear and Nonlinear Equations*, SIAM
-//! (1995), §7.3 (Broyden's method stored as a product of rank-one factors).
+//! (1995), §7.3 (Broyden's method stored as a product of rank-one factors;
+//! section from memory).
 //! J. Nocedal and S. J. Wright, *Numerical Optimization* (2006), §7.2 (two-loop
 //! recursion).
 
