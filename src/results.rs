@@ -177,6 +177,25 @@ pub struct StepOut {
     pub residual_history: Vec<f64>,
     /// Iterations at which the tangent was refactored.
     pub refactored_at: Vec<usize>,
+    /// Of `iterations`: quasi-Newton ones (modified Newton, Broyden, BFGS)
+    /// and full Newton ones (all of a Newton run; a quasi-Newton run's
+    /// Newton fallback).
+    pub quasi_newton_iterations: usize,
+    pub newton_iterations: usize,
+    /// How far the corrector escalated in this step: "none", "refactored"
+    /// (a stall answered by refactoring) or "newton" (finished with Newton).
+    pub escalation: &'static str,
+    /// Stalls, escalation and slack restarts of the converged attempt.
+    pub corrector_events: Vec<CorrectorEventOut>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct CorrectorEventOut {
+    /// Iterations done before the event.
+    pub iteration: usize,
+    /// "stall-refactor", "newton-fallback", "newton-from-predictor",
+    /// "slack-restart" or "slack-refactor".
+    pub event: &'static str,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -314,6 +333,12 @@ pub struct Totals {
     pub cutbacks: usize,
     /// Work spent in attempts that were cut back, included above.
     pub wasted_iterations: usize,
+    /// Over the converged steps: full Newton iterations, steps a
+    /// quasi-Newton corrector finished with Newton, slack restarts of the
+    /// quasi-Newton memory.
+    pub newton_iterations: usize,
+    pub newton_fallback_steps: usize,
+    pub slack_restarts: usize,
     pub seconds: f64,
 }
 
@@ -431,7 +456,7 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                     if load_control { "" } else { " or a smaller arc" }
                 ),
                 Termination::Diverged => {
-                    "take smaller steps, or use method = \"newton\", which refactors the tangent every iteration".into()
+                    "take smaller steps (a quasi-Newton corrector has already finished the step with Newton iterations before giving up)".into()
                 }
                 Termination::ConstraintFailed | Termination::Jumped => {
                     "try a smaller arc, or arc_variant = \"normal-plane\"".into()
@@ -572,9 +597,22 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             watched: p.watched.iter().map(|v| len(*v)).collect(),
             residual_history: p.record.residual_history.clone(),
             refactored_at: p.record.refactored_at.clone(),
+            quasi_newton_iterations: p.record.iterations - p.record.newton_iterations,
+            newton_iterations: p.record.newton_iterations,
+            escalation: p.record.escalation(),
+            corrector_events: p
+                .record
+                .events
+                .iter()
+                .map(|e| CorrectorEventOut { iteration: e.iteration, event: e.kind.name() })
+                .collect(),
         })
         .collect();
 
+    let newton_iterations = steps.iter().map(|s| s.newton_iterations).sum();
+    let newton_fallback_steps = steps.iter().filter(|s| s.escalation == "newton").count();
+    let slack_restarts =
+        path.points.iter().map(|p| p.record.count(crate::solve::CorrectorEventKind::SlackRestart)).sum();
     let st = &path.final_state;
     let mut reactions = Vec::new();
     let mut react_sum = [0.0; 3];
@@ -742,6 +780,9 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
             residual_evaluations: residual_evaluations + wasted.residual_evaluations,
             cutbacks: path.n_cutbacks,
             wasted_iterations: wasted.iterations,
+            newton_iterations,
+            newton_fallback_steps,
+            slack_restarts,
             seconds,
         },
     }

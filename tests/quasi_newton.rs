@@ -97,8 +97,9 @@ fn broyden_good_terminates_within_2n_on_linear_system() {
 /// in one step from rest to 90 % of its limit load: the tangent at rest is a
 /// stale K₀ for the softened solution. With the divergence guard (stall ratio
 /// 0.5), modified
-/// Newton refactors within the step and converges; with the guard off it
-/// cannot converge in the allowed iterations (common practice, no source).
+/// Newton refactors within the step and converges; with the guard off and
+/// no Newton fallback it cannot converge in the allowed iterations (common
+/// practice, no source); with the fallback, Newton finishes the step.
 #[test]
 fn divergence_guard_refactors_a_stale_tangent() {
     let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/models/roof_arch.toml")).unwrap();
@@ -114,7 +115,7 @@ fn divergence_guard_refactors_a_stale_tangent() {
         // asking for a fall to half each iteration refactors.
         a.stall_ratio = if guard { 0.5 } else { 1.0e9 };
         a.refactor_after = 1000;
-        trace(m, Method::ModifiedNewton)
+        trace_with(m, Method::ModifiedNewton, |c| c.newton_fallback = guard)
     };
     let guarded = base(true);
     assert_eq!(guarded.path.stop, StopReason::TargetReached);
@@ -122,6 +123,15 @@ fn divergence_guard_refactors_a_stale_tangent() {
     assert!(rec.refactored_at.iter().any(|&i| i > 0), "no refactorization within the step: {:?}", rec.refactored_at);
     let unguarded = base(false);
     assert_eq!(unguarded.path.stop, StopReason::NoConvergence);
+    let mut m = tautline::model::load_str(&text, "roof_arch.toml", None).unwrap();
+    let a = &mut m.analysis;
+    (a.control, a.steps, a.target, a.max_cutbacks, a.max_iterations) =
+        (tautline::model::Control::Load, 1, 0.9 * 3.7894625, 0, 40);
+    a.stall_ratio = 1.0e9;
+    a.refactor_after = 1000;
+    let rescued = trace(m, Method::ModifiedNewton);
+    assert_eq!(rescued.path.stop, StopReason::TargetReached);
+    assert!(rescued.path.points[1].record.newton_iterations > 0);
 }
 
 /// The optional displacement and energy criteria are read from `[analysis]`
@@ -188,3 +198,122 @@ fn secant_predictor_changes_the_start_not_the_answer() {
         }
     }
 }
+
+/// The hard 20 × 20 saddle net: 500 N on every free node over the 20 m ×
+/// 20 m plan (the generator's per-node load, set explicitly), heavy enough
+/// that edge cables go slack. Tolerance 1e-8.
+fn hard_net(steps: usize) -> tautline::model::Model {
+    use tautline::generate::{NetOptions, saddle_net};
+    let g = saddle_net(&NetOptions { nx: 20, ny: 20, load: 500.0, ..NetOptions::default() }, "hard").expect("net");
+    let mut m = model(&g.toml);
+    m.analysis.steps = steps;
+    m.analysis.tolerance = 1e-8;
+    m
+}
+
+/// Traces with a corrector configuration changed by `edit`.
+fn trace_with(m: tautline::model::Model, method: Method, edit: impl Fn(&mut tautline::solve::CorrectorConfig)) -> Run {
+    use tautline::assembly::System;
+    use tautline::path::Tracer;
+    use tautline::solve::{CorrectorConfig, Workspace};
+    let mut m = m;
+    m.analysis.method = method;
+    let system = System::new(&m).expect("system builds");
+    let mut corrector = CorrectorConfig::from_analysis(&m.analysis);
+    edit(&mut corrector);
+    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).expect("symbolic analysis");
+    let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(&system, m.n_nodes(), h);
+    let mut tracer = Tracer::new(&system, &m, corrector);
+    let path = tracer.run(&mut ws, &mut tautline::observe::Silent);
+    let wasted = tracer.wasted.clone();
+    Run { model: m, system, path, wasted }
+}
+
+/// Largest displacement difference between two runs, relative to the
+/// largest displacement of the second.
+fn max_rel_diff(a: &Run, b: &Run) -> f64 {
+    let scale = b.path.final_state.u.iter().fold(0.0f64, |s, v| s.max(v.abs()));
+    let du = a.path.final_state.u.iter().zip(&b.path.final_state.u).fold(0.0f64, |s, (x, y)| s.max((x - y).abs()));
+    du / scale
+}
+
+/// Issue 14: on a net where cables go slack, every corrector reaches λ = 1
+/// (a quasi-Newton run must not stop where Newton, with the same steps,
+/// reaches the target), with the same equilibrium to 1e-6. The equilibrium
+/// is unique for given loads on a net of tension-only cables held at fixed
+/// edges (common practice, no source), so the answers must agree.
+#[test]
+fn every_corrector_reaches_the_target_on_a_hard_net() {
+    let newton = trace(hard_net(10), Method::Newton);
+    assert_eq!(newton.path.stop, StopReason::TargetReached);
+    assert!(!newton.path.final_state.u.is_empty());
+    let slack = newton.system.slack_members(&newton.path.final_state.u);
+    assert!(!slack.is_empty(), "the hard net should have slack cables at λ = 1");
+    for method in [Method::ModifiedNewton, Method::Broyden, Method::BroydenBad, Method::Bfgs] {
+        let run = trace(hard_net(10), method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        assert_eq!(run.path.final_state.lambda, 1.0, "{method:?}");
+        let d = max_rel_diff(&run, &newton);
+        assert!(d < 1e-6, "{method:?}: displacements differ from Newton's by {d:e} of the largest");
+        // The record adds up: every iteration is either quasi-Newton or Newton.
+        for p in &run.path.points {
+            assert!(p.record.newton_iterations <= p.record.iterations);
+        }
+    }
+}
+
+/// Issue 14, item 2: with the hard net in five load steps, the slack set
+/// changes between quasi-Newton iterations and the stored pairs are dropped
+/// (a `SlackRestart` event recorded); with the restart switched off, none is
+/// recorded, and both reach the same answer as Newton.
+#[test]
+fn a_slack_change_restarts_the_quasi_newton_memory() {
+    use tautline::solve::{CorrectorEventKind, SlackPolicy};
+    let newton = trace(hard_net(5), Method::Newton);
+    assert_eq!(newton.path.stop, StopReason::TargetReached);
+    for method in [Method::Broyden, Method::Bfgs] {
+        let on = trace(hard_net(5), method);
+        assert_eq!(on.path.stop, StopReason::TargetReached, "{method:?}");
+        let restarts: usize = on.path.points.iter().map(|p| p.record.count(CorrectorEventKind::SlackRestart)).sum();
+        assert!(restarts > 0, "{method:?}: no slack restart recorded");
+        assert!(max_rel_diff(&on, &newton) < 1e-6, "{method:?}");
+        let off = trace_with(hard_net(5), method, |c| c.refactor.slack = SlackPolicy::IGNORE);
+        let none: usize = off.path.points.iter().map(|p| p.record.count(CorrectorEventKind::SlackRestart)).sum();
+        assert_eq!(none, 0, "{method:?}");
+        assert_eq!(off.path.stop, StopReason::TargetReached, "{method:?}");
+        assert!(max_rel_diff(&off, &newton) < 1e-6, "{method:?}");
+    }
+}
+
+/// Issue 14, item 1: the hard net in one load step with no cut-backs and a
+/// budget of 12 iterations, in which Newton converges. The quasi-Newton
+/// iterations alone (refactoring on every stall, the behaviour before the
+/// fallback) do not converge within it; with the escalation the step is
+/// finished by Newton iterations with a budget of their own (a
+/// `NewtonFallback` event, Newton iterations counted) and reaches Newton's
+/// answer.
+#[test]
+fn newton_fallback_rescues_a_step_quasi_newton_fails() {
+    use tautline::solve::CorrectorEventKind;
+    let one_step = || {
+        let mut m = hard_net(1);
+        m.analysis.max_cutbacks = 0;
+        m.analysis.max_iterations = 12;
+        m
+    };
+    let newton = trace(one_step(), Method::Newton);
+    assert_eq!(newton.path.stop, StopReason::TargetReached);
+    for method in [Method::ModifiedNewton, Method::Broyden, Method::BroydenBad, Method::Bfgs] {
+        let alone = trace_with(one_step(), method, |c| c.newton_fallback = false);
+        assert_eq!(alone.path.stop, StopReason::NoConvergence, "{method:?} converged without the fallback");
+        let run = trace(one_step(), method);
+        assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
+        let rec = &run.path.points[1].record;
+        assert_eq!(rec.count(CorrectorEventKind::NewtonFallback), 1, "{method:?}: {:?}", rec.events);
+        assert_eq!(rec.escalation(), "newton");
+        assert!(rec.newton_iterations > 0 && rec.newton_iterations < rec.iterations, "{method:?}");
+        assert!(max_rel_diff(&run, &newton) < 1e-6, "{method:?}");
+    }
+}
+

@@ -52,6 +52,8 @@ struct MemberBuffers {
     dof_sums: Vec<[f64; 2]>,
     /// Per chunk of node directions: Σ reaction².
     raw_sums: Vec<f64>,
+    /// Per chunk of members: slack count and key (see [`ResidualNorms`]).
+    slack_sums: Vec<(u32, u64)>,
 }
 
 impl MemberBuffers {
@@ -61,8 +63,20 @@ impl MemberBuffers {
             k: vec![[0.0; 6]; n_members],
             dof_sums: vec![[0.0; 2]; n_free.div_ceil(DOF_CHUNK)],
             raw_sums: vec![0.0; n_raw.div_ceil(DOF_CHUNK)],
+            slack_sums: vec![(0, 0); n_members.div_ceil(MEMBER_CHUNK)],
         }
     }
+}
+
+/// A well-mixed 64-bit value of a member index (the splitmix64 finalizer,
+/// Steele, Lea & Flood 2014), summed over the slack members into an
+/// order-independent key of the slack set.
+#[inline]
+fn slack_mix(m: usize) -> u64 {
+    let mut z = (m as u64).wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
 }
 
 /// The member buffers behind a lock, so assembly can keep `&self`; a clone of
@@ -80,6 +94,7 @@ impl Clone for Scratch {
             k: vec![[0.0; 6]; b.k.len()],
             dof_sums: vec![[0.0; 2]; b.dof_sums.len()],
             raw_sums: vec![0.0; b.raw_sums.len()],
+            slack_sums: vec![(0, 0); b.slack_sums.len()],
         }))
     }
 }
@@ -133,6 +148,13 @@ pub struct ResidualNorms {
     pub residual: f64,
     /// ‖λ·f_ref‖ + ‖reactions‖: the force level the residual is judged against.
     pub force_scale: f64,
+    /// Number of slack members at u, counted in the same pass.
+    pub slack: u32,
+    /// Order-independent key of the slack set (wrapping sum of a mix of the
+    /// slack members' indices): equal sets give equal keys; a different set
+    /// gives a different key except with probability about 2⁻⁶⁴. The
+    /// quasi-Newton correctors compare it between iterations (`solve`).
+    pub slack_key: u64,
 }
 
 #[derive(Clone, Debug)]
@@ -394,13 +416,20 @@ impl System {
         debug_assert_eq!(u.len(), self.n_free());
         debug_assert_eq!(reactions.len(), self.dofs.raw().len());
         let mut guard = self.scratch.0.lock().unwrap_or_else(PoisonError::into_inner);
-        let MemberBuffers { f: member_f, k: member_k, dof_sums, raw_sums } = &mut *guard;
+        let MemberBuffers { f: member_f, k: member_k, dof_sums, raw_sums, slack_sums } = &mut *guard;
         let with_k = k_values.is_some();
-        // Pass 1: each member's end force and tangent block, independently.
-        member_f.par_chunks_mut(MEMBER_CHUNK).zip(member_k.par_chunks_mut(MEMBER_CHUNK)).enumerate().for_each(
-            |(c, (fs, ks))| {
+        // Pass 1: each member's end force and tangent block, independently,
+        // and per chunk the slack count and key.
+        member_f.par_chunks_mut(MEMBER_CHUNK).zip(member_k.par_chunks_mut(MEMBER_CHUNK)).zip(slack_sums.par_iter_mut()).enumerate().for_each(
+            |(c, ((fs, ks), slack_sum))| {
+                let (mut count, mut key) = (0u32, 0u64);
                 for (l, (f, k)) in fs.iter_mut().zip(ks.iter_mut()).enumerate() {
-                    let st = self.member_state(u, c * MEMBER_CHUNK + l);
+                    let m = c * MEMBER_CHUNK + l;
+                    let st = self.member_state(u, m);
+                    if st.slack {
+                        count += 1;
+                        key = key.wrapping_add(slack_mix(m));
+                    }
                     *f = st.f;
                     if with_k {
                         for a in 0..3 {
@@ -410,6 +439,7 @@ impl System {
                         }
                     }
                 }
+                *slack_sum = (count, key);
             },
         );
         // Pass 2a: node forces, summed in member order, into the per-node
@@ -471,8 +501,10 @@ impl System {
         let residual = dof_sums.iter().map(|s| s[0]).sum::<f64>().sqrt();
         let load2 = dof_sums.iter().map(|s| s[1]).sum::<f64>();
         let react = raw_sums.iter().sum::<f64>().sqrt();
+        let (slack, slack_key) =
+            slack_sums.iter().fold((0u32, 0u64), |(n, k), &(cn, ck)| (n + cn, k.wrapping_add(ck)));
         drop(guard);
-        ResidualNorms { residual, force_scale: load2.sqrt() + react }
+        ResidualNorms { residual, force_scale: load2.sqrt() + react, slack, slack_key }
     }
 
     /// Bytes of the system's index and member arrays: the pattern with its
@@ -501,7 +533,15 @@ impl System {
 
     /// Indices of the members that carry no tension at `u` (slack cables).
     pub fn slack_members(&self, u: &[f64]) -> Vec<u32> {
-        (0..self.members.len()).filter(|&m| self.member_state(u, m).slack).map(|m| m as u32).collect()
+        let mut out = Vec::new();
+        self.slack_members_into(u, &mut out);
+        out
+    }
+
+    /// [`Self::slack_members`] into a reused vector (cleared first).
+    pub fn slack_members_into(&self, u: &[f64], out: &mut Vec<u32>) {
+        out.clear();
+        out.extend((0..self.members.len()).filter(|&m| self.member_state(u, m).slack).map(|m| m as u32));
     }
 
     /// Force each spring exerts on the structure, N (−k·u), with its node DOF.

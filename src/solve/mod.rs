@@ -38,14 +38,49 @@ pub struct RefactorPolicy {
     pub at_step_start: bool,
     /// Refactor after this many stored quasi-Newton updates (memory bound).
     pub max_updates: usize,
-    /// Refactor when ‖r_new‖ > ratio·‖r_old‖ (divergence guard).
+    /// A quasi-Newton iteration stalls when ‖r_new‖ > ratio·‖r_old‖: the
+    /// first stall refactors, a second one without a decade of progress
+    /// since then escalates to Newton (see [`drive`]).
     pub stall_ratio: f64,
+    /// What a change of the slack set does to the quasi-Newton memory.
+    pub slack: SlackPolicy,
 }
 
 impl Default for RefactorPolicy {
     fn default() -> Self {
-        RefactorPolicy { at_step_start: true, max_updates: 20, stall_ratio: 0.9 }
+        RefactorPolicy { at_step_start: true, max_updates: 20, stall_ratio: 0.9, slack: SlackPolicy::DEFAULT }
     }
+}
+
+/// Slack-aware quasi-Newton: a cable that goes slack (or taut again) between
+/// two iterations is a kink in f_int(u), so a secant pair taken across it
+/// mixes two tangents, and the pairs stored before it describe a tangent the
+/// structure no longer has. So the stored pairs are dropped and the pair
+/// across the change is not stored: the restart of the secant memory on a
+/// change of the active set that secant methods for contact and tension-only
+/// members use (common practice, from memory; no source checked).
+/// A change is found cheaply: the residual pass counts the slack members and
+/// sums an order-independent key of the set (`assembly::system`).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SlackPolicy {
+    /// Drop the stored pairs when the slack set changes between iterations.
+    pub restart: bool,
+    /// Refactor when more than this many members have changed state since
+    /// the factorization of K₀ (usize::MAX: never for this reason). A member
+    /// going slack removes a rank-1 material block and a rank-2 geometric one
+    /// from K, which the pair memory must learn one rank-1 correction per
+    /// iteration. Off by default: measured (README "Correctors") it cost
+    /// factorizations (a net whose slack set oscillates refactors nearly
+    /// every iteration) and saved none.
+    pub refactor_members: usize,
+}
+
+impl SlackPolicy {
+    /// Restart on any change, no refactorization for slack changes
+    /// (measured on generated nets, README).
+    pub const DEFAULT: SlackPolicy = SlackPolicy { restart: true, refactor_members: usize::MAX };
+    /// The memory ignores slack changes (the behaviour before issue 14).
+    pub const IGNORE: SlackPolicy = SlackPolicy { restart: false, refactor_members: usize::MAX };
 }
 
 /// Energy line search: along the correction δu, make the residual nearly
@@ -79,6 +114,10 @@ pub struct CorrectorConfig {
     pub energy_tolerance: Option<f64>,
     pub refactor: RefactorPolicy,
     pub line_search: LineSearch,
+    /// A quasi-Newton corrector that stalls again after refactoring finishes
+    /// the step with Newton iterations (see [`drive`]); off only to show
+    /// what the quasi-Newton iterations alone would do.
+    pub newton_fallback: bool,
 }
 
 impl CorrectorConfig {
@@ -89,6 +128,7 @@ impl CorrectorConfig {
             at_step_start: a.refactor_each_step,
             max_updates: a.refactor_after,
             stall_ratio: a.stall_ratio,
+            slack: SlackPolicy::DEFAULT,
         };
         if let Some(trials) = a.line_search {
             c.line_search.max_trials = trials;
@@ -113,6 +153,7 @@ impl CorrectorConfig {
             energy_tolerance: None,
             refactor: RefactorPolicy::default(),
             line_search,
+            newton_fallback: true,
         }
     }
 }
@@ -163,10 +204,50 @@ pub enum Termination {
     Jumped,
 }
 
+/// What happened in a corrector run besides plain iterations.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum CorrectorEventKind {
+    /// A quasi-Newton iteration stalled or diverged: K refactored.
+    StallRefactor,
+    /// The quasi-Newton corrector stalled again (or ran out of its budget, or
+    /// its constraint failed): the step goes on with full Newton iterations.
+    NewtonFallback,
+    /// The Newton fallback started again from the step's predictor, the
+    /// quasi-Newton iterations having ended further from equilibrium.
+    NewtonFromPredictor,
+    /// The slack set changed: the stored secant pairs were dropped.
+    SlackRestart,
+    /// The slack set moved far from K₀'s: K refactored.
+    SlackRefactor,
+}
+
+impl CorrectorEventKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            CorrectorEventKind::StallRefactor => "stall-refactor",
+            CorrectorEventKind::NewtonFallback => "newton-fallback",
+            CorrectorEventKind::NewtonFromPredictor => "newton-from-predictor",
+            CorrectorEventKind::SlackRestart => "slack-restart",
+            CorrectorEventKind::SlackRefactor => "slack-refactor",
+        }
+    }
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct CorrectorEvent {
+    /// Iterations done before the event (0-based, as `refactored_at`).
+    pub iteration: usize,
+    pub kind: CorrectorEventKind,
+}
+
 /// The record of one corrector run.
 #[derive(Clone, Debug, Default)]
 pub struct StepRecord {
     pub iterations: usize,
+    /// Of `iterations`, those made with a tangent factorized at their own
+    /// start: all of a Newton run's, and the Newton fallback's of a
+    /// quasi-Newton run. The others are quasi-Newton iterations.
+    pub newton_iterations: usize,
     pub factorizations: usize,
     pub residual_evaluations: usize,
     pub line_search_trials: usize,
@@ -174,6 +255,30 @@ pub struct StepRecord {
     pub residual_history: Vec<f64>,
     /// Iterations (0-based, into `residual_history`) at which K was refactored.
     pub refactored_at: Vec<usize>,
+    /// Stalls, escalation and slack restarts, in order.
+    pub events: Vec<CorrectorEvent>,
+}
+
+impl StepRecord {
+    pub fn count(&self, kind: CorrectorEventKind) -> usize {
+        self.events.iter().filter(|e| e.kind == kind).count()
+    }
+
+    /// How far the escalation went: "none", "refactored" (a stall was
+    /// answered by refactoring) or "newton" (the step finished with Newton).
+    pub fn escalation(&self) -> &'static str {
+        if self.count(CorrectorEventKind::NewtonFallback) > 0 {
+            "newton"
+        } else if self.count(CorrectorEventKind::StallRefactor) > 0 {
+            "refactored"
+        } else {
+            "none"
+        }
+    }
+
+    fn event(&mut self, kind: CorrectorEventKind) {
+        self.events.push(CorrectorEvent { iteration: self.iterations, kind });
+    }
 }
 
 /// The equilibrium unknowns and what comes with them.
@@ -200,7 +305,7 @@ impl State {
 }
 
 /// Buffers reused across iterations and steps: nothing is allocated per
-/// iteration except the quasi-Newton pairs.
+/// iteration (pair slots are allocated once, the slack sets only grow).
 pub struct Workspace {
     pub k_values: Vec<f64>,
     pub h: InverseTangent,
@@ -210,6 +315,19 @@ pub struct Workspace {
     trial_r: Vec<f64>,
     trial_reactions: Vec<f64>,
     r_prev: Vec<f64>,
+    /// The secant pair s, y and H·y.
+    s: Vec<f64>,
+    y: Vec<f64>,
+    hy: Vec<f64>,
+    /// The step's predictor, where a Newton fallback may start again.
+    pred_u: Vec<f64>,
+    /// Slack set (ascending member indices) and key at the factorization of K₀.
+    k0_slack: Vec<u32>,
+    k0_slack_key: u64,
+    /// Slack set at the current state (filled only when its key changed).
+    slack_now: Vec<u32>,
+    /// Slack key of the state the stored pairs were last taken at.
+    memory_key: u64,
     /// The factor in `h` is of the tangent at the last converged state, so a
     /// new step may start from it without refactoring.
     pub fresh: bool,
@@ -227,6 +345,14 @@ impl Workspace {
             trial_r: vec![0.0; n],
             trial_reactions: vec![0.0; 3 * n_nodes],
             r_prev: vec![0.0; n],
+            s: vec![0.0; n],
+            y: vec![0.0; n],
+            hy: vec![0.0; n],
+            pred_u: vec![0.0; n],
+            k0_slack: Vec::new(),
+            k0_slack_key: 0,
+            slack_now: Vec::new(),
+            memory_key: 0,
             fresh: false,
         }
     }
@@ -241,31 +367,89 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
 }
 
+/// Number of members in exactly one of two ascending index lists.
+fn symmetric_difference(a: &[u32], b: &[u32]) -> usize {
+    let (mut i, mut j, mut n) = (0, 0, 0);
+    while i < a.len() && j < b.len() {
+        match a[i].cmp(&b[j]) {
+            std::cmp::Ordering::Less => {
+                n += 1;
+                i += 1;
+            }
+            std::cmp::Ordering::Greater => {
+                n += 1;
+                j += 1;
+            }
+            std::cmp::Ordering::Equal => {
+                i += 1;
+                j += 1;
+            }
+        }
+    }
+    n + (a.len() - i) + (b.len() - j)
+}
+
 /// Residual at u + α·δu, λ + α·δλ into the workspace's trial buffers;
-/// returns the relative residual.
-fn trial_residual(system: &System, ws: &mut Workspace, state: &State, alpha: f64, dl: f64) -> f64 {
+/// returns the relative residual and the slack key there.
+fn trial_residual(system: &System, ws: &mut Workspace, state: &State, alpha: f64, dl: f64) -> (f64, u64) {
     for ((t, u), d) in ws.trial_u.iter_mut().zip(&state.u).zip(&ws.du_r) {
         *t = u + alpha * d;
     }
     let norms = system.residual(&ws.trial_u, state.lambda + alpha * dl, &mut ws.trial_r, &mut ws.trial_reactions);
-    relative(system, norms)
+    (relative(system, norms), norms.slack_key)
 }
 
 /// Evaluates residual and tangent at `state` and factorizes; returns the
-/// zero-pivot DOFs if the tangent is singular.
+/// zero-pivot DOFs if the tangent is singular. For the quasi-Newton
+/// correctors the slack set at K₀ is kept (slack-aware restarts).
 pub fn refactor_at(system: &System, ws: &mut Workspace, state: &mut State, rec: &mut StepRecord) -> Option<Vec<usize>> {
     let norms = system.residual_and_tangent(&state.u, state.lambda, &mut state.r, &mut state.reactions, &mut ws.k_values);
     state.relative_residual = relative(system, norms);
     rec.residual_evaluations += 1;
     rec.factorizations += 1;
     rec.refactored_at.push(rec.iterations);
+    ws.k0_slack_key = norms.slack_key;
+    ws.memory_key = norms.slack_key;
+    if ws.h.method != Method::Newton && norms.slack > 0 {
+        system.slack_members_into(&state.u, &mut ws.k0_slack);
+    } else {
+        ws.k0_slack.clear();
+    }
     let inertia = ws.h.refactor(&system.pattern, &ws.k_values);
     inertia.is_singular().then(|| inertia.zero_dofs.clone())
 }
 
+/// A quasi-Newton stall that comes within this factor of the residual at
+/// which the previous stall was answered by a refactorization means the
+/// refactorization did not buy a decade of progress: the step escalates to
+/// Newton instead of refactoring again (common practice, no source: one
+/// Newton iteration costs one factorization, the same as a refresh, and
+/// converges quadratically where the quasi-Newton cycle did not).
+const REFRESH_GAIN: f64 = 0.1;
+
+/// A quasi-Newton residual this many times the predictor's (or not finite)
+/// is divergence: the step escalates to Newton at once, from the predictor.
+const QN_DIVERGENCE: f64 = 1e3;
+
 /// Corrector iterations from `state` (already holding the predictor) until
 /// equilibrium with the constraint. `step_start_u`/`step_start_lambda` are the
 /// last converged state, from which the constraint measures the increments.
+///
+/// Escalation of the quasi-Newton correctors (modified Newton, Broyden,
+/// BFGS), before the caller cuts the step back:
+/// 1. an iteration *stalls* when ‖r_new‖ > `stall_ratio`·‖r_old‖; the
+///    first stall refactors K at the current state (`StallRefactor`);
+/// 2. a later stall refactors again only if the residual has fallen by
+///    [`REFRESH_GAIN`] (a decade) since the previous stall-refactor;
+///    otherwise, or when the quasi-Newton iterations *diverge* (residual
+///    [`QN_DIVERGENCE`] times the predictor's, or not finite), use up their
+///    `max_iterations`, or the path constraint has no solution, the step
+///    goes on with full Newton iterations (`NewtonFallback`, a fresh tangent
+///    every iteration, the line search kept), from the current state or,
+///    if that is worse than the predictor, from the predictor
+///    (`NewtonFromPredictor`);
+/// 3. the Newton fallback has a budget of `max_iterations` of its own; only
+///    if it fails too does the run return a failure.
 #[allow(clippy::too_many_arguments)]
 pub fn drive(
     system: &System,
@@ -278,8 +462,12 @@ pub fn drive(
     step: usize,
     observer: &mut dyn Observer,
 ) -> (Termination, StepRecord) {
+    use CorrectorEventKind as Ev;
     let mut rec = StepRecord::default();
-    let newton = config.method == Method::Newton;
+    let quasi = config.method != Method::Newton;
+    // Full Newton iterations: a Newton run, or a quasi-Newton run escalated.
+    let mut newton = !quasi;
+    let slack = config.refactor.slack;
     let mut delta_u: Vec<f64> = state.u.iter().zip(step_start_u).map(|(a, b)| a - b).collect();
     let mut energy_scale: Option<f64> = None;
     // The tangent at the last converged state is the step-start tangent.
@@ -289,16 +477,66 @@ pub fn drive(
         let norms = system.residual(&state.u, state.lambda, &mut state.r, &mut state.reactions);
         state.relative_residual = relative(system, norms);
         rec.residual_evaluations += 1;
+        // Pairs carried over from the last step were taken at another slack set.
+        if quasi && slack.restart && norms.slack_key != ws.memory_key && ws.h.n_pairs() > 0 {
+            ws.h.restart();
+            rec.event(Ev::SlackRestart);
+        }
+        ws.memory_key = norms.slack_key;
     }
+    ws.pred_u.copy_from_slice(&state.u);
+    let pred_lambda = state.lambda;
+    let mut pred_residual = f64::NAN; // set once the first residual is known
+    // Iterations done when the current stage (quasi-Newton, Newton) began.
+    let mut stage_start = 0;
+    // Residual at the last stall-refactor.
+    let mut refreshed_at: Option<f64> = None;
+    // A Broyden pair waiting for H·r_{k+1}: (α, δλ) of its step; s in ws.s,
+    // y is formed from ws.r_prev.
+    let mut pending: Option<(f64, f64)> = None;
+    // ws.du_f holds H·f_ref for the current H.
+    let mut du_f_valid = false;
+    // Set when the quasi-Newton iterations give up: the failure to report
+    // if the Newton fallback is switched off.
+    let mut escalate: Option<Termination> = None;
     loop {
+        if let Some(term) = escalate.take() {
+            if !config.newton_fallback {
+                rec.residual_history.push(state.relative_residual);
+                return (term, rec);
+            }
+            newton = true;
+            stage_start = rec.iterations;
+            pending = None;
+            rec.event(Ev::NewtonFallback);
+            if state.relative_residual.is_nan() || state.relative_residual > pred_residual {
+                state.u.copy_from_slice(&ws.pred_u);
+                state.lambda = pred_lambda;
+                for ((d, u), u0) in delta_u.iter_mut().zip(&state.u).zip(step_start_u) {
+                    *d = u - u0;
+                }
+                energy_scale = None;
+                rec.event(Ev::NewtonFromPredictor);
+            }
+            need_factor = true;
+        }
         if need_factor {
             if let Some(dofs) = refactor_at(system, ws, state, &mut rec) {
                 rec.residual_history.push(state.relative_residual);
                 return (Termination::SingularTangent { dofs }, rec);
             }
             need_factor = false;
+            pending = None;
+            du_f_valid = false;
+        }
+        if pred_residual.is_nan() {
+            pred_residual = state.relative_residual;
         }
         if !state.relative_residual.is_finite() {
+            if !newton {
+                escalate = Some(Termination::Diverged);
+                continue;
+            }
             return (Termination::Diverged, rec);
         }
         rec.residual_history.push(state.relative_residual);
@@ -307,18 +545,50 @@ pub fn drive(
         if rec.iterations == 0 && state.relative_residual <= config.tolerance {
             return (Termination::Converged, rec);
         }
-        if rec.iterations >= config.max_iterations {
+        if rec.iterations - stage_start >= config.max_iterations {
+            if !newton {
+                rec.residual_history.pop();
+                escalate = Some(Termination::MaxIterations);
+                continue;
+            }
             return (Termination::MaxIterations, rec);
         }
 
         // δu_r = −H r, δu_f = H f_ref.
         ws.du_r.iter_mut().zip(&state.r).for_each(|(d, r)| *d = -r);
         ws.h.apply(&mut ws.du_r);
-        if constraint.needs_load_direction() {
+        if let Some((alpha, dl)) = pending.take() {
+            // The Broyden update of the last iteration, now that
+            // H·r_{k+1} = −du_r is known (see `inverse`):
+            // H·y = H·r_{k+1} + s/α + (α − 1)·δλ·H·f_ref.
+            for (((hy, du), s), df) in ws.hy.iter_mut().zip(&ws.du_r).zip(&ws.s).zip(&ws.du_f) {
+                *hy = -du + s / alpha + if dl != 0.0 { (alpha - 1.0) * dl * df } else { 0.0 };
+            }
+            for (((y, rn), ro), f) in ws.y.iter_mut().zip(&state.r).zip(&ws.r_prev).zip(&system.f_ref) {
+                *y = rn - ro + alpha * dl * f;
+            }
+            if ws.h.update_with(&ws.s, &ws.y, &ws.hy) {
+                // Fold the new pair into the products already formed.
+                ws.r_prev.iter_mut().zip(&state.r).for_each(|(p, r)| *p = -r);
+                ws.h.extend(&ws.r_prev, &mut ws.du_r);
+                if du_f_valid {
+                    ws.h.extend(&system.f_ref, &mut ws.du_f);
+                }
+            }
+        }
+        if constraint.needs_load_direction() && !du_f_valid {
             ws.du_f.copy_from_slice(&system.f_ref);
             ws.h.apply(&mut ws.du_f);
+            // H is fixed between refactorizations for modified Newton and
+            // Newton and extended in place for Broyden; BFGS recomputes.
+            du_f_valid = ws.h.method != Method::Bfgs || ws.h.n_pairs() == 0;
         }
         let Some(dl) = constraint.load_correction(&ws.du_r, &ws.du_f, &delta_u, state.lambda - step_start_lambda) else {
+            if !newton {
+                rec.residual_history.pop();
+                escalate = Some(Termination::ConstraintFailed);
+                continue;
+            }
             return (Termination::ConstraintFailed, rec);
         };
         if dl != 0.0 {
@@ -335,22 +605,27 @@ pub fn drive(
         // and the trial with the smallest |g| is kept. Where g(0) ≥ 0 the
         // direction does not lower the energy (an unstable state) and the
         // full step is taken.
+        // The Newton fallback takes Newton's own full steps, as a Newton run
+        // does: on slack cable nets the energy line search was measured to
+        // hold Newton to steps of α ≈ 0.1–0.4 and out of its quadratic
+        // convergence (183 × 183 net, README), where full steps converge.
+        let line_search = if newton { CorrectorConfig::for_method(Method::Newton, 0.0, 0).line_search } else { config.line_search };
         ws.r_prev.copy_from_slice(&state.r);
         let g0 = dot(&ws.du_r, &state.r);
         let mut alpha = 1.0;
         let mut trials = 0;
-        let mut best: Option<(f64, f64, f64)> = None; // (α, |g|, relative residual)
+        let mut best: Option<(f64, f64, f64, u64)> = None; // (α, |g|, relative residual, slack key)
         let mut prev = (0.0, g0);
         loop {
-            let rel = trial_residual(system, ws, state, alpha, dl);
+            let (rel, key) = trial_residual(system, ws, state, alpha, dl);
             rec.residual_evaluations += 1;
             let g = dot(&ws.du_r, &ws.trial_r);
-            if rel.is_finite() && best.is_none_or(|(_, bg, _)| g.abs() < bg) {
-                best = Some((alpha, g.abs(), rel));
+            if rel.is_finite() && best.is_none_or(|(_, bg, _, _)| g.abs() < bg) {
+                best = Some((alpha, g.abs(), rel, key));
             }
-            let searching = config.line_search.max_trials > 0 && g0 < 0.0 && state.relative_residual > config.tolerance;
-            let good = rel.is_finite() && g.abs() <= config.line_search.energy_ratio * g0.abs();
-            if !searching || good || trials >= config.line_search.max_trials {
+            let searching = line_search.max_trials > 0 && g0 < 0.0 && state.relative_residual > config.tolerance;
+            let good = rel.is_finite() && g.abs() <= line_search.energy_ratio * g0.abs();
+            if !searching || good || trials >= line_search.max_trials {
                 if !rel.is_finite() && best.is_none() && alpha > 1e-3 && trials < 8 {
                     // Overflow: shorten until the residual is finite.
                     alpha *= 0.25;
@@ -367,7 +642,12 @@ pub fn drive(
             alpha = if next.is_finite() { next.clamp(0.1, 2.0) } else { 0.5 * alpha };
         }
         rec.line_search_trials += trials;
-        let Some((alpha_best, _, rel_best)) = best else {
+        let Some((alpha_best, _, rel_best, key)) = best else {
+            if !newton {
+                rec.residual_history.pop();
+                escalate = Some(Termination::Diverged);
+                continue;
+            }
             return (Termination::Diverged, rec);
         };
         if alpha_best != alpha {
@@ -389,6 +669,10 @@ pub fn drive(
         let previous = state.relative_residual;
         state.relative_residual = rel_best;
         rec.iterations += 1;
+        if newton {
+            rec.newton_iterations += 1;
+        }
+        let converged_residual = state.relative_residual <= config.tolerance;
 
         let disp_ok = match config.displacement_tolerance {
             Some(tol) => step_norm <= tol * delta_u.iter().map(|v| v * v).sum::<f64>().sqrt().max(f64::MIN_POSITIVE),
@@ -402,24 +686,68 @@ pub fn drive(
             None => true,
         };
 
-        // Secant pair: s = α·δu, y = Δf_int = Δr + Δλ·f_ref.
         if newton {
             need_factor = true;
-        } else if ws.h.updates() && state.relative_residual > config.tolerance {
-            let s: Vec<f64> = ws.du_r.iter().map(|d| alpha * d).collect();
-            let y: Vec<f64> = state
-                .r
-                .iter()
-                .zip(&ws.r_prev)
-                .zip(&system.f_ref)
-                .map(|((rn, ro), f)| rn - ro + lambda_change * f)
-                .collect();
-            ws.h.update(&s, &y);
-        }
-        if !newton {
+        } else {
+            // Slack-aware memory: a changed slack set makes the stored pairs
+            // (and the pair across the change) describe another tangent.
+            let slack_changed = key != ws.memory_key;
+            if slack_changed && slack.restart && (ws.h.n_pairs() > 0 || pending.is_some()) {
+                ws.h.restart();
+                pending = None;
+                du_f_valid = false;
+                rec.event(Ev::SlackRestart);
+            }
+            if slack_changed {
+                ws.memory_key = key;
+            }
+            let mut far_from_k0 = false;
+            if slack_changed && slack.refactor_members != usize::MAX && key != ws.k0_slack_key && !converged_residual {
+                system.slack_members_into(&state.u, &mut ws.slack_now);
+                far_from_k0 = symmetric_difference(&ws.slack_now, &ws.k0_slack) > slack.refactor_members;
+            }
+            // Secant pair: s = α·δu, y = Δf_int = Δr + Δλ·f_ref. A pair
+            // across a slack change is not stored when restarting.
+            if ws.h.updates() && !converged_residual && !(slack_changed && slack.restart) {
+                for (s, d) in ws.s.iter_mut().zip(&ws.du_r) {
+                    *s = alpha * d;
+                }
+                if ws.h.extends() {
+                    pending = Some((alpha, dl));
+                } else {
+                    for (((y, rn), ro), f) in ws.y.iter_mut().zip(&state.r).zip(&ws.r_prev).zip(&system.f_ref) {
+                        *y = rn - ro + lambda_change * f;
+                    }
+                    if ws.h.update_with(&ws.s, &ws.y, &ws.y) {
+                        du_f_valid = false;
+                    }
+                }
+            }
             let stalled = state.relative_residual > config.refactor.stall_ratio * previous;
-            if stalled || (ws.h.updates() && ws.h.n_pairs() >= config.refactor.max_updates) {
-                need_factor = state.relative_residual > config.tolerance;
+            let diverged = state.relative_residual.is_nan() || state.relative_residual > QN_DIVERGENCE * pred_residual;
+            let full = ws.h.updates() && ws.h.n_pairs() + pending.is_some() as usize >= config.refactor.max_updates;
+            if !converged_residual {
+                if diverged {
+                    escalate = Some(Termination::Diverged);
+                } else if stalled {
+                    // Modified Newton with no pairs and a fresh K₀ stalls
+                    // the same way a refactor would: count it all the same.
+                    match refreshed_at {
+                        Some(r) if config.newton_fallback && state.relative_residual > REFRESH_GAIN * r => {
+                            escalate = Some(Termination::MaxIterations)
+                        }
+                        _ => {
+                            refreshed_at = Some(state.relative_residual);
+                            rec.event(Ev::StallRefactor);
+                            need_factor = true;
+                        }
+                    }
+                } else if far_from_k0 {
+                    rec.event(Ev::SlackRefactor);
+                    need_factor = true;
+                } else if full {
+                    need_factor = true;
+                }
             }
         }
         let ev = IterEvent {
@@ -427,18 +755,21 @@ pub fn drive(
             iteration: rec.iterations,
             lambda: state.lambda,
             relative_residual: state.relative_residual,
-            refactored: need_factor,
+            refactored: need_factor || escalate.is_some(),
             line_search_trials: trials,
         };
         if observer.on_iteration(&ev) == Control::Stop {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Stopped, rec);
         }
-        if state.relative_residual <= config.tolerance && disp_ok && energy_ok {
+        if converged_residual && disp_ok && energy_ok {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Converged, rec);
         }
-        if state.relative_residual > 1e8 * rec.residual_history[0].max(1.0) {
+        if escalate.is_some() {
+            continue;
+        }
+        if newton && state.relative_residual > 1e8 * rec.residual_history[0].max(1.0) {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Diverged, rec);
         }
