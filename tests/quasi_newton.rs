@@ -204,7 +204,7 @@ fn secant_predictor_changes_the_start_not_the_answer() {
 /// that edge cables go slack. Tolerance 1e-8.
 fn hard_net(steps: usize) -> tautline::model::Model {
     use tautline::generate::{NetOptions, saddle_net};
-    let g = saddle_net(&NetOptions { nx: 20, ny: 20, load: 500.0, ..NetOptions::default() }, "hard").expect("net");
+    let g = saddle_net(&NetOptions { nx: 20, ny: 20, load: tautline::generate::Loading::PerNode(500.0), ..NetOptions::default() }, "hard").expect("net");
     let mut m = model(&g.toml);
     m.analysis.steps = steps;
     m.analysis.tolerance = 1e-8;
