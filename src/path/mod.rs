@@ -815,6 +815,14 @@ impl<'a> Tracer<'a> {
         let mut switcher = branch::Switcher::new(&a.branch);
         // f_ref·K⁻¹·f_ref at the last converged state (NaN: not known).
         let mut last_compliance = load_compliance(sys, ws);
+        // The same at the last state whose pivots were counted, and the slack
+        // members there (`stability_check = "on-refactor"`).
+        let mut counted_compliance = last_compliance;
+        let mut counted_slack: Vec<u32> = if a.stability_each_step { Vec::new() } else { sys.slack_members(&state.u) };
+        // The last state whose pivots were counted (u, λ, negative pivots),
+        // kept only under `on-refactor`, where it may lie steps back.
+        let mut counted_state: Option<(Vec<f64>, f64, usize)> =
+            (!a.stability_each_step).then(|| (state.u.clone(), state.lambda, ws.h.inertia.negative));
         // (K⁻¹f_ref) at the controlled DOF at the last converged state (NaN:
         // not known): du/ds there up to the sign of dλ/ds.
         let mut last_tangent_at_dof = match (a.control, stepper.control_dof) {
@@ -950,7 +958,14 @@ impl<'a> Tracer<'a> {
                     // With `stability_check = "on-refactor"` the quasi-Newton
                     // correctors skip it and carry their factor on; the count
                     // is then that of the last factorization.
-                    let check = a.stability_each_step || a.method == crate::model::Method::Newton;
+                    // `on-refactor`: the count is taken only when a cheap
+                    // indicator asks for it (`count_needed`): the current
+                    // stiffness parameter from the corrector's own operator,
+                    // or a change of the slack set since the last count.
+                    let slack_now = if a.stability_each_step { Vec::new() } else { sys.slack_members(&state.u) };
+                    let check = a.stability_each_step
+                        || a.method == crate::model::Method::Newton
+                        || count_needed(counted_compliance, operator_compliance(sys, ws), &counted_slack, &slack_now);
                     let singular = check && solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
                     let neg = ws.h.inertia.negative;
                     ws.fresh = check && !singular;
@@ -1039,12 +1054,25 @@ impl<'a> Tracer<'a> {
                         }
                     }
                     last_compliance = compliance;
+                    if check && !singular && !a.stability_each_step {
+                        counted_compliance = compliance;
+                        counted_slack = slack_now;
+                    }
                     let pinpoint = a.pinpoint && check && !singular && a.control != Control::Load;
-                    if let (true, Some((n_before, true))) = (pinpoint, before) {
+                    // The bracket starts at the step's start, or (when that
+                    // state's pivots were not counted, `on-refactor`) at the
+                    // last counted state.
+                    let bracket_start = match before {
+                        Some((n, true)) => Some((start_u.as_slice(), start_lambda, n)),
+                        Some((_, false)) => counted_state.as_ref().map(|(u, l, n)| (u.as_slice(), *l, *n)),
+                        None => None,
+                    };
+                    if let (true, Some((a_u, a_l, n_before))) = (pinpoint, bracket_start) {
                         if n_before != neg {
                             let keep_field = keeper.keeps_critical();
                             let want = keep_field || switcher.wants_field();
-                            let mut c = self.pinpoint(ws, (&start_u, start_lambda, n_before), &state, want, observer);
+                            let a_u = a_u.to_vec();
+                            let mut c = self.pinpoint(ws, (&a_u, a_l, n_before), &state, want, observer);
                             c.step = step;
                             // Branch switching (branch.rs) counts the bifurcations.
                             switcher.note(critical.len(), &c, &start_u, &state.u);
@@ -1078,6 +1106,9 @@ impl<'a> Tracer<'a> {
                     }
                     last_tangent_at_dof = tangent_at_dof;
                     let pivots_changed = before.is_some_and(|(n, _)| n != neg);
+                    if check && !singular && !a.stability_each_step {
+                        counted_state = Some((state.u.clone(), state.lambda, neg));
+                    }
                     keeper.offer(step, state.lambda, &state.u, pivots_changed);
                     points.push(point);
                     last_increment = state.u.iter().zip(&start_u).map(|(a, b)| a - b).collect();
@@ -1236,6 +1267,35 @@ fn load_compliance(sys: &System, ws: &mut Workspace) -> f64 {
     let du = tangent_direction(sys, ws);
     dot(&du, &sys.f_ref)
 }
+
+/// f_ref·H·f_ref with the corrector's current operator H ≈ K⁻¹ (the step's
+/// factor and its quasi-Newton pairs), one application: the cheap stand-in
+/// for [`load_compliance`] at a state whose tangent was not factored.
+fn operator_compliance(sys: &System, ws: &mut Workspace) -> f64 {
+    load_compliance(sys, ws)
+}
+
+/// Under `stability_check = "on-refactor"`, whether the pivots of a
+/// converged quasi-Newton state must be counted (one factorization): when
+/// either compliance is unknown, when f·H·f has changed sign since the last
+/// count (the current stiffness parameter S_p = f·K₀⁻¹f / f·K⁻¹f of Bergan,
+/// Holand & Søreide 1978 has passed through zero or infinity: a limit point),
+/// when it has more than doubled (S_p has fallen by half since the last count:
+/// the structure is softening towards one), or when the set of slack members
+/// has changed (a kink of the path, where the tangent jumps). A bifurcation
+/// that leaves the stiffness along the load unchanged (the braced strut's
+/// sway) does not show in S_p: only `every-step` counting sees it at once,
+/// which is why that is the default.
+fn count_needed(counted: f64, now: f64, counted_slack: &[u32], slack_now: &[u32]) -> bool {
+    if !(counted.is_finite() && now.is_finite()) || counted == 0.0 {
+        return true;
+    }
+    now.signum() != counted.signum() || now.abs() > COMPLIANCE_GROWTH * counted.abs() || counted_slack != slack_now
+}
+
+/// See [`count_needed`]: the growth of f·K⁻¹f since the last count that asks
+/// for a new one (S_p fallen to half).
+pub const COMPLIANCE_GROWTH: f64 = 2.0;
 
 /// A load-control step from A to B is suspected of crossing a critical point
 /// when the current stiffness parameter changes sign (c = f·K⁻¹f, Bergan et
