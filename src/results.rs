@@ -193,7 +193,7 @@ pub struct StepOut {
 pub struct CorrectorEventOut {
     /// Iterations done before the event.
     pub iteration: usize,
-    /// "stall-refactor", "newton-fallback", "newton-from-predictor",
+    /// "stall-refactor", "newton-fallback", "newton-from-best",
     /// "slack-restart" or "slack-refactor".
     pub event: &'static str,
 }

@@ -212,8 +212,9 @@ pub enum CorrectorEventKind {
     /// The quasi-Newton corrector stalled again (or ran out of its budget, or
     /// its constraint failed): the step goes on with full Newton iterations.
     NewtonFallback,
-    /// The Newton fallback started again from the step's predictor, the
-    /// quasi-Newton iterations having ended further from equilibrium.
+    /// The Newton fallback started again from the step's best state (lowest
+    /// residual so far, or the predictor), the quasi-Newton iterations
+    /// having ended further from equilibrium.
     NewtonFromPredictor,
     /// The slack set changed: the stored secant pairs were dropped.
     SlackRestart,
@@ -226,7 +227,7 @@ impl CorrectorEventKind {
         match self {
             CorrectorEventKind::StallRefactor => "stall-refactor",
             CorrectorEventKind::NewtonFallback => "newton-fallback",
-            CorrectorEventKind::NewtonFromPredictor => "newton-from-predictor",
+            CorrectorEventKind::NewtonFromPredictor => "newton-from-best",
             CorrectorEventKind::SlackRestart => "slack-restart",
             CorrectorEventKind::SlackRefactor => "slack-refactor",
         }
@@ -445,9 +446,10 @@ const QN_DIVERGENCE: f64 = 1e3;
 ///    [`QN_DIVERGENCE`] times the predictor's, or not finite), use up their
 ///    `max_iterations`, or the path constraint has no solution, the step
 ///    goes on with full Newton iterations (`NewtonFallback`, a fresh tangent
-///    every iteration, the line search kept), from the current state or,
-///    if that is worse than the predictor, from the predictor
-///    (`NewtonFromPredictor`);
+///    every iteration), from the current state or, if that is worse than
+///    the best state of the step (the lowest residual the quasi-Newton
+///    iterations reached, or the predictor), from that best state
+///    (`NewtonFromPredictor`, "newton-from-best");
 /// 3. the Newton fallback has a budget of `max_iterations` of its own; only
 ///    if it fails too does the run return a failure.
 #[allow(clippy::too_many_arguments)]
@@ -484,9 +486,13 @@ pub fn drive(
         }
         ws.memory_key = norms.slack_key;
     }
+    // The best state of the step so far (lowest residual; the predictor to
+    // begin with), where a Newton fallback starts: `ws.pred_u`, its λ and
+    // its relative residual.
     ws.pred_u.copy_from_slice(&state.u);
-    let pred_lambda = state.lambda;
+    let mut pred_lambda = state.lambda;
     let mut pred_residual = f64::NAN; // set once the first residual is known
+    let mut best_residual = f64::NAN;
     // Iterations done when the current stage (quasi-Newton, Newton) began.
     let mut stage_start = 0;
     // Residual at the last stall-refactor.
@@ -509,7 +515,7 @@ pub fn drive(
             stage_start = rec.iterations;
             pending = None;
             rec.event(Ev::NewtonFallback);
-            if state.relative_residual.is_nan() || state.relative_residual > pred_residual {
+            if state.relative_residual.is_nan() || state.relative_residual > best_residual {
                 state.u.copy_from_slice(&ws.pred_u);
                 state.lambda = pred_lambda;
                 for ((d, u), u0) in delta_u.iter_mut().zip(&state.u).zip(step_start_u) {
@@ -531,6 +537,7 @@ pub fn drive(
         }
         if pred_residual.is_nan() {
             pred_residual = state.relative_residual;
+            best_residual = state.relative_residual;
         }
         if !state.relative_residual.is_finite() {
             if !newton {
@@ -671,6 +678,13 @@ pub fn drive(
         rec.iterations += 1;
         if newton {
             rec.newton_iterations += 1;
+        } else if state.relative_residual < best_residual && config.newton_fallback {
+            // A quasi-Newton cycle that ends in a stall may have passed
+            // through a far better state than the one it stops at: the
+            // Newton fallback starts from the best (one copy of u).
+            best_residual = state.relative_residual;
+            ws.pred_u.copy_from_slice(&state.u);
+            pred_lambda = state.lambda;
         }
         let converged_residual = state.relative_residual <= config.tolerance;
 
