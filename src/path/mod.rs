@@ -250,6 +250,41 @@ pub const BIFURCATION_ALIGNMENT: f64 = 1e-3;
 /// start has lost its prestress (a cable run back to its rest length).
 pub const LOST_PRESTRESS: f64 = 1e-6;
 
+/// Two critical points found one after the other in a step whose load
+/// factors agree within this fraction (of max(|λ|, 1)) are one point: a
+/// double point whose two eigenvalues reach zero a rounding apart.
+pub const COINCIDENT: f64 = 1e-8;
+
+/// Adds `c` to the list, merged into the last point when it is the
+/// continuation of the same step's bisection at the same load factor
+/// ([`COINCIDENT`]): one point with the summed multiplicity, both sets of
+/// modes, the far pivot count of the second, a limit if either is.
+fn push_critical(list: &mut Vec<Critical>, c: Critical, same_step_as_last: bool) {
+    if coincides(list, &c, same_step_as_last) {
+        let last = list.last_mut().expect("coincides with the last point");
+        last.multiplicity += c.multiplicity;
+        last.pivots.1 = c.pivots.1;
+        last.modes.extend(c.modes);
+        last.mode_eigenvalues.extend(c.mode_eigenvalues);
+        last.mode_converged &= c.mode_converged;
+        last.pinpointed &= c.pinpointed;
+        if c.kind == CriticalKind::Limit {
+            last.kind = CriticalKind::Limit;
+        }
+        last.mode_load_alignment = (last.mode_load_alignment.powi(2) + c.mode_load_alignment.powi(2)).sqrt();
+        return;
+    }
+    list.push(c);
+}
+
+/// Whether `c` is the last point of `list` again (see [`push_critical`]).
+fn coincides(list: &[Critical], c: &Critical, same_step_as_last: bool) -> bool {
+    same_step_as_last && list.last().is_some_and(|l| (l.lambda - c.lambda).abs() <= COINCIDENT * l.lambda.abs().max(1.0))
+}
+
+/// Largest number of critical points pinpointed within one step.
+pub const MAX_POINTS_PER_STEP: usize = 16;
+
 /// Largest number of bisections when pinpointing a critical point.
 pub const MAX_BISECTIONS: usize = 60;
 
@@ -387,6 +422,20 @@ impl<'a> Tracer<'a> {
     /// factorization at the end of the bracket, and the kind from φ's
     /// alignment with the reference load.
     fn pinpoint(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Critical {
+        self.pinpoint_with_end(ws, a_state, b, keep_field, observer).0
+    }
+
+    /// [`Tracer::pinpoint`], also handing back the far end of the final
+    /// bracket (u, λ): when the pivot count there (`pivots.1`) is not yet
+    /// B's, another critical point lies between it and B.
+    fn pinpoint_with_end(
+        &mut self,
+        ws: &mut Workspace,
+        a_state: (&[f64], f64, usize),
+        b: &State,
+        keep_field: bool,
+        observer: &mut dyn Observer,
+    ) -> (Critical, Vec<f64>, f64) {
         let sys = self.system;
         let (ua, la, na) = a_state;
         let (mut ua, mut la) = (ua.to_vec(), la);
@@ -446,7 +495,7 @@ impl<'a> Tracer<'a> {
         let phi = modes.first().cloned().unwrap_or_else(|| vec![0.0; sys.n_free()]);
         let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
         let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
-        Critical {
+        let c = Critical {
             kind: if alignment < BIFURCATION_ALIGNMENT { CriticalKind::Bifurcation } else { CriticalKind::Limit },
             lambda: 0.5 * (la + lb),
             step: 0,
@@ -471,7 +520,8 @@ impl<'a> Tracer<'a> {
             lambda_bracket: (la, lb),
             pinpointed,
             tolerance,
-        }
+        };
+        (c, ub, lb)
     }
 
     /// Bisects the step from A (u, λ, du/ds at the controlled DOF) to B in
@@ -616,15 +666,27 @@ impl<'a> Tracer<'a> {
             // at its start (λ has its extremum there).
             let fell = (st.lambda - pl) * direction < 0.0;
             if now != neg {
-                let c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
-                let limit = c.kind == CriticalKind::Limit;
-                found.push(c);
-                if limit {
-                    return Some(found);
+                // As in `run`: a sub-step may hold more than one point.
+                let (mut from_u, mut from_l, mut from_n) = (pu.clone(), pl, neg);
+                let mut rounds = 0;
+                while from_n != now && rounds < MAX_POINTS_PER_STEP {
+                    rounds += 1;
+                    let (c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), &st, keep_field, observer);
+                    let limit = c.kind == CriticalKind::Limit;
+                    let far_n = c.pivots.1;
+                    let next = c.pinpointed && far_n != from_n;
+                    push_critical(&mut found, c, rounds > 1);
+                    if limit {
+                        return Some(found);
+                    }
+                    let mut rec = StepRecord::default();
+                    solve::refactor_at(sys, ws, &mut st, &mut rec);
+                    add_records(&mut self.wasted, &rec);
+                    if !next {
+                        break;
+                    }
+                    (from_u, from_l, from_n) = (far_u, far_l, far_n);
                 }
-                let mut rec = StepRecord::default();
-                solve::refactor_at(sys, ws, &mut st, &mut rec);
-                add_records(&mut self.wasted, &rec);
                 neg = now;
             }
             if fell {
@@ -1068,23 +1130,39 @@ impl<'a> Tracer<'a> {
                         None => None,
                     };
                     if let (true, Some((a_u, a_l, n_before))) = (pinpoint, bracket_start) {
-                        if n_before != neg {
+                        // A step may hold more than one critical point (the
+                        // count changes at two loads within it): after each
+                        // one, the bisection goes on from the far end of its
+                        // bracket while the count there is not yet B's.
+                        let (mut from_u, mut from_l, mut from_n) = (a_u.to_vec(), a_l, n_before);
+                        let mut rounds = 0;
+                        while from_n != neg && rounds < MAX_POINTS_PER_STEP {
+                            rounds += 1;
                             let keep_field = keeper.keeps_critical();
                             let want = keep_field || switcher.wants_field();
-                            let a_u = a_u.to_vec();
-                            let mut c = self.pinpoint(ws, (&a_u, a_l, n_before), &state, want, observer);
+                            let (mut c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), &state, want, observer);
                             c.step = step;
-                            // Branch switching (branch.rs) counts the bifurcations.
-                            switcher.note(critical.len(), &c, &start_u, &state.u);
+                            let far_n = c.pivots.1;
+                            let next = c.pinpointed && far_n != from_n;
+                            // Branch switching (branch.rs) counts the
+                            // bifurcations (a coincident second half of a
+                            // double point is not another one).
+                            if !coincides(&critical, &c, rounds > 1) {
+                                switcher.note(critical.len(), &c, &start_u, &state.u);
+                            }
                             if !keep_field {
                                 c.field = None;
                             }
-                            critical.push(c);
+                            push_critical(&mut critical, c, rounds > 1);
                             // Back to the factor of the converged state.
                             let mut rec = StepRecord::default();
                             solve::refactor_at(sys, ws, &mut state, &mut rec);
                             add_records(&mut self.wasted, &rec);
                             ws.fresh = true;
+                            if !next {
+                                break;
+                            }
+                            (from_u, from_l, from_n) = (far_u, far_l, far_n);
                         }
                     }
                     // A turning point of the controlled displacement within
