@@ -493,6 +493,8 @@ pub fn drive(
     let mut pred_lambda = state.lambda;
     let mut pred_residual = f64::NAN; // set once the first residual is known
     let mut best_residual = f64::NAN;
+    // The next iteration is the first of a Newton fallback.
+    let mut fallback_first = false;
     // Iterations done when the current stage (quasi-Newton, Newton) began.
     let mut stage_start = 0;
     // Residual at the last stall-refactor.
@@ -512,6 +514,7 @@ pub fn drive(
                 return (term, rec);
             }
             newton = true;
+            fallback_first = true;
             stage_start = rec.iterations;
             pending = None;
             rec.event(Ev::NewtonFallback);
@@ -616,7 +619,17 @@ pub fn drive(
         // does: on slack cable nets the energy line search was measured to
         // hold Newton to steps of α ≈ 0.1–0.4 and out of its quadratic
         // convergence (183 × 183 net, README), where full steps converge.
-        let line_search = if newton { CorrectorConfig::for_method(Method::Newton, 0.0, 0).line_search } else { config.line_search };
+        // Newton takes full steps, except the first step of a fallback: it
+        // starts near a state where cables are about to go slack or taut,
+        // and the full step from the tangent there can overshoot by orders
+        // of magnitude; the energy line search of the quasi-Newton settings
+        // keeps that one step in bounds.
+        let line_search = if newton && !fallback_first {
+            CorrectorConfig::for_method(Method::Newton, 0.0, 0).line_search
+        } else {
+            config.line_search
+        };
+        fallback_first = false;
         ws.r_prev.copy_from_slice(&state.r);
         let g0 = dot(&ws.du_r, &state.r);
         let mut alpha = 1.0;
