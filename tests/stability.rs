@@ -469,6 +469,17 @@ fn several_critical_points_in_one_step_are_all_found() {
     };
     let load = g.toml.replace("steps = 10", "steps = 40");
     let arc = g.toml.replace("control = \"load\"", "control = \"arc-length\"").replace("[analysis]", "[analysis]\nmax_steps = 300");
+    // Past λ = 1 the dome goes on losing stability up to a limit near 1.42:
+    // load control to 3 stops there, every point reported once, in order,
+    // none beyond the limit (a walk's last sub-step may overshoot its load
+    // step; what lies past it is left to the next step).
+    for method in [Method::Newton, Method::Bfgs] {
+        let run = trace(model(&g.toml.replace("target = 1.0", "target = 3.0")), method);
+        assert_eq!(run.path.stop, StopReason::LimitPoint, "{method:?}");
+        let l: Vec<f64> = run.path.critical.iter().map(|c| c.lambda).collect();
+        assert!(l.windows(2).all(|w| w[1] > w[0] * (1.0 + 1e-9)), "{method:?}: {l:?}");
+        assert_eq!(run.path.critical.last().unwrap().kind, CriticalKind::Limit, "{method:?}");
+    }
     for method in [Method::Newton, Method::Bfgs] {
         let by_load = points(&load, method);
         let by_arc = points(&arc, method);

@@ -672,6 +672,15 @@ impl<'a> Tracer<'a> {
                 while from_n != now && rounds < MAX_POINTS_PER_STEP {
                     rounds += 1;
                     let (c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), &st, keep_field, observer);
+                    // The last sub-step may overshoot B's load factor: a
+                    // point beyond it belongs to the next load step, which
+                    // finds it itself.
+                    if (c.lambda - lambda_b) * direction > 0.0 {
+                        let mut rec = StepRecord::default();
+                        solve::refactor_at(sys, ws, &mut st, &mut rec);
+                        add_records(&mut self.wasted, &rec);
+                        return Some(found);
+                    }
                     let limit = c.kind == CriticalKind::Limit;
                     let far_n = c.pivots.1;
                     let next = c.pinpointed && far_n != from_n;
