@@ -12,18 +12,13 @@ use tautline::verify::Arch;
 /// reached to rounding.
 const ARCH: Arch = Arch { ea: 1.28e9, b: 5.0, h: 1.1 };
 
-/// The two-bar arch of VERIFICATION case 1 (crown free in x and z),
-/// pushed down under displacement control until it is the mirror image of
-/// itself (w = 2h). There the bars are back to their unstressed length and
-/// the load is zero: P(2h) = 0 in the closed form P(w) = 2EA (l₀ − l)/l₀ · z/l
-/// (Bažant & Cedolin, *Stability of Structures*, 1991, §4.4; engineering
-/// strain). The force level of that state is zero, so only the absolute floor
-/// of the convergence test, ‖r‖ ≤ tol·‖f_ref‖, lets it converge. Every
-/// corrector lands on it, and every step is on the closed form.
-#[test]
-fn displacement_control_lands_on_the_stress_free_mirror_state() {
-    let text = format!(
-        r#"title = "mirrored arch"
+/// A two-bar arch (EA of VERIFICATION case 1) with supports at x = −b_left
+/// and x = b_right, crown at height h free in x and z, pushed down under
+/// displacement control to its mirror image (crown z = −2h) in 8 steps.
+fn arch_pushed_to_its_mirror(b_left: f64, b_right: f64, h: f64, watch: &[&str]) -> String {
+    let watch: Vec<String> = watch.iter().map(|w| format!("{w:?}")).collect();
+    format!(
+        r#"title = "arch pushed through to its mirror image"
 [[section]]
 name = "strut"
 EA = {ea:?}
@@ -60,14 +55,27 @@ dir = "z"
 target = {t:?}
 steps = 8
 tolerance = 1e-10
-watch = ["C.z"]
+watch = [{w}]
 "#,
         ea = ARCH.ea,
-        nb = -ARCH.b,
-        b = ARCH.b,
-        h = ARCH.h,
-        t = -2.0 * ARCH.h,
-    );
+        nb = -b_left,
+        b = b_right,
+        t = -2.0 * h,
+        w = watch.join(", "),
+    )
+}
+
+/// The two-bar arch of VERIFICATION case 1 (crown free in x and z),
+/// pushed down under displacement control until it is the mirror image of
+/// itself (w = 2h). There the bars are back to their unstressed length and
+/// the load is zero: P(2h) = 0 in the closed form P(w) = 2EA (l₀ − l)/l₀ · z/l
+/// (Bažant & Cedolin, *Stability of Structures*, 1991, §4.4; engineering
+/// strain). The force level of that state is zero, so only the absolute floor
+/// of the convergence test, ‖r‖ ≤ tol·‖f_ref‖, lets it converge. Every
+/// corrector lands on it, and every step is on the closed form.
+#[test]
+fn displacement_control_lands_on_the_stress_free_mirror_state() {
+    let text = arch_pushed_to_its_mirror(ARCH.b, ARCH.b, ARCH.h, &["C.z"]);
     let (p_lim, _) = ARCH.limit(false);
     for method in ALL_METHODS {
         let run = trace(model(&text), method);
@@ -176,45 +184,7 @@ fn cli_reports_no_start_equilibrium_with_exit_3() {
 /// λ = 0, and its equilibrium check must not call rounding an imbalance.
 #[test]
 fn lopsided_arch_lands_on_its_stress_free_mirror_image() {
-    let text = r#"title = "lopsided arch"
-[[section]]
-name = "strut"
-EA = 1.28e9
-[[node]]
-id = "L"
-at = [-5.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "R"
-at = [3.7, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "C"
-at = [0.0, 0.0, 1.1]
-fix = "y"
-[[member]]
-id = "left"
-kind = "bar"
-ends = ["L", "C"]
-section = "strut"
-[[member]]
-id = "right"
-kind = "bar"
-ends = ["C", "R"]
-section = "strut"
-[[load]]
-node = "C"
-force = [0.0, 0.0, -1.0e6]
-[analysis]
-strain = "engineering"
-control = "displacement"
-node = "C"
-dir = "z"
-target = -2.2
-steps = 8
-tolerance = 1e-10
-watch = ["C.z", "C.x"]
-"#;
+    let text = &arch_pushed_to_its_mirror(5.0, 3.7, 1.1, &["C.z", "C.x"]);
     for method in ALL_METHODS {
         let run = trace(model(text), method);
         assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}: {:?}", run.path.last_failure);
