@@ -805,9 +805,19 @@ pub fn switch_not_made(path: &Path) -> Option<SwitchNotMadeOut> {
         SwitchOutcome::NotMet { requested, met } => Some(SwitchNotMadeOut {
             requested_at: *requested,
             bifurcations_met: *met,
-            reason: format!(
-                "the path met {met} bifurcation(s), fewer than switch_at = {requested}: no switch was made and the whole path is the primary one"
-            ),
+            reason: if met >= requested {
+                // The switch was due, but the run ended first (a limit point
+                // in the same load step, or another stop).
+                format!(
+                    "the path met bifurcation {requested} but stopped ({}) before it could leave there: no switch was made; \
+                     under load control a limit point in the same step ends the run first, so use control = \"arc-length\"",
+                    path.stop.name()
+                )
+            } else {
+                format!(
+                    "the path met {met} bifurcation(s), fewer than switch_at = {requested}: no switch was made and the whole path is the primary one"
+                )
+            },
         }),
         SwitchOutcome::ModeOutOfRange { at_critical, lambda, requested, multiplicity, .. } => Some(SwitchNotMadeOut {
             requested_at: bifurcations(at_critical + 1),

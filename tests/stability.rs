@@ -490,3 +490,20 @@ fn several_critical_points_in_one_step_are_all_found() {
         }
     }
 }
+
+/// A requested switch that falls in the same load step as a limit point
+/// beyond it: the run stops at the limit, and what it says about the switch
+/// is true (the bifurcation was met; the stop came first), not "fewer
+/// bifurcations than asked". The default 4 × 12 dome's 11th bifurcation
+/// (λ ≈ 1.380) and its limit (λ ≈ 1.422) share a load step of 0.3.
+#[test]
+fn a_switch_cut_off_by_a_limit_in_the_same_step_says_so() {
+    let g = tautline::generate::lattice_dome(&tautline::generate::DomeOptions::default(), "dome").unwrap();
+    let mut m = model(&g.toml.replace("target = 1.0", "target = 3.0"));
+    m.analysis.branch.switch_at = Some(11);
+    let run = trace(m, Method::Newton);
+    assert_eq!(run.path.stop, StopReason::LimitPoint);
+    let n = tautline::results::switch_not_made(&run.path).expect("the switch was not made");
+    assert!(n.bifurcations_met >= 11, "{}", n.bifurcations_met);
+    assert!(n.reason.contains("met bifurcation 11") && !n.reason.contains("fewer than"), "{}", n.reason);
+}
