@@ -371,6 +371,11 @@ impl<'a> Tracer<'a> {
     }
 
     fn make_point(&self, state: &State, step: usize, record: StepRecord, negative_pivots: usize) -> PathPoint {
+        self.make_point_with(state, step, record, negative_pivots, self.system.slack_members(&state.u))
+    }
+
+    /// [`Tracer::make_point`] with the state's slack members already known.
+    fn make_point_with(&self, state: &State, step: usize, record: StepRecord, negative_pivots: usize, slack: Vec<u32>) -> PathPoint {
         let a = &self.model.analysis;
         PathPoint {
             step,
@@ -381,7 +386,7 @@ impl<'a> Tracer<'a> {
             relative_residual: state.relative_residual,
             negative_pivots,
             pivots_checked: true,
-            slack: self.system.slack_members(&state.u),
+            slack,
         }
     }
 
@@ -522,6 +527,57 @@ impl<'a> Tracer<'a> {
             tolerance,
         };
         (c, ub, lb)
+    }
+
+    /// Every critical point between A (u, λ, negative pivots) and the
+    /// converged state B, whose factor is in the workspace. A step may hold
+    /// more than one (the count changes at two loads within it): after each,
+    /// the bisection goes on from the far end of its bracket while the count
+    /// there is not yet B's; coincident halves of a double point are merged
+    /// ([`push_critical`]). B is refactored after each point, for the next
+    /// bisection and the caller. With `within = (λ_b, direction)` (the
+    /// load-control walk), a point beyond λ_b is dropped and a limit point
+    /// kept; either ends the search (`true`), the latter without the refactor.
+    fn pinpoint_all(
+        &mut self,
+        ws: &mut Workspace,
+        a_state: (&[f64], f64, usize),
+        b: &mut State,
+        keep_field: bool,
+        within: Option<(f64, f64)>,
+        observer: &mut dyn Observer,
+    ) -> (Vec<Critical>, bool) {
+        let end_count = ws.h.inertia.negative;
+        let (mut from_u, mut from_l, mut from_n) = (a_state.0.to_vec(), a_state.1, a_state.2);
+        let mut found = Vec::new();
+        let mut rounds = 0;
+        while from_n != end_count && rounds < MAX_POINTS_PER_STEP {
+            rounds += 1;
+            let (c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), b, keep_field, observer);
+            // The walk's last sub-step may overshoot B's load factor: a point
+            // beyond it belongs to the next load step, which finds it itself.
+            let beyond = within.is_some_and(|(lambda_b, direction)| (c.lambda - lambda_b) * direction > 0.0);
+            let limit = within.is_some() && c.kind == CriticalKind::Limit;
+            let far_n = c.pivots.1;
+            let next = c.pinpointed && far_n != from_n;
+            if !beyond {
+                push_critical(&mut found, c, rounds > 1);
+                if limit {
+                    return (found, true);
+                }
+            }
+            let mut rec = StepRecord::default();
+            solve::refactor_at(self.system, ws, b, &mut rec);
+            add_records(&mut self.wasted, &rec);
+            if beyond {
+                return (found, true);
+            }
+            if !next {
+                break;
+            }
+            (from_u, from_l, from_n) = (far_u, far_l, far_n);
+        }
+        (found, false)
     }
 
     /// Bisects the step from A (u, λ, du/ds at the controlled DOF) to B in
@@ -666,35 +722,11 @@ impl<'a> Tracer<'a> {
             // at its start (λ has its extremum there).
             let fell = (st.lambda - pl) * direction < 0.0;
             if now != neg {
-                // As in `run`: a sub-step may hold more than one point.
-                let (mut from_u, mut from_l, mut from_n) = (pu.clone(), pl, neg);
-                let mut rounds = 0;
-                while from_n != now && rounds < MAX_POINTS_PER_STEP {
-                    rounds += 1;
-                    let (c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), &st, keep_field, observer);
-                    // The last sub-step may overshoot B's load factor: a
-                    // point beyond it belongs to the next load step, which
-                    // finds it itself.
-                    if (c.lambda - lambda_b) * direction > 0.0 {
-                        let mut rec = StepRecord::default();
-                        solve::refactor_at(sys, ws, &mut st, &mut rec);
-                        add_records(&mut self.wasted, &rec);
-                        return Some(found);
-                    }
-                    let limit = c.kind == CriticalKind::Limit;
-                    let far_n = c.pivots.1;
-                    let next = c.pinpointed && far_n != from_n;
-                    push_critical(&mut found, c, rounds > 1);
-                    if limit {
-                        return Some(found);
-                    }
-                    let mut rec = StepRecord::default();
-                    solve::refactor_at(sys, ws, &mut st, &mut rec);
-                    add_records(&mut self.wasted, &rec);
-                    if !next {
-                        break;
-                    }
-                    (from_u, from_l, from_n) = (far_u, far_l, far_n);
+                let (points, ended) =
+                    self.pinpoint_all(ws, (&pu, pl, neg), &mut st, keep_field, Some((lambda_b, direction)), observer);
+                found.extend(points);
+                if ended {
+                    return Some(found);
                 }
                 neg = now;
             }
@@ -1027,20 +1059,19 @@ impl<'a> Tracer<'a> {
                     // The tangent at the converged state: its inertia, and the
                     // step-start factor of the next step.
                     // With `stability_check = "on-refactor"` the quasi-Newton
-                    // correctors skip it and carry their factor on; the count
-                    // is then that of the last factorization.
-                    // `on-refactor`: the count is taken only when a cheap
-                    // indicator asks for it (`count_needed`): the current
-                    // stiffness parameter from the corrector's own operator,
+                    // correctors carry their factor on and count only when a
+                    // cheap indicator asks for it (`count_needed`): f·H·f
+                    // with the corrector's own operator (`load_compliance`
+                    // before any refactor: the step's factor and its pairs),
                     // or a change of the slack set since the last count.
-                    let slack_now = if a.stability_each_step { Vec::new() } else { sys.slack_members(&state.u) };
+                    let slack_now = sys.slack_members(&state.u);
                     let check = a.stability_each_step
                         || a.method == crate::model::Method::Newton
-                        || count_needed(counted_compliance, operator_compliance(sys, ws), &counted_slack, &slack_now);
+                        || count_needed(counted_compliance, load_compliance(sys, ws), &counted_slack, &slack_now);
                     let singular = check && solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
                     let neg = ws.h.inertia.negative;
                     ws.fresh = check && !singular;
-                    let mut point = self.make_point(&state, step, record, neg);
+                    let mut point = self.make_point_with(&state, step, record, neg, slack_now.clone());
                     point.pivots_checked = check;
                     let ev = StepEvent {
                         step,
@@ -1139,39 +1170,18 @@ impl<'a> Tracer<'a> {
                         None => None,
                     };
                     if let (true, Some((a_u, a_l, n_before))) = (pinpoint, bracket_start) {
-                        // A step may hold more than one critical point (the
-                        // count changes at two loads within it): after each
-                        // one, the bisection goes on from the far end of its
-                        // bracket while the count there is not yet B's.
-                        let (mut from_u, mut from_l, mut from_n) = (a_u.to_vec(), a_l, n_before);
-                        let mut rounds = 0;
-                        while from_n != neg && rounds < MAX_POINTS_PER_STEP {
-                            rounds += 1;
-                            let keep_field = keeper.keeps_critical();
-                            let want = keep_field || switcher.wants_field();
-                            let (mut c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), &state, want, observer);
+                        let keep_field = keeper.keeps_critical();
+                        let want = keep_field || switcher.wants_field();
+                        let (points, _) = self.pinpoint_all(ws, (a_u, a_l, n_before), &mut state, want, None, observer);
+                        ws.fresh = true;
+                        for mut c in points {
                             c.step = step;
-                            let far_n = c.pivots.1;
-                            let next = c.pinpointed && far_n != from_n;
-                            // Branch switching (branch.rs) counts the
-                            // bifurcations (a coincident second half of a
-                            // double point is not another one).
-                            if !coincides(&critical, &c, rounds > 1) {
-                                switcher.note(critical.len(), &c, &start_u, &state.u);
-                            }
+                            // Branch switching (branch.rs) counts the bifurcations.
+                            switcher.note(critical.len(), &c, &start_u, &state.u);
                             if !keep_field {
                                 c.field = None;
                             }
-                            push_critical(&mut critical, c, rounds > 1);
-                            // Back to the factor of the converged state.
-                            let mut rec = StepRecord::default();
-                            solve::refactor_at(sys, ws, &mut state, &mut rec);
-                            add_records(&mut self.wasted, &rec);
-                            ws.fresh = true;
-                            if !next {
-                                break;
-                            }
-                            (from_u, from_l, from_n) = (far_u, far_l, far_n);
+                            critical.push(c);
                         }
                     }
                     // A turning point of the controlled displacement within
@@ -1342,24 +1352,18 @@ impl<'a> Tracer<'a> {
     }
 }
 
-/// f_ref·K⁻¹·f_ref with the fresh factor of the converged state: the
+/// f_ref·H·f_ref with the workspace's operator H: K⁻¹ with the fresh factor
+/// of the converged state, or (before a refactor) the corrector's own
+/// approximation, its factor and quasi-Newton pairs. With K⁻¹ it is the
 /// reciprocal of the current stiffness parameter's denominator (Bergan,
-/// Holand & Søreide 1978, S_p = f·δu₁ / f·δuᵢ with δu = K⁻¹f). It is
-/// positive on a stable path, passes through ±∞ at a limit point and changes
-/// sign there.
+/// Holand & Søreide 1978, S_p = f·δu₁ / f·δuᵢ with δu = K⁻¹f): positive on a
+/// stable path, it passes through ±∞ at a limit point and changes sign there.
 fn load_compliance(sys: &System, ws: &mut Workspace) -> f64 {
     if !ws.h.ldlt.is_factored() || sys.f_ref_norm() == 0.0 {
         return f64::NAN;
     }
     let du = tangent_direction(sys, ws);
     dot(&du, &sys.f_ref)
-}
-
-/// f_ref·H·f_ref with the corrector's current operator H ≈ K⁻¹ (the step's
-/// factor and its quasi-Newton pairs), one application: the cheap stand-in
-/// for [`load_compliance`] at a state whose tangent was not factored.
-fn operator_compliance(sys: &System, ws: &mut Workspace) -> f64 {
-    load_compliance(sys, ws)
 }
 
 /// Under `stability_check = "on-refactor"`, whether the pivots of a
