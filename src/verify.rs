@@ -216,8 +216,11 @@ fn first_limit(path: &Path) -> Result<f64, String> {
         .ok_or_else(|| "no limit point found".to_string())
 }
 
-fn arch_text(strain: &str) -> String {
-    let a = ARCH;
+/// The two-bar arch of VERIFICATION case 1 (EA of [`ARCH`]) with its
+/// supports at x = −b_left and x = b_right on z = 0 and its crown at height
+/// h, free in x and z, loaded by 1 MN per unit load factor; `analysis` is
+/// the body of its `[analysis]` table.
+pub fn two_bar_arch(b_left: f64, b_right: f64, h: f64, analysis: &str) -> String {
     format!(
         r#"title = "two-bar arch"
 [[section]]
@@ -249,7 +252,17 @@ section = "s"
 node = "C"
 force = [0.0, 0.0, -1.0e6]
 [analysis]
-strain = "{strain}"
+{analysis}
+"#,
+        ea = ARCH.ea,
+        nb = -b_left,
+        b = b_right,
+    )
+}
+
+fn arch_text(strain: &str) -> String {
+    let analysis = format!(
+        r#"strain = "{strain}"
 control = "arc-length"
 arc = 0.05
 steps = 10
@@ -258,13 +271,9 @@ node = "C"
 dir = "z"
 max_steps = 400
 tolerance = 1e-12
-watch = ["C.z"]
-"#,
-        ea = a.ea,
-        nb = -a.b,
-        b = a.b,
-        h = a.h
-    )
+watch = ["C.z"]"#
+    );
+    two_bar_arch(ARCH.b, ARCH.b, ARCH.h, &analysis)
 }
 
 fn arch_case(green: bool) -> Case {
@@ -409,14 +418,18 @@ steps = 1
 tolerance = 1e-12
 "#;
 
-/// A straight vertical strut of two bars (each L = 2 m, EA = 1e8 N), pinned
-/// at the base and held laterally at the top, braced at mid-height by a
-/// lateral spring k = 1e5 N/m, loaded at the top by 1e5 N per unit load
-/// factor, up to λ = 1.2: it bifurcates at [`braced_strut_critical_load`].
-pub const BRACED_STRUT: &str = r#"title = "braced strut"
+/// A straight vertical strut of two bars (each L = 2 m, axial rigidity
+/// `ea`), pinned at the base and held laterally at the top, braced at
+/// mid-height by a lateral spring k = 1e5 N/m, loaded at the top by 1e5 N per
+/// unit load factor; engineering strain, T.z controlled or watched, T.z and
+/// M.x watched. `analysis` adds the rest of the `[analysis]` table. It
+/// bifurcates at [`braced_strut_critical_load`].
+pub fn braced_strut(ea: f64, analysis: &str) -> String {
+    format!(
+        r#"title = "braced strut"
 [[section]]
 name = "s"
-EA = 1.0e8
+EA = {ea:?}
 [[node]]
 id = "B"
 at = [0.0, 0.0, 0.0]
@@ -448,13 +461,19 @@ node = "T"
 force = [0.0, 0.0, -1.0e5]
 [analysis]
 strain = "engineering"
-steps = 12
-target = 1.2
 node = "T"
 dir = "z"
-tolerance = 1e-12
 watch = ["T.z", "M.x"]
-"#;
+{analysis}
+"#
+    )
+}
+
+/// The braced strut of `tautline verify` (EA = 1e8 N) under load control up
+/// to λ = 1.2 in 12 steps.
+pub fn braced_strut_case_model() -> String {
+    braced_strut(1.0e8, "steps = 12\ntarget = 1.2\ntolerance = 1e-12")
+}
 
 /// The two-bar arch ([`ARCH`], engineering strain) with a linear spring in
 /// series under the crown: a vertical bar of EA = 20 MN and length 10 m, i.e.
@@ -576,8 +595,8 @@ fn force_density_chain_sag() -> Case {
 }
 
 fn braced_strut_bifurcation() -> Case {
-    let text = BRACED_STRUT;
-    let computed = load(text, "strut.toml").and_then(|m| trace(&m)).and_then(|p| {
+    let text = braced_strut_case_model();
+    let computed = load(&text, "strut.toml").and_then(|m| trace(&m)).and_then(|p| {
         reached(&p)?;
         p.critical
             .iter()

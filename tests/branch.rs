@@ -38,50 +38,10 @@ const L: f64 = 2.0;
 const EA: f64 = 1.0e6;
 const P_REF: f64 = 1.0e5;
 
+/// The braced strut of `verify` made soft (EA = 1e6 N), so that its bars
+/// shorten visibly before the bifurcation.
 fn strut(analysis: &str) -> String {
-    format!(
-        r#"title = "soft braced strut"
-[[section]]
-name = "s"
-EA = {EA:?}
-[[node]]
-id = "B"
-at = [0.0, 0.0, 0.0]
-fix = "xyz"
-[[node]]
-id = "M"
-at = [0.0, 0.0, 2.0]
-fix = "y"
-[[node]]
-id = "T"
-at = [0.0, 0.0, 4.0]
-fix = "xy"
-[[member]]
-id = "lower"
-kind = "bar"
-ends = ["B", "M"]
-section = "s"
-[[member]]
-id = "upper"
-kind = "bar"
-ends = ["M", "T"]
-section = "s"
-[[spring]]
-node = "M"
-dir = "x"
-k = {K:?}
-[[load]]
-node = "T"
-force = [0.0, 0.0, -1.0e5]
-[analysis]
-strain = "engineering"
-node = "T"
-dir = "z"
-tolerance = 1e-11
-watch = ["T.z", "M.x"]
-{analysis}
-"#
-    )
+    tautline::verify::braced_strut(EA, &format!("tolerance = 1e-11\n{analysis}"))
 }
 
 /// λ on the secondary branch at lateral offset w (derived above).

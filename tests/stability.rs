@@ -9,6 +9,24 @@ use tautline::path::{CriticalKind, StopReason};
 use tautline::verify::spring_arch;
 
 const EA: f64 = 1.28e9;
+
+/// The generator's shallow dome of 2 rings × 6 sectors (a 24-bar star dome
+/// plus six idle bars between its supports) under a crown load alone,
+/// 1000 N per unit load factor.
+fn star_dome() -> tautline::generate::Generated {
+    tautline::generate::lattice_dome(
+        &tautline::generate::DomeOptions {
+            rings: 2,
+            sectors: 6,
+            load: tautline::generate::Loading::PerNode(0.0),
+            crown_load: 1000.0,
+            ..Default::default()
+        },
+        "dome",
+    )
+    .unwrap()
+}
+
 const K: f64 = 2.0e6;
 
 /// Crown load of the two-bar arch, engineering strain (Bažant & Cedolin,
@@ -79,11 +97,11 @@ fn load_control_stops_at_the_snap_back_limit() {
 /// 1e-6 of the closed form, with every corrector.
 #[test]
 fn braced_strut_bifurcates_at_closed_form_load() {
-    let text = tautline::verify::BRACED_STRUT;
+    let text = tautline::verify::braced_strut_case_model();
     let (k, l, ea) = (1.0e5f64, 2.0f64, 1.0e8f64);
     let p_cr = (k * l / 2.0) / (1.0 + k * l / (2.0 * ea));
     for method in ALL_METHODS {
-        let run = trace(model(text), method);
+        let run = trace(model(&text), method);
         assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");
         assert_eq!(run.path.critical.len(), 1, "{method:?}: {:?}", run.path.critical);
         let c = &run.path.critical[0];
@@ -103,17 +121,7 @@ fn braced_strut_bifurcates_at_closed_form_load() {
 /// value itself is this project's own; no literature value is claimed.
 #[test]
 fn dome_first_critical_load_is_independent_of_arc_and_corrector() {
-    let g = tautline::generate::lattice_dome(
-        &tautline::generate::DomeOptions {
-            rings: 2,
-            sectors: 6,
-            load: tautline::generate::Loading::PerNode(0.0),
-            crown_load: 1000.0,
-            ..Default::default()
-        },
-        "dome",
-    )
-    .unwrap();
+    let g = star_dome();
     let base = g.toml.replace("control = \"load\"", "control = \"arc-length\"").replace("target = 1.0", "target = 1.0e9");
     let first = |arc: f64, method: Method| {
         let text = base.replace("[analysis]", &format!("[analysis]\narc = {arc:?}\nmax_steps = 400"));
@@ -327,17 +335,7 @@ fn load_control_reports_the_bifurcation_and_stops_at_the_limit() {
 /// dense eigen-analysis); no literature value is claimed.
 #[test]
 fn dome_load_control_stops_at_its_first_limit() {
-    let g = tautline::generate::lattice_dome(
-        &tautline::generate::DomeOptions {
-            rings: 2,
-            sectors: 6,
-            load: tautline::generate::Loading::PerNode(0.0),
-            crown_load: 1000.0,
-            ..Default::default()
-        },
-        "dome",
-    )
-    .unwrap();
+    let g = star_dome();
     let arc = g
         .toml
         .replace("control = \"load\"", "control = \"arc-length\"")
@@ -414,17 +412,7 @@ fn snap_back_turning_points_are_pinpointed() {
 /// the default; see README.)
 #[test]
 fn on_refactor_counting_still_finds_the_dome_limit() {
-    let g = tautline::generate::lattice_dome(
-        &tautline::generate::DomeOptions {
-            rings: 2,
-            sectors: 6,
-            load: tautline::generate::Loading::PerNode(0.0),
-            crown_load: 1000.0,
-            ..Default::default()
-        },
-        "dome",
-    )
-    .unwrap();
+    let g = star_dome();
     let text = g
         .toml
         .replace("control = \"load\"", "control = \"arc-length\"")

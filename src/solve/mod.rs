@@ -359,10 +359,6 @@ impl Workspace {
     }
 }
 
-/// The relative residual with its absolute floor ([`System::relative_residual`]).
-fn relative(system: &System, norms: crate::assembly::system::ResidualNorms) -> f64 {
-    system.relative_residual(norms)
-}
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
@@ -397,7 +393,7 @@ fn trial_residual(system: &System, ws: &mut Workspace, state: &State, alpha: f64
         *t = u + alpha * d;
     }
     let norms = system.residual(&ws.trial_u, state.lambda + alpha * dl, &mut ws.trial_r, &mut ws.trial_reactions);
-    (relative(system, norms), norms.slack_key)
+    (system.relative_residual(norms), norms.slack_key)
 }
 
 /// Evaluates residual and tangent at `state` and factorizes; returns the
@@ -405,7 +401,7 @@ fn trial_residual(system: &System, ws: &mut Workspace, state: &State, alpha: f64
 /// correctors the slack set at K₀ is kept (slack-aware restarts).
 pub fn refactor_at(system: &System, ws: &mut Workspace, state: &mut State, rec: &mut StepRecord) -> Option<Vec<usize>> {
     let norms = system.residual_and_tangent(&state.u, state.lambda, &mut state.r, &mut state.reactions, &mut ws.k_values);
-    state.relative_residual = relative(system, norms);
+    state.relative_residual = system.relative_residual(norms);
     rec.residual_evaluations += 1;
     rec.factorizations += 1;
     rec.refactored_at.push(rec.iterations);
@@ -477,7 +473,7 @@ pub fn drive(
     ws.fresh = false;
     if !need_factor {
         let norms = system.residual(&state.u, state.lambda, &mut state.r, &mut state.reactions);
-        state.relative_residual = relative(system, norms);
+        state.relative_residual = system.relative_residual(norms);
         rec.residual_evaluations += 1;
         // Pairs carried over from the last step were taken at another slack set.
         if quasi && slack.restart && norms.slack_key != ws.memory_key && ws.h.n_pairs() > 0 {
