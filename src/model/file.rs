@@ -314,7 +314,7 @@ pub const SECTION_SPEC: TableSpec = TableSpec {
 pub const NODE_SPEC: TableSpec = TableSpec {
     name: "node",
     keys: &[
-        key("id", "id = \"A1\" (or id = 1)"),
+        key("id", "id = \"A1\"` or `id = 1"),
         key("at", "at = [0.0, 0.0, 2.5]"),
         key("fix", "fix = \"xyz\""),
     ],
@@ -323,7 +323,7 @@ pub const NODE_SPEC: TableSpec = TableSpec {
 pub const MEMBER_SPEC: TableSpec = TableSpec {
     name: "member",
     keys: &[
-        key("id", "id = \"c1\" (or id = 1)"),
+        key("id", "id = \"c1\"` or `id = 1"),
         key("kind", "kind = \"cable\""),
         key("ends", "ends = [\"A1\", \"A2\"] (or ends = [1, 2])"),
         key("section", "section = \"strand\""),
