@@ -3,6 +3,8 @@
 //! folder, then renamed into place.
 
 pub mod fields;
+pub mod figures;
+pub mod numbers;
 pub mod html;
 pub mod plot;
 pub mod png;

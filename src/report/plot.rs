@@ -8,7 +8,13 @@
 //! `pt stable` / `pt unstable` (path points), `crit` (critical points),
 //! `it` / `refactor` (convergence iterations), `step-boundary`, `member`.
 
+pub mod colour;
+pub mod fieldmap;
+pub mod raster;
+pub mod shape;
 mod svg;
+
+pub use shape::{shape_svg_with, ColourBy, ShapeInput, ShapeOptions, RASTER_ABOVE_MEMBERS};
 
 use crate::model::Model;
 use crate::results::Results;
@@ -17,9 +23,6 @@ use svg::{Anchor, Shape, Stroke, Svg, GRID, INK, MUTED, SHAPES, TITLE_SIZE};
 /// Size of the path and convergence plots, px.
 const PLOT_W: f64 = 800.0;
 const PLOT_H: f64 = 520.0;
-/// Size of the shape plot (two panels side by side), px.
-const SHAPE_W: f64 = 1100.0;
-const SHAPE_H: f64 = 560.0;
 /// Space around the plotting area, px.
 const MARGIN_L: f64 = 84.0;
 const MARGIN_R: f64 = 220.0;
@@ -33,17 +36,6 @@ const SERIES_COLORS: [&str; 6] = ["#1b3a6b", "#7a2e0e", "#2f5d34", "#5b2a6e", "#
 const SERIES_DASH: [Option<&str>; 6] = [None, Some("9 4"), Some("2 3 9 3"), Some("14 4 3 4"), Some("5 5"), Some("1 3")];
 /// Stroke pattern of every unstable segment.
 const UNSTABLE_DASH: &str = "3 4";
-
-/// Axial force scale, of this crate's own choice: tension a deep teal,
-/// compression a brick red, near zero a pale sand.
-const TENSION_RGB: [f64; 3] = [16.0, 96.0, 104.0];
-const COMPRESSION_RGB: [f64; 3] = [176.0, 58.0, 34.0];
-const NEUTRAL_RGB: [f64; 3] = [226.0, 219.0, 200.0];
-/// Stroke patterns of the deformed members (black-and-white reading).
-const COMPRESSION_DASH: &str = "10 3";
-const SLACK_DASH: &str = "1.5 3";
-/// Largest drawn displacement as a share of the model size.
-const DISPLACEMENT_SHARE: f64 = 0.10;
 
 /// Where the data go on the page.
 #[derive(Clone, Copy, Debug)]
@@ -486,15 +478,6 @@ pub fn convergence_svg(results: &Results) -> Result<String, String> {
     Ok(svg.finish())
 }
 
-/// Colour of an axial force on the diverging scale; `t` in [−1, 1].
-fn force_color(t: f64) -> String {
-    let t = if t.is_finite() { t.clamp(-1.0, 1.0) } else { 0.0 };
-    let end = if t >= 0.0 { TENSION_RGB } else { COMPRESSION_RGB };
-    let a = t.abs();
-    let c: Vec<u8> = (0..3).map(|k| (NEUTRAL_RGB[k] + a * (end[k] - NEUTRAL_RGB[k])).round().clamp(0.0, 255.0) as u8).collect();
-    format!("#{:02x}{:02x}{:02x}", c[0], c[1], c[2])
-}
-
 /// A displacement scale of 1, 2 or 5 × 10^k, close to `raw` and not above it.
 fn nice_factor(raw: f64) -> f64 {
     if !raw.is_finite() || raw <= 0.0 {
@@ -517,8 +500,8 @@ fn factor_text(v: f64) -> String {
 
 /// Undeformed (grey, dashed) and deformed shape in plan (x–y) and elevation
 /// (x–z), displacements magnified so the largest is about a tenth of the
-/// model size. Members are coloured by axial force (tension teal, solid;
-/// compression brick red, dashed; near zero pale); slack cables are dotted.
+/// model size, members coloured by axial force on a scale fitted to the
+/// forces (see [`shape::shape_svg_with`] for the options).
 /// `final_displacements` per node in m, `member_forces` in N.
 pub fn shape_svg(
     model: &Model,
@@ -526,184 +509,8 @@ pub fn shape_svg(
     member_forces: &[f64],
     member_slack: &[bool],
 ) -> Result<String, String> {
-    let heading = if model.title.trim().is_empty() { "deformed shape" } else { model.title.as_str() };
-    if model.nodes.is_empty() {
-        return Ok(no_data(SHAPE_W, SHAPE_H, heading, "the model has no nodes"));
-    }
-    if final_displacements.len() != model.nodes.len() {
-        return Err(format!("{} displacements given for {} nodes", final_displacements.len(), model.nodes.len()));
-    }
-    if member_forces.len() != model.members.len() || member_slack.len() != model.members.len() {
-        return Err(format!(
-            "{} forces and {} slack flags given for {} members",
-            member_forces.len(),
-            member_slack.len(),
-            model.members.len()
-        ));
-    }
-    if let Some((i, _)) = final_displacements.iter().enumerate().find(|(_, d)| d.iter().any(|v| !v.is_finite())) {
-        return Err(format!("the displacement of node {} is not finite", model.nodes[i].label));
-    }
-    if let Some(m) = model.members.iter().find(|m| m.ends.iter().any(|e| *e >= model.nodes.len())) {
-        return Err(format!("member {} refers to a node that does not exist", m.label));
-    }
-    if model.nodes.iter().any(|n| n.at.iter().any(|v| !v.is_finite())) {
-        return Err("a node position is not finite".into());
-    }
-    let units = model.units;
-    let len = |v: f64| units.length_out(v);
-
-    // Model size and the magnification.
-    let size = (0..3)
-        .filter_map(|a| extent(model.nodes.iter().map(|n| n.at[a])).map(|(lo, hi)| hi - lo))
-        .fold(0.0f64, f64::max);
-    let size = if size > 0.0 { size } else { 1.0 };
-    let dmax = final_displacements.iter().map(|d| (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt()).fold(0.0f64, f64::max);
-    let factor = if dmax > 0.0 { nice_factor(DISPLACEMENT_SHARE * size / dmax) } else { 1.0 };
-    let deformed: Vec<[f64; 3]> = model
-        .nodes
-        .iter()
-        .zip(final_displacements)
-        .map(|(n, d)| [n.at[0] + factor * d[0], n.at[1] + factor * d[1], n.at[2] + factor * d[2]])
-        .collect();
-
-    let forces_out: Vec<f64> = member_forces.iter().map(|f| units.force_out(*f)).collect();
-    let fmax = forces_out.iter().filter(|f| f.is_finite()).fold(0.0f64, |a, f| a.max(f.abs()));
-
-    let mut svg = Svg::new(SHAPE_W, SHAPE_H);
-    title(&mut svg, heading, "deformed shape");
-    let scale_text = if dmax > 0.0 {
-        format!(
-            "displacements ×{} (largest {:.4} {})",
-            factor_text(factor),
-            len(dmax),
-            units.length.name()
-        )
-    } else {
-        "displacements ×1 (all displacements are zero)".to_string()
-    };
-    svg.text(SHAPE_W / 2.0, 46.0, &scale_text, 12.0, Anchor::Middle, "scale");
-
-    const LEGEND_W: f64 = 210.0;
-    const GAP: f64 = 60.0;
-    let panel_w = (SHAPE_W - MARGIN_L - LEGEND_W - GAP - 30.0) / 2.0;
-    let panels = [(0usize, 1usize, "plan (x–y)"), (0usize, 2usize, "elevation (x–z)")];
-    for (p, (ax, ay, name)) in panels.iter().enumerate() {
-        let f = Frame {
-            left: MARGIN_L + p as f64 * (panel_w + GAP),
-            top: MARGIN_T + 18.0,
-            width: panel_w,
-            height: SHAPE_H - MARGIN_T - 18.0 - MARGIN_B,
-        };
-        let all = model.nodes.iter().map(|n| n.at).chain(deformed.iter().copied());
-        let pts: Vec<[f64; 3]> = all.collect();
-        let (x0, x1) = extent(pts.iter().map(|q| len(q[*ax]))).unwrap_or((0.0, 1.0));
-        let (y0, y1) = extent(pts.iter().map(|q| len(q[*ay]))).unwrap_or((0.0, 1.0));
-        // Equal scales on both axes, with a little room.
-        let span = (x1 - x0).max(y1 - y0);
-        let span = if span > 0.0 { span * 1.1 } else { len(size) * 1.1 };
-        let ppu = (f.width / span).min(f.height / span);
-        let (cx, cy) = ((x0 + x1) / 2.0, (y0 + y1) / 2.0);
-        let hx = f.width / ppu / 2.0;
-        let hy = f.height / ppu / 2.0;
-        let (xa, xb, xt) = ticks(cx - hx, cx + hx, 5.0);
-        let (ya, yb, yt) = ticks(cy - hy, cy + hy, 5.0);
-        let xt: Vec<f64> = xt.into_iter().filter(|t| *t >= cx - hx && *t <= cx + hx).collect();
-        let yt: Vec<f64> = yt.into_iter().filter(|t| *t >= cy - hy && *t <= cy + hy).collect();
-        let _ = (xa, xb, ya, yb);
-        let x = Scale::new(cx - hx, cx + hx, f.left, f.right());
-        let y = Scale::new(cy - hy, cy + hy, f.bottom(), f.top);
-        let axis = |a: usize| ['x', 'y', 'z'][a];
-        svg.text(f.left + f.width / 2.0, f.top - 8.0, name, 13.0, Anchor::Middle, "panel-title");
-        axes(
-            &mut svg,
-            f,
-            &x,
-            &xt,
-            &y,
-            &yt,
-            &format!("{} [{}]", axis(*ax), units.length.name()),
-            &format!("{} [{}]", axis(*ay), units.length.name()),
-        );
-        svg.open_group("undeformed");
-        for m in &model.members {
-            let (a, b) = (model.nodes[m.ends[0]].at, model.nodes[m.ends[1]].at);
-            svg.line(
-                x.at(len(a[*ax])),
-                y.at(len(a[*ay])),
-                x.at(len(b[*ax])),
-                y.at(len(b[*ay])),
-                Stroke::dashed(MUTED, 0.8, "4 3"),
-                "undeformed",
-            );
-        }
-        svg.close_group();
-        svg.open_group("deformed");
-        for (k, m) in model.members.iter().enumerate() {
-            let (a, b) = (deformed[m.ends[0]], deformed[m.ends[1]]);
-            let force = forces_out[k];
-            let t = if fmax > 0.0 && force.is_finite() { force / fmax } else { 0.0 };
-            let color = if member_slack[k] { MUTED.to_string() } else { force_color(t) };
-            let (width, dash, class) = if member_slack[k] {
-                (1.6, Some(SLACK_DASH), "member slack")
-            } else if t < 0.0 {
-                (1.6 + 1.8 * t.abs(), Some(COMPRESSION_DASH), "member compression")
-            } else {
-                (1.6 + 1.8 * t.abs(), None, "member tension")
-            };
-            svg.line(
-                x.at(len(a[*ax])),
-                y.at(len(a[*ay])),
-                x.at(len(b[*ax])),
-                y.at(len(b[*ay])),
-                Stroke { color: &color, width, dash },
-                class,
-            );
-        }
-        svg.close_group();
-    }
-
-    force_legend(&mut svg, SHAPE_W - LEGEND_W - 10.0, MARGIN_T + 30.0, fmax, units.force.name());
-    Ok(svg.finish())
-}
-
-/// The colour bar of axial force and the line-style key of the shape plot.
-fn force_legend(svg: &mut Svg, x: f64, y: f64, fmax: f64, unit: &str) {
-    const BAR_H: f64 = 180.0;
-    const BAR_W: f64 = 18.0;
-    const BANDS: usize = 20;
-    svg.text(x, y, &format!("axial force [{unit}]"), 12.0, Anchor::Start, "legend-text");
-    let top = y + 12.0;
-    for i in 0..BANDS {
-        // Top band: full tension; bottom band: full compression.
-        let t = 1.0 - 2.0 * (i as f64 + 0.5) / BANDS as f64;
-        let h = BAR_H / BANDS as f64;
-        let c = force_color(t);
-        svg.rect(x, top + i as f64 * h, BAR_W, h + 0.3, &c, None, "colour-band");
-    }
-    svg.rect(x, top, BAR_W, BAR_H, "none", Some(Stroke::solid(INK, 0.8)), "colour-bar");
-    let label = |v: f64| if v == 0.0 { "0".to_string() } else if (1e-3..1e6).contains(&v.abs()) { format!("{v:+.4}") } else { format!("{v:+.3e}") };
-    for (frac, v, note) in [(0.0, fmax, " tension"), (0.5, 0.0, ""), (1.0, -fmax, " compression")] {
-        let py = top + frac * BAR_H;
-        svg.line(x + BAR_W, py, x + BAR_W + 5.0, py, Stroke::solid(INK, 1.0), "tick");
-        svg.text(x + BAR_W + 8.0, py + 4.0, &format!("{}{note}", label(v)), 11.0, Anchor::Start, "legend-text");
-    }
-    let key_y = top + BAR_H + 36.0;
-    let tension = force_color(0.8);
-    let compression = force_color(-0.8);
-    let rows = [
-        LegendRow { stroke: Some(Stroke::dashed(MUTED, 0.8, "4 3")), marker: None, color: MUTED, label: "undeformed".into() },
-        LegendRow { stroke: Some(Stroke::solid(&tension, 2.6)), marker: None, color: INK, label: "tension (solid)".into() },
-        LegendRow {
-            stroke: Some(Stroke::dashed(&compression, 2.6, COMPRESSION_DASH)),
-            marker: None,
-            color: INK,
-            label: "compression (dashed)".into(),
-        },
-        LegendRow { stroke: Some(Stroke::dashed(MUTED, 1.6, SLACK_DASH)), marker: None, color: INK, label: "slack cable (dotted)".into() },
-    ];
-    legend(svg, x + 6.0, key_y, &rows);
-    let _ = BAR_W;
+    let input = ShapeInput { model, displacements: final_displacements, forces: member_forces, slack: member_slack, utilisation: None };
+    shape_svg_with(&input, &ShapeOptions::default())
 }
 
 /// The largest side of the nodes' bounding box, m (1 when the model has no

@@ -47,6 +47,8 @@ pub enum Command {
         #[arg(long, value_name = "N")]
         plot_mode: Option<usize>,
         #[command(flatten)]
+        report: ReportArgs,
+        #[command(flatten)]
         overrides: Overrides,
     },
     /// Find the shape of a prestressed cable net by the force density method;
@@ -96,6 +98,8 @@ pub enum Command {
         /// Also write path.png, shape.png and convergence.png
         #[arg(long)]
         png: bool,
+        #[command(flatten)]
+        report: ReportArgs,
     },
     /// Run the built-in textbook cases against their closed forms; print the
     /// table (exit 4 if any case fails)
@@ -104,6 +108,51 @@ pub enum Command {
         #[arg(long, default_value = "text")]
         format: String,
     },
+}
+
+/// What the report's pictures draw.
+#[derive(Args, Debug, Clone)]
+pub struct ReportArgs {
+    /// Colour the shape by force or by utilisation (force ÷ capacity);
+    /// default: utilisation when every member has a capacity, else force
+    #[arg(long = "colour-by", value_enum, value_name = "WHAT")]
+    pub colour_by: Option<ColourByArg>,
+    /// Draw the shape panels as raster images above this many members
+    /// (vector lines up to it)
+    #[arg(long = "raster-above", value_name = "MEMBERS", default_value_t = tautline::report::plot::RASTER_ABOVE_MEMBERS)]
+    pub raster_above: usize,
+    /// Also draw the shape at a kept step (e.g. 12) or at a critical point
+    /// (critical:N); repeatable; writes shape_stepN.svg or shape_criticalN.svg
+    #[arg(long = "shape-at", value_name = "STEP|critical:N", value_parser = parse_shape_at)]
+    pub shape_at: Vec<tautline::report::figures::ShapeAt>,
+}
+
+fn parse_shape_at(s: &str) -> Result<tautline::report::figures::ShapeAt, String> {
+    tautline::report::figures::ShapeAt::parse(s)
+}
+
+#[derive(clap::ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ColourByArg {
+    /// Axial force, on a scale spanning the forces present
+    Force,
+    /// Force ÷ capacity; over-capacity members heavy black
+    Utilisation,
+}
+
+impl ReportArgs {
+    /// The figure options, with the mode drawing of `--plot-mode`.
+    pub fn figures(&self, plot_mode: Option<usize>) -> tautline::report::figures::FigureOptions {
+        use tautline::report::plot::ColourBy;
+        tautline::report::figures::FigureOptions {
+            raster_above: self.raster_above,
+            colour_by: self.colour_by.map(|c| match c {
+                ColourByArg::Force => ColourBy::Force,
+                ColourByArg::Utilisation => ColourBy::Utilisation,
+            }),
+            shape_at: self.shape_at.clone(),
+            plot_mode,
+        }
+    }
 }
 
 /// How `check` and `solve` print their summary or errors.

@@ -59,13 +59,13 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             }
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, force, format, png, plot_mode, overrides } => {
+        Command::Solve { model, out, force, format, png, plot_mode, report, overrides } => {
             let mut m = load(&model, format)?;
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
             if plot_mode == Some(0) {
                 return Err(Failure::BadInput("--plot-mode 0: critical points are counted from 1".into()));
             }
-            solve(&m, &out, Some(&model), force, Outputs { quiet, png, format, plot_mode })
+            solve(&m, &out, Some(&model), force, Outputs { quiet, png, format, figures: report.figures(plot_mode) })
         }
         Command::Form { model, out, method } => form(&model, &out, method.as_deref()),
         Command::Relax { model, out, load_factor, tolerance, max_steps } => {
@@ -74,11 +74,11 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
         Command::Generate { what } => generate(what),
         Command::Bench(a) => crate::bench::bench(&a),
         Command::BenchRun(a) => crate::bench::bench_run(&a),
-        Command::Demo { out, png } => {
+        Command::Demo { out, png, report } => {
             let m = model::load_str(DEMO_MODEL, DEMO_NAME, None)
                 .map_err(|e| Failure::Internal(anyhow::anyhow!("embedded demo model is invalid: {e}")))?;
             println!("demo: {}", m.title);
-            solve(&m, &out, None, false, Outputs { quiet, png, format: Format::Text, plot_mode: None })
+            solve(&m, &out, None, false, Outputs { quiet, png, format: Format::Text, figures: report.figures(None) })
         }
         Command::Verify { format } => verify(&format),
     }
@@ -311,7 +311,7 @@ pub(crate) fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model:
 }
 
 /// What `solve` prints and writes besides the standard files.
-#[derive(Clone, Copy)]
+#[derive(Clone)]
 struct Outputs {
     /// No progress bar, a one-line summary.
     quiet: bool,
@@ -319,12 +319,12 @@ struct Outputs {
     png: bool,
     /// Summary and errors as text or JSON.
     format: Format,
-    /// Critical point (1-based) whose first mode `mode.svg` draws.
-    plot_mode: Option<usize>,
+    /// What the figures draw (`--plot-mode`, `--shape-at`, `--colour-by`, `--raster-above`).
+    figures: report::figures::FigureOptions,
 }
 
 fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs: Outputs) -> Result<u8, Failure> {
-    let Outputs { quiet, png, format, plot_mode } = outputs;
+    let Outputs { quiet, png, format, figures } = outputs;
     // Imperfection seeding (path::branch): the perfect path is traced first
     // and the model's geometry offset by the chosen mode; everything below
     // runs on the seeded model.
@@ -401,63 +401,25 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     })?;
     // Plots: a plot that cannot be drawn is reported and left out; the
     // numbers above are written regardless.
-    let node_u: Vec<[f64; 3]> = (0..m.n_nodes())
-        .map(|n| std::array::from_fn(|a| system.dofs.displacement(&path.final_state.u, n, a)))
-        .collect();
-    let member_state = system.member_results(&path.final_state.u);
-    let forces: Vec<f64> = member_state.iter().map(|r| r.force).collect();
-    let slack: Vec<bool> = member_state.iter().map(|r| r.slack).collect();
-    let mut plots = vec![
-        ("path.svg", "Load path: load factor against the watched displacements".to_string(), report::plot::path_svg(&res)),
-        ("shape.svg", "Deformed shape at the last converged state, members shaded by axial force".to_string(), report::plot::shape_svg(m, &node_u, &forces, &slack)),
-        ("convergence.svg", "Convergence: relative residual of every iteration".to_string(), report::plot::convergence_svg(&res)),
-    ];
-    let mut mode_warning = None;
-    if let Some(k) = plot_mode {
-        match path.critical.get(k - 1).filter(|c| !c.modes.is_empty()) {
-            Some(c) => {
-                // The mode (unit norm, a shape) drawn on the structure at the
-                // critical state, scaled so its largest node movement is a
-                // tenth of the structure's largest extent.
-                let at = c.field.as_deref().unwrap_or(&path.final_state.u);
-                let phi = &c.modes[0];
-                let span = report::plot::model_extent(m);
-                let big = (0..m.n_nodes())
-                    .map(|n| (0..3).map(|a| system.dofs.displacement(phi, n, a).powi(2)).sum::<f64>().sqrt())
-                    .fold(0.0, f64::max);
-                let scale = if big > 0.0 { 0.1 * span / big } else { 0.0 };
-                let shown: Vec<[f64; 3]> = (0..m.n_nodes())
-                    .map(|n| std::array::from_fn(|a| system.dofs.displacement(at, n, a) + scale * system.dofs.displacement(phi, n, a)))
-                    .collect();
-                let st = system.member_results(at);
-                let f: Vec<f64> = st.iter().map(|r| r.force).collect();
-                let sl: Vec<bool> = st.iter().map(|r| r.slack).collect();
-                let kind = if c.kind == tautline::path::CriticalKind::Limit { "limit" } else { "bifurcation" };
-                plots.push((
-                    "mode.svg",
-                    format!("Critical point {k} ({kind} at load factor {:.6}): its first mode, largest movement drawn at a tenth of the structure's extent", c.lambda),
-                    report::plot::shape_svg(m, &shown, &f, &sl),
-                ));
-            }
-            None => mode_warning = Some(format!("mode.svg not drawn: the run found {} critical point(s) with modes, not {k}", path.critical.len())),
-        }
-    }
+    let (plots, mut plot_warnings) = report::figures::solve_plots(m, &system, &path, &res, &members, &figures);
     let mut drawn = Vec::new();
-    let mut plot_warnings: Vec<String> = mode_warning.into_iter().collect();
-    for (name, caption, svg) in plots {
-        match svg {
+    for p in plots {
+        let name = p.file.clone().unwrap_or_else(|| "a report figure".into());
+        match p.svg {
             Ok(text) => {
-                if png {
-                    let png_name = name.replace(".svg", ".png");
-                    match report::png::svg_to_png(&text) {
-                        Ok(bytes) => staged.add(out, &png_name, &bytes).map_err(|e| {
-                            Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(&png_name).display()))
-                        })?,
-                        Err(e) => plot_warnings.push(format!("{png_name} not drawn: {e}")),
+                if let Some(file) = &p.file {
+                    if png {
+                        let png_name = file.replace(".svg", ".png");
+                        match report::png::svg_to_png(&text) {
+                            Ok(bytes) => staged.add(out, &png_name, &bytes).map_err(|e| {
+                                Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(&png_name).display()))
+                            })?,
+                            Err(e) => plot_warnings.push(format!("{png_name} not drawn: {e}")),
+                        }
                     }
+                    write(&mut staged, file, text.clone())?;
                 }
-                write(&mut staged, name, text.clone())?;
-                drawn.push((caption, text));
+                drawn.push((p.caption, text));
             }
             Err(e) => plot_warnings.push(format!("{name} not drawn: {e}")),
         }

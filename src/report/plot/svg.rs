@@ -263,3 +263,24 @@ impl Svg {
         self.buf.push('\n');
     }
 }
+
+impl Svg {
+    /// An embedded raster image (a `data:` URI) stretched over the box.
+    pub fn image(&mut self, x: f64, y: f64, w: f64, h: f64, data_uri: &str, class: &str) {
+        let _ = writeln!(
+            self.buf,
+            r#"<image class="{}" x="{}" y="{}" width="{}" height="{}" preserveAspectRatio="none" href="{}"/>"#,
+            esc(class),
+            px(x),
+            px(y),
+            px(w.max(0.0)),
+            px(h.max(0.0)),
+            esc(data_uri)
+        );
+    }
+
+    /// Bytes written so far.
+    pub fn len(&self) -> usize {
+        self.buf.len()
+    }
+}
