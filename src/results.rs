@@ -44,6 +44,8 @@ pub struct Results {
     pub reactions: Vec<ReactionOut>,
     pub equilibrium: EquilibriumOut,
     pub slack_members: Vec<String>,
+    /// The node that moved most at the last converged state (None: no node).
+    pub largest_displacement: Option<NodeDisplacementOut>,
     /// Every time a member went slack along the path, in step order.
     pub slack_events: Vec<SlackEvent>,
     pub mechanism: Option<MechanismOut>,
@@ -272,6 +274,21 @@ pub struct EquilibriumOut {
     pub imbalance: [f64; 3],
     /// |imbalance| / max(|applied| + |reactions|, |total reference load|).
     pub relative_imbalance: f64,
+    /// Of `applied`: the dead load (self-weight, as applied at the end) and
+    /// the reference load before scaling by `load_factor`, model force units.
+    pub dead_load: [f64; 3],
+    pub reference_load: [f64; 3],
+    pub load_factor: f64,
+}
+
+/// One node's displacement, model length units.
+#[derive(Clone, Debug, Serialize)]
+pub struct NodeDisplacementOut {
+    pub node: String,
+    /// |u|.
+    pub magnitude: f64,
+    /// [ux, uy, uz].
+    pub components: [f64; 3],
 }
 
 /// A member that carried no tension over a run of converged steps.
@@ -654,7 +671,19 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
         reactions: react_sum.map(|v| units.force_out(v)),
         imbalance: imbalance.map(|v| units.force_out(v)),
         relative_imbalance: if denom > 0.0 { norm3(imbalance) / denom } else { 0.0 },
+        dead_load: system.applied_total(0.0).map(|v| units.force_out(v)),
+        reference_load: system.total_reference_load().map(|v| units.force_out(v)),
+        load_factor: st.lambda,
     };
+    let largest_displacement = (0..model.n_nodes())
+        .map(|n| [0, 1, 2].map(|a| system.dofs.displacement(&st.u, n, a)))
+        .enumerate()
+        .max_by(|a, b| norm3(a.1).total_cmp(&norm3(b.1)))
+        .map(|(n, d)| NodeDisplacementOut {
+            node: model.nodes[n].label.clone(),
+            magnitude: len(norm3(d)),
+            components: d.map(len),
+        });
     let members = system.member_results(&st.u);
     let slack_members = model
         .members
@@ -748,6 +777,7 @@ pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve:
         reactions,
         equilibrium,
         slack_members,
+        largest_displacement,
         slack_events: slack_events(model, path),
         mechanism: path.mechanism.as_ref().map(|m| MechanismOut {
             load_factor: m.lambda,

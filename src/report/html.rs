@@ -1,10 +1,11 @@
 //! `report.html`: one self-contained page (inline CSS and SVG, no scripts,
-//! no external assets) that prints cleanly. Every number in its tables is
-//! formatted as in `results.json` and `members.csv` (shortest round-trip
-//! form), so the page and the files can be compared value for value.
+//! no external assets) that prints cleanly. It opens with the governing
+//! results, then the figures, then the tables. Numbers in its tables are
+//! printed at 4 significant figures with the unit in the column header
+//! (`numbers::sig4`); `results.json` and the CSV files keep full precision.
 //! Every string from the model is escaped.
 
-use super::num;
+use super::numbers::sig4;
 use crate::model::{MemberKind, Model};
 use crate::results::{MemberOut, Results};
 use std::fmt::Write as _;
@@ -79,10 +80,12 @@ pub fn report_html(model: &Model, results: &Results, members: &[MemberOut], figu
     let _ = writeln!(h, "<h1>{}</h1>", esc(&title));
     let _ = writeln!(h, "<p>Model file: <code>{}</code>; run by {}.</p>", esc(&results.model_file), esc(&results.tool));
     let _ = writeln!(h, "<p id=\"outcome\"><strong>{}</strong></p>", outcome(results));
+    governing(&mut h, results, members);
+    figures_section(&mut h, figures);
     summary(&mut h, model, results);
     settings(&mut h, results);
-    figures_section(&mut h, figures);
     critical(&mut h, results);
+    slack_table(&mut h, results);
     member_tables(&mut h, results, members);
     reactions(&mut h, results);
     equilibrium(&mut h, results);
@@ -104,31 +107,38 @@ fn kv(h: &mut String, rows: &[(&str, String)]) {
     h.push_str("</dl>\n");
 }
 
+fn vec3(v: [f64; 3], unit: &str) -> String {
+    format!("[{}, {}, {}] {unit}", sig4(v[0]), sig4(v[1]), sig4(v[2]))
+}
+
 fn summary(h: &mut String, m: &Model, r: &Results) {
-    let bars = m.members.iter().filter(|x| x.kind == MemberKind::Bar).count();
+    let count = |k: MemberKind| m.members.iter().filter(|x| x.kind == k).count();
+    let kinds: Vec<String> = [(MemberKind::Bar, "bar", "bars"), (MemberKind::Cable, "cable", "cables"), (MemberKind::Catenary, "catenary", "catenaries")]
+        .into_iter()
+        .map(|(k, one, many)| (count(k), one, many))
+        .filter(|(n, _, _)| *n > 0)
+        .map(|(n, one, many)| format!("{n} {}", if n == 1 { one } else { many }))
+        .collect();
     let supported = m.nodes.iter().filter(|n| n.fixed.iter().any(|f| *f)).count();
-    let t = m.total_reference_load();
-    let u = m.units;
+    let e = &r.equilibrium;
+    let f = &r.units.force;
+    let dead = if e.dead_load.iter().all(|v| *v == 0.0) {
+        "none".to_string()
+    } else {
+        format!("total {} (self-weight and catenary weight, always in full)", vec3(e.dead_load, f))
+    };
     h.push_str("<h2 id=\"model\">Model</h2>\n");
     kv(
         h,
         &[
             ("units", format!("force {}, length {}", r.units.force, r.units.length)),
             ("nodes", format!("{} ({supported} supported, {} fixed directions)", m.n_nodes(), m.n_fixed())),
-            ("members", format!("{} ({bars} bars, {} cables)", m.n_members(), m.n_members() - bars)),
+            ("members", format!("{} ({})", m.n_members(), if kinds.is_empty() { "none".into() } else { kinds.join(", ") })),
             ("springs", m.springs.len().to_string()),
             ("free DOFs", (3 * m.n_nodes() - m.n_fixed()).to_string()),
-            (
-                "reference load",
-                format!(
-                    "{} nodal loads, total [{}, {}, {}] {}",
-                    m.loads.len(),
-                    num(u.force_out(t[0])),
-                    num(u.force_out(t[1])),
-                    num(u.force_out(t[2])),
-                    r.units.force
-                ),
-            ),
+            ("dead load", dead),
+            ("reference load", format!("{} nodal loads, total {} (scaled by the load factor λ)", m.loads.len(), vec3(e.reference_load, f))),
+            ("applied at the end", format!("dead load + {} × reference load = {}", sig4(e.load_factor), vec3(e.applied, f))),
         ],
     );
 }
@@ -141,8 +151,8 @@ fn settings(h: &mut String, r: &Results) {
         ("corrector", a.method.clone()),
         ("path control", a.control.clone()),
         ("steps", a.steps.to_string()),
-        ("target", num(a.target)),
-        ("relative residual tolerance", num(a.tolerance)),
+        ("target", sig4(a.target)),
+        ("relative residual tolerance", format!("{:e}", a.tolerance)),
     ];
     if let Some(p) = &a.point {
         rows.push(("controlled point", p.clone()));
@@ -183,7 +193,11 @@ fn td(s: &str) -> String {
 }
 
 fn td_num(v: f64) -> String {
-    format!("<td class=\"num\">{}</td>", num(v))
+    format!("<td class=\"num\">{}</td>", sig4(v))
+}
+
+fn td_int(v: usize) -> String {
+    format!("<td class=\"num\">{v}</td>")
 }
 
 fn shown(h: &mut String, shown: usize, total: usize, what: &str) {
@@ -198,13 +212,15 @@ fn critical(h: &mut String, r: &Results) {
         h.push_str("<p>No critical point was found along the traced path.</p>\n");
         return;
     }
-    let mut header = vec!["kind", "load factor", "step", "pinpointed", "negative pivots", "mode (largest shares)"];
+    h.push_str("<p>Numbered as on the load path plot.</p>\n");
+    let mut header = vec!["#", "kind", "load factor λ [–]", "step", "pinpointed", "negative pivots", "mode (largest shares)"];
     let watch_heads: Vec<String> = r.watch.iter().map(|w| format!("{w} [{}]", r.units.length)).collect();
     header.extend(watch_heads.iter().map(String::as_str));
     table(h, "critical-points", &header);
-    for c in &r.critical_points {
+    for (i, c) in r.critical_points.iter().enumerate() {
         let mut row = format!(
-            "<tr>{}{}<td class=\"num\">{}</td>{}<td class=\"num\">{} → {}</td>{}",
+            "<tr>{}{}{}<td class=\"num\">{}</td>{}<td class=\"num\">{} → {}</td>{}",
+            td_int(i + 1),
             td(&c.kind),
             td_num(c.load_factor),
             c.step,
@@ -225,7 +241,7 @@ fn critical(h: &mut String, r: &Results) {
 fn member_rows(h: &mut String, id: &str, rows: &[&MemberOut], r: &Results) {
     let force = format!("force [{}]", r.units.force);
     let length = format!("length [{}]", r.units.length);
-    table(h, id, &["member", "kind", &force, "strain", &length, "utilisation", "slack"]);
+    table(h, id, &["member", "kind", &force, "strain [–]", &length, "utilisation [–]", "slack"]);
     for m in rows {
         let _ = writeln!(
             h,
@@ -290,31 +306,189 @@ fn member_tables(h: &mut String, r: &Results, members: &[MemberOut]) {
     }
 }
 
+/// One row per supported (or sprung) node: its reaction components.
+pub struct NodeReactions {
+    pub node: String,
+    /// Rx, Ry, Rz (None: the direction is free and has no spring).
+    pub r: [Option<f64>; 3],
+    /// "support", "spring" or "support, spring".
+    pub by: String,
+}
+
+/// The reactions of `results.json` gathered by node, in first-seen order.
+pub fn reactions_by_node(r: &Results) -> Vec<NodeReactions> {
+    let mut rows: Vec<NodeReactions> = Vec::new();
+    let mut index: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
+    for x in &r.reactions {
+        let k = *index.entry(x.node.as_str()).or_insert_with(|| {
+            rows.push(NodeReactions { node: x.node.clone(), r: [None; 3], by: String::new() });
+            rows.len() - 1
+        });
+        let row = &mut rows[k];
+        if let Some(a) = ["x", "y", "z"].iter().position(|d| *d == x.dir) {
+            row.r[a] = Some(row.r[a].unwrap_or(0.0) + x.value);
+        }
+        if !row.by.split(", ").any(|b| b == x.by) {
+            if !row.by.is_empty() {
+                row.by.push_str(", ");
+            }
+            row.by.push_str(&x.by);
+        }
+    }
+    rows
+}
+
 fn reactions(h: &mut String, r: &Results) {
     h.push_str("<h2 id=\"reactions\">Reactions</h2>\n");
     if r.reactions.is_empty() {
         h.push_str("<p>No reaction.</p>\n");
         return;
     }
-    let value = format!("reaction [{}]", r.units.force);
-    table(h, "reactions", &["node", "direction", &value, "by"]);
-    for x in r.reactions.iter().take(LISTED_ROWS) {
-        let _ = writeln!(h, "<tr>{}{}{}{}</tr>", td(&x.node), td(&x.dir), td_num(x.value), td(&x.by));
+    let rows = reactions_by_node(r);
+    let f = &r.units.force;
+    let _ = writeln!(h, "<p>Force each support or ground spring exerts on the structure at the last converged state, one row per node; – : that direction is free.</p>");
+    let heads = [format!("Rx [{f}]"), format!("Ry [{f}]"), format!("Rz [{f}]")];
+    table(h, "reactions", &["node", &heads[0], &heads[1], &heads[2], "by"]);
+    for x in rows.iter().take(LISTED_ROWS) {
+        let cell = |v: Option<f64>| v.map_or_else(|| "<td class=\"num\">–</td>".to_string(), td_num);
+        let _ = writeln!(h, "<tr>{}{}{}{}{}</tr>", td(&x.node), cell(x.r[0]), cell(x.r[1]), cell(x.r[2]), td(&x.by));
     }
     end_table(h);
-    shown(h, r.reactions.len().min(LISTED_ROWS), r.reactions.len(), "reactions (all are in results.json)");
+    shown(h, rows.len().min(LISTED_ROWS), rows.len(), "nodes with reactions (all are in results.json)");
+}
+
+/// Slack events grouped by the step at which they happened: how many
+/// members went slack there and which, and how many carried tension again.
+fn slack_table(h: &mut String, r: &Results) {
+    h.push_str("<h2 id=\"slack-events\">Slack events along the path</h2>\n");
+    if r.slack_events.is_empty() {
+        h.push_str("<p>No member went slack along the path.</p>\n");
+        return;
+    }
+    // step -> (load factor, went slack, tensioned again)
+    let mut by_step: std::collections::BTreeMap<usize, (f64, Vec<&str>, Vec<&str>)> = Default::default();
+    for e in &r.slack_events {
+        by_step.entry(e.step).or_insert((e.load_factor, Vec::new(), Vec::new())).1.push(&e.member);
+        if let (Some(s), Some(l)) = (e.tensioned_step, e.tensioned_load_factor) {
+            by_step.entry(s).or_insert((l, Vec::new(), Vec::new())).2.push(&e.member);
+        }
+    }
+    let _ = writeln!(
+        h,
+        "<p>{} slack event(s) at {} step(s); marked with triangles on the load path plot. Every event is in results.json (<code>slack_events</code>).</p>",
+        r.slack_events.len(),
+        by_step.len()
+    );
+    let names = |v: &[&str]| {
+        const SHOWN: usize = 8;
+        let mut s = v.iter().take(SHOWN).map(|x| esc(x)).collect::<Vec<_>>().join(", ");
+        if v.len() > SHOWN {
+            let _ = write!(s, " and {} more", v.len() - SHOWN);
+        }
+        s
+    };
+    table(h, "slack-events", &["step", "load factor λ [–]", "went slack", "members", "tensioned again", "members"]);
+    for (step, (lambda, slack, back)) in by_step.iter().take(LISTED_ROWS) {
+        let _ = writeln!(
+            h,
+            "<tr>{}{}{}<td>{}</td>{}<td>{}</td></tr>",
+            td_int(*step),
+            td_num(*lambda),
+            td_int(slack.len()),
+            names(slack),
+            td_int(back.len()),
+            names(back)
+        );
+    }
+    end_table(h);
+    shown(h, by_step.len().min(LISTED_ROWS), by_step.len(), "steps with slack events");
+}
+
+/// The governing results, first on the page.
+fn governing(h: &mut String, r: &Results, members: &[MemberOut]) {
+    h.push_str("<h2 id=\"governing\">Governing results</h2>\n");
+    let (f, l) = (&r.units.force, &r.units.length);
+    let mut rows: Vec<(String, String)> = Vec::new();
+    let state = match r.steps.last() {
+        Some(s) => format!("step {}, load factor λ = {}", s.step, sig4(s.load_factor)),
+        None => "no converged state".into(),
+    };
+    rows.push(("last converged state".into(), state));
+    if let Some(d) = &r.largest_displacement {
+        rows.push((
+            format!("largest displacement [{l}]"),
+            format!("{} at node {} (ux, uy, uz = {}, {}, {})", sig4(d.magnitude), esc(&d.node), sig4(d.components[0]), sig4(d.components[1]), sig4(d.components[2])),
+        ));
+    }
+    let by = |pick: &dyn Fn(&MemberOut) -> Option<f64>| {
+        members.iter().filter_map(|m| pick(m).filter(|v| v.is_finite()).map(|v| (m, v))).max_by(|a, b| a.1.total_cmp(&b.1))
+    };
+    match by(&|m| (m.force > 0.0).then_some(m.force)) {
+        Some((m, v)) => rows.push((format!("largest tension [{f}]"), format!("{} in member {}", sig4(v), esc(&m.id)))),
+        None => rows.push((format!("largest tension [{f}]"), "no member in tension".into())),
+    }
+    if let Some((m, v)) = by(&|m| (m.force < 0.0).then_some(-m.force)) {
+        rows.push((format!("largest compression [{f}]"), format!("{} in member {}", sig4(-v), esc(&m.id))));
+    }
+    if let Some((m, v)) = by(&|m| m.utilisation) {
+        let over = members.iter().filter(|m| m.utilisation.is_some_and(|u| u > 1.0)).count();
+        let with = members.iter().filter(|m| m.utilisation.is_some()).count();
+        let text = format!("{} in member {}; {over} of {with} members with a capacity exceed it", sig4(v), esc(&m.id));
+        rows.push(("largest utilisation [–]".into(), if over > 0 { format!("<span class=\"fail\">{text}</span>") } else { text }));
+    }
+    let slack_end = r.slack_members.len();
+    let slack_kinds = members.iter().filter(|m| m.slack).count();
+    rows.push((
+        "slack at the end".into(),
+        format!(
+            "{} member(s){}; {} slack event(s) along the path",
+            slack_end.max(slack_kinds),
+            if slack_end > 0 { format!(" ({})", r.slack_members.iter().take(6).map(|x| esc(x)).collect::<Vec<_>>().join(", ") + if slack_end > 6 { ", …" } else { "" }) } else { String::new() },
+            r.slack_events.len()
+        ),
+    ));
+    if r.critical_points.is_empty() {
+        rows.push(("critical points".into(), "none found along the traced path".into()));
+    } else {
+        const SHOWN: usize = 6;
+        let mut list: Vec<String> =
+            r.critical_points.iter().take(SHOWN).enumerate().map(|(i, c)| format!("{}: {} at λ = {}", i + 1, esc(&c.kind), sig4(c.load_factor))).collect();
+        if r.critical_points.len() > SHOWN {
+            list.push(format!("and {} more (table below)", r.critical_points.len() - SHOWN));
+        }
+        rows.push(("critical points".into(), list.join("; ")));
+    }
+    let stable = match r.stable_at_end {
+        Some(true) => "stable (no negative pivot in the tangent)".to_string(),
+        Some(false) => format!("<span class=\"fail\">not stable: {} negative pivot(s) in the tangent</span>", r.negative_pivots_at_end),
+        None => "not known: the pivots were not counted at the last state".to_string(),
+    };
+    rows.push(("end state".into(), stable));
+    table(h, "governing", &["quantity", "value"]);
+    for (k, v) in rows {
+        // Values were escaped above; they may carry emphasis markup.
+        let _ = writeln!(h, "<tr><th scope=\"row\">{}</th><td>{v}</td></tr>", esc(&k));
+    }
+    end_table(h);
 }
 
 fn equilibrium(h: &mut String, r: &Results) {
     let e = &r.equilibrium;
     h.push_str("<h2 id=\"equilibrium\">Equilibrium check</h2>\n");
-    let _ = writeln!(h, "<p>Applied load plus reactions, summed over the structure, at the last converged state [{}].</p>", esc(&r.units.force));
-    table(h, "equilibrium", &["", "x", "y", "z"]);
-    for (name, v) in [("applied", e.applied), ("reactions", e.reactions), ("imbalance", e.imbalance)] {
+    let _ = writeln!(
+        h,
+        "<p>Loads and reactions summed over the structure at the last converged state (load factor λ = {}): applied = dead load + λ × reference load.</p>",
+        sig4(e.load_factor)
+    );
+    let f = &r.units.force;
+    let heads = [format!("x [{f}]"), format!("y [{f}]"), format!("z [{f}]")];
+    table(h, "equilibrium", &["", &heads[0], &heads[1], &heads[2]]);
+    let scaled = e.reference_load.map(|v| v * e.load_factor);
+    for (name, v) in [("dead load", e.dead_load), ("λ × reference load", scaled), ("applied", e.applied), ("reactions", e.reactions), ("imbalance", e.imbalance)] {
         let _ = writeln!(h, "<tr>{}{}{}{}</tr>", td(name), td_num(v[0]), td_num(v[1]), td_num(v[2]));
     }
     end_table(h);
-    let _ = writeln!(h, "<p>Relative imbalance |applied + reactions| / (|applied| + |reactions|) = <span id=\"relative-imbalance\">{}</span>.</p>", num(e.relative_imbalance));
+    let _ = writeln!(h, "<p>Relative imbalance |applied + reactions| / (|applied| + |reactions|) = <span id=\"relative-imbalance\">{:.3e}</span>.</p>", e.relative_imbalance);
 }
 
 fn statistics(h: &mut String, r: &Results) {
@@ -327,10 +501,10 @@ fn statistics(h: &mut String, r: &Results) {
             ("factorizations", t.factorizations.to_string()),
             ("residual evaluations", t.residual_evaluations.to_string()),
             ("cut-backs", format!("{} ({} iterations spent in attempts cut back)", t.cutbacks, t.wasted_iterations)),
-            ("wall time", format!("{} s", num(t.seconds))),
+            ("wall time", format!("{} s", sig4(t.seconds))),
         ],
     );
-    table(h, "steps", &["step", "load factor", "iterations", "factorizations", "relative residual", "negative pivots"]);
+    table(h, "steps", &["step", "load factor λ [–]", "iterations", "factorizations", "relative residual [–]", "negative pivots"]);
     for s in r.steps.iter().take(LISTED_ROWS) {
         let _ = writeln!(
             h,
@@ -339,7 +513,7 @@ fn statistics(h: &mut String, r: &Results) {
             td_num(s.load_factor),
             s.iterations,
             s.factorizations,
-            td_num(s.residual),
+            format!("<td class=\"num\">{:.3e}</td>", s.residual),
             s.negative_pivots,
             if s.pivots_checked { "" } else { " (carried)" }
         );

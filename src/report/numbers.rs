@@ -30,6 +30,16 @@ pub fn sig(v: f64, digits: usize) -> String {
     format!("{rounded:.decimals$}")
 }
 
+/// At most 4 significant figures, trailing zeros of the decimals dropped
+/// (`0.01`, `-0.025`, `12.5`): for round values such as colour band edges.
+pub fn sig4_short(v: f64) -> String {
+    let s = sig4(v);
+    if s.contains('e') || !s.contains('.') {
+        return s;
+    }
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
 /// A signed value at 4 significant figures with an explicit `+` on
 /// positive values (legend ends of a force scale).
 pub fn sig4_signed(v: f64) -> String {
@@ -53,6 +63,10 @@ mod tests {
         assert_eq!(sig4(1.0), "1.000");
         assert_eq!(sig4(f64::NAN), "NaN");
         assert_eq!(sig4_signed(3.0), "+3.000");
+        assert_eq!(sig4_short(-0.01), "-0.01");
+        assert_eq!(sig4_short(12.5), "12.5");
+        assert_eq!(sig4_short(200.0), "200");
+        assert_eq!(sig4_short(36436.0), "36440");
         // Every printed value reads back within half a unit of its 4th digit.
         for v in [123.456, -0.98765, 4.4444e-4, 7.77777e9, 999.95] {
             let back: f64 = sig4(v).parse().unwrap();

@@ -29,6 +29,12 @@ const MARGIN_R: f64 = 220.0;
 const MARGIN_T: f64 = 62.0;
 const MARGIN_B: f64 = 74.0;
 const MARKER_R: f64 = 4.0;
+/// Above this many critical points the path plot numbers its rings and lists them.
+pub const NUMBERED_ABOVE: usize = 4;
+/// Above this many steps the convergence plot marks step boundaries by ticks.
+pub const MANY_STEPS: usize = 40;
+/// Row height of that list, px.
+const LIST_ROW: f64 = 13.0;
 
 /// Series colours: dark enough to print as distinct greys.
 const SERIES_COLORS: [&str; 6] = ["#1b3a6b", "#7a2e0e", "#2f5d34", "#5b2a6e", "#6b5a12", "#2b5f66"];
@@ -264,7 +270,10 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
     let x = Scale::new(xa, xb, f.left, f.right());
     let y = Scale::new(ya, yb, f.bottom(), f.top);
 
-    let mut svg = Svg::new(PLOT_W, PLOT_H);
+    // A numbered list of many critical points makes the plot taller.
+    let list_rows = if results.critical_points.len() > NUMBERED_ABOVE { results.critical_points.len() + 1 } else { 0 };
+    let height = PLOT_H.max(f.top + 10.0 + 18.0 * (n_series + 4) as f64 + 22.0 + LIST_ROW * list_rows as f64 + 20.0);
+    let mut svg = Svg::new(PLOT_W, height);
     title(&mut svg, heading, "load path");
     let len = &results.units.length;
     let force = &results.units.force;
@@ -312,19 +321,62 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
         svg.close_group();
     }
 
+    // Steps at which cables went slack: a hollow downward triangle under
+    // the point on each series.
+    let slack_steps: std::collections::BTreeSet<usize> = results.slack_events.iter().map(|e| e.step).collect();
+    for st in results.steps.iter().filter(|s| slack_steps.contains(&s.step)) {
+        for xv in st.watched.iter().take(n_series) {
+            if point_ok(*xv, st.load_factor) {
+                svg.marker(Shape::TriangleDown, x.at(*xv), y.at(st.load_factor) + 11.0, 4.0, INK, false, "slack-mark");
+            }
+        }
+    }
+
     // Critical points: a ring around the point on each series, text once.
-    for c in &results.critical_points {
+    // Up to NUMBERED_ABOVE points the label says kind and load factor;
+    // beyond, each ring gets its number, placed clear of the markers and of
+    // the other numbers, and the list of numbers goes in the margin.
+    let numbered = results.critical_points.len() > NUMBERED_ABOVE;
+    let mut taken: Vec<[f64; 4]> = Vec::new();
+    if numbered {
+        for st in &results.steps {
+            for xv in st.watched.iter().take(n_series).filter(|v| point_ok(**v, st.load_factor)) {
+                let (px, py) = (x.at(*xv), y.at(st.load_factor));
+                taken.push([px - MARKER_R, py - MARKER_R, px + MARKER_R, py + MARKER_R]);
+            }
+        }
+    }
+    for (k, c) in results.critical_points.iter().enumerate() {
         if !c.load_factor.is_finite() {
             continue;
         }
         let mut labelled = false;
-        for (i, xv) in c.watched.iter().enumerate().take(n_series) {
+        for xv in c.watched.iter().take(n_series) {
             if !xv.is_finite() {
                 continue;
             }
             let (px, py) = (x.at(*xv), y.at(c.load_factor));
             svg.marker(Shape::Circle, px, py, 8.0, INK, false, "crit");
-            if !labelled {
+            if labelled {
+                continue;
+            }
+            labelled = true;
+            if numbered {
+                let text = (k + 1).to_string();
+                let (w, hgt) = (0.62 * 11.0 * text.len() as f64 + 2.0, 11.0);
+                // Candidate places around the ring, nearest first.
+                let candidates = [
+                    (10.0, -9.0), (10.0, 16.0), (-10.0 - w, -9.0), (-10.0 - w, 16.0), (-w / 2.0, -13.0), (-w / 2.0, 24.0),
+                    (18.0, -20.0), (18.0, 28.0), (-18.0 - w, -20.0), (-18.0 - w, 28.0), (26.0, 4.0), (-26.0 - w, 4.0),
+                    (-w / 2.0, -28.0), (-w / 2.0, 40.0), (34.0, -30.0), (-34.0 - w, 38.0),
+                ];
+                let boxed = |(dx, dy): (f64, f64)| [px + dx, py + dy - hgt, px + dx + w, py + dy + 2.0];
+                let inside = |b: &[f64; 4]| b[0] >= f.left && b[2] <= f.right() && b[1] >= f.top && b[3] <= f.bottom();
+                let free = |b: &[f64; 4]| taken.iter().all(|t| b[2] < t[0] || b[0] > t[2] || b[3] < t[1] || b[1] > t[3]);
+                let pick = candidates.iter().map(|c| boxed(*c)).find(|b| inside(b) && free(b)).unwrap_or_else(|| boxed(candidates[0]));
+                taken.push(pick);
+                svg.text_halo(pick[0], pick[3] - 2.0, &text, 11.0, Anchor::Start, "crit-label");
+            } else {
                 // Centred on the outer side of the turn (room was left
                 // there), unless that leaves the frame.
                 let below = crit_below(results, c);
@@ -343,10 +395,9 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
                 } else {
                     (Anchor::Middle, 0.0)
                 };
-                svg.text_halo(px + dx, py + dy, &format!("{} λ = {:.4}", c.kind, c.load_factor), 11.5, anchor, "crit-label");
-                labelled = true;
+                let text = format!("{} {} λ = {:.4}", k + 1, c.kind, c.load_factor);
+                svg.text_halo(px + dx, py + dy, &text, 11.5, anchor, "crit-label");
             }
-            let _ = i;
         }
     }
 
@@ -371,7 +422,21 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
     if !results.critical_points.is_empty() {
         rows.push(LegendRow { stroke: None, marker: Some((Shape::Circle, false)), color: INK, label: "ring: critical point".into() });
     }
-    legend(&mut svg, f.right() + 18.0, f.top + 10.0, &rows);
+    if !slack_steps.is_empty() {
+        rows.push(LegendRow { stroke: None, marker: Some((Shape::TriangleDown, false)), color: INK, label: "under a point: cables went slack".into() });
+    }
+    let lx = f.right() + 18.0;
+    legend(&mut svg, lx, f.top + 10.0, &rows);
+    if numbered {
+        // The legend table of the numbered rings.
+        let mut ly = f.top + 10.0 + 18.0 * rows.len() as f64 + 22.0;
+        svg.text(lx - 6.0, ly, "critical points", 12.0, Anchor::Start, "crit-table-head");
+        ly += LIST_ROW;
+        for (k, c) in results.critical_points.iter().enumerate() {
+            svg.text(lx - 6.0, ly, &format!("{:>2}  {} λ = {:.4}", k + 1, c.kind, c.load_factor), 10.5, Anchor::Start, "crit-table");
+            ly += LIST_ROW;
+        }
+    }
     Ok(svg.finish())
 }
 
@@ -429,11 +494,23 @@ pub fn convergence_svg(results: &Results) -> Result<String, String> {
         svg.line(px, f.bottom(), px, f.bottom() + 5.0, Stroke::solid(INK, 1.0), "tick");
         svg.text(px, f.bottom() + 19.0, &tick_label(t, xs.max(1.0)), 11.0, Anchor::Middle, "tick-label");
     }
+    // Many steps: full-height boundaries would grey the plot over, so they
+    // shrink to ticks along the top edge, with step numbers at round
+    // intervals above them.
+    let many = starts.len() > MANY_STEPS;
     for (k, (start, _step)) in starts.iter().enumerate() {
         if k > 0 {
             let px = x.at(*start as f64 - 0.5);
-            svg.line(px, f.top, px, f.bottom(), Stroke::solid(MUTED, 0.6), "step-boundary");
+            let bottom = if many { f.top + 6.0 } else { f.bottom() };
+            svg.line(px, f.top, px, bottom, Stroke::solid(MUTED, 0.6), "step-boundary");
         }
+    }
+    if many {
+        let every = nice_step(0.0, starts.len() as f64, 8.0).max(1.0) as usize;
+        for (start, step) in starts.iter().filter(|(_, st)| st % every == 0) {
+            svg.text(x.at(*start as f64), f.top - 4.0, &format!("{step}"), 10.0, Anchor::Middle, "step-label");
+        }
+        svg.text(f.left, f.top - 16.0, "step:", 10.0, Anchor::Start, "step-label");
     }
     if positive(tol) {
         let py = y.at(tol.log10());
@@ -462,10 +539,12 @@ pub fn convergence_svg(results: &Results) -> Result<String, String> {
             continue;
         }
         let (px, py) = (x.at(*i as f64), y.at(r.log10()));
+        // Markers shrink as the iterations crowd the axis.
+        let crowd = (f.width / idx.max(1) as f64).clamp(0.35, 1.0);
         if *refactored {
-            svg.marker(Shape::Square, px, py, MARKER_R + 1.0, INK, false, "refactor");
+            svg.marker(Shape::Square, px, py, (MARKER_R + 1.0) * crowd.max(0.6), INK, false, "refactor");
         } else {
-            svg.marker(Shape::Circle, px, py, 2.6, color, true, "it");
+            svg.marker(Shape::Circle, px, py, 2.6 * crowd, color, true, "it");
         }
     }
     let rows = [

@@ -6,14 +6,14 @@
 //! black-and-white print. Legend numbers at 4 significant figures.
 
 use super::svg::{Anchor, Stroke, Svg, INK};
-use crate::report::numbers::sig4;
+use crate::report::numbers::{sig4, sig4_short};
 
 /// Deep teal (tension, and the sequential ramp's dark end).
 pub const TENSION_RGB: [f64; 3] = [16.0, 96.0, 104.0];
 /// Brick red (compression).
 pub const COMPRESSION_RGB: [f64; 3] = [176.0, 58.0, 34.0];
 /// Pale sand: zero on a diverging scale, the light end of a sequential one.
-pub const NEUTRAL_RGB: [f64; 3] = [226.0, 219.0, 200.0];
+pub const NEUTRAL_RGB: [f64; 3] = [216.0, 207.0, 184.0];
 /// Deep violet: downward movement on the displacement maps.
 pub const DOWN_RGB: [f64; 3] = [58.0, 36.0, 110.0];
 /// Dark ochre: upward movement on the displacement maps.
@@ -35,8 +35,8 @@ pub struct ColourScale {
     /// Words beside the two ends of the bar (e.g. "tension").
     pub hi_note: String,
     pub lo_note: String,
-    /// Number of equal bands (a banded scale), None: continuous.
-    pub bands: Option<usize>,
+    /// Band edges, ascending (a banded scale), None: continuous.
+    pub bands: Option<Vec<f64>>,
 }
 
 fn mix(end: [f64; 3], t: f64) -> [u8; 3] {
@@ -71,8 +71,22 @@ impl ColourScale {
         ColourScale { ramp, title, hi_note: String::new(), lo_note: String::new(), bands: None }
     }
 
+    /// Bands at "nice" edges (1, 2 or 5 × 10^k apart, about `n` of them)
+    /// covering the scale's range.
+    pub fn banded(mut self, n: usize) -> ColourScale {
+        let (lo, hi) = self.range();
+        let (_, _, edges) = super::ticks(lo, hi, n as f64);
+        if edges.len() >= 2 {
+            self.bands = Some(edges);
+        }
+        self
+    }
+
     /// The value range, smallest first.
     pub fn range(&self) -> (f64, f64) {
+        if let Some(e) = self.bands.as_ref().filter(|e| e.len() >= 2) {
+            return (e[0], e[e.len() - 1]);
+        }
         match self.ramp {
             Ramp::Sequential { lo, hi, .. } => (lo.min(hi), lo.max(hi)),
             Ramp::Diverging { neg, pos, .. } => (neg, pos),
@@ -98,19 +112,23 @@ impl ColourScale {
 
     /// Band index of `v` (0 the lowest), for a banded scale.
     pub fn band(&self, v: f64) -> Option<usize> {
-        let n = self.bands?;
-        let (lo, hi) = self.range();
-        if !(hi > lo) || !v.is_finite() {
+        let e = self.bands.as_ref()?;
+        let n = e.len().saturating_sub(1).max(1);
+        if !v.is_finite() {
             return Some(0);
         }
-        Some((((v - lo) / (hi - lo) * n as f64).floor().max(0.0) as usize).min(n - 1))
+        Some(e.partition_point(|x| *x <= v).saturating_sub(1).min(n - 1))
     }
 
-    /// Edges of the bands, lowest first (n + 1 values).
+    /// Edges of the bands, lowest first (the range's ends when continuous).
     pub fn band_edges(&self) -> Vec<f64> {
-        let (lo, hi) = self.range();
-        let n = self.bands.unwrap_or(1);
-        (0..=n).map(|k| lo + (hi - lo) * k as f64 / n as f64).collect()
+        match &self.bands {
+            Some(e) if e.len() >= 2 => e.clone(),
+            _ => {
+                let (lo, hi) = self.range();
+                vec![lo, hi]
+            }
+        }
     }
 
     /// Colour of `v` (banded scales give the colour of the band's middle).
@@ -139,10 +157,10 @@ impl ColourScale {
         let top = y + 12.0;
         let (lo, hi) = self.range();
         let at = |v: f64| if hi > lo { top + (hi - v) / (hi - lo) * height } else { top + 0.5 * height };
-        match self.bands {
-            Some(n) => {
+        match &self.bands {
+            Some(_) => {
                 let e = self.band_edges();
-                for k in 0..n {
+                for k in 0..e.len() - 1 {
                     let (y0, y1) = (at(e[k + 1]), at(e[k]));
                     svg.rect(x, y0, BAR_W, (y1 - y0).max(0.5), &self.hex(0.5 * (e[k] + e[k + 1])), None, "colour-band");
                 }
@@ -157,7 +175,7 @@ impl ColourScale {
         }
         svg.rect(x, top, BAR_W, height, "none", Some(Stroke::solid(INK, 0.8)), "colour-bar");
         let mut marks: Vec<(f64, String)> = Vec::new();
-        match (self.bands, self.ramp) {
+        match (&self.bands, self.ramp) {
             (Some(_), _) => marks.extend(self.band_edges().into_iter().rev().map(|v| (v, String::new()))),
             (None, Ramp::Diverging { .. }) => marks.extend([(hi, String::new()), (0.0, String::new()), (lo, String::new())]),
             (None, _) => marks.extend([(hi, String::new()), (lo, String::new())]),
@@ -180,7 +198,7 @@ impl ColourScale {
                 continue;
             }
             svg.line(x + BAR_W, py, x + BAR_W + 5.0, py, Stroke::solid(INK, 1.0), "tick");
-            let mut text = sig4(v);
+            let mut text = if self.bands.is_some() { sig4_short(v) } else { sig4(v) };
             for part in [unit, note.as_str()] {
                 if !part.is_empty() {
                     text.push(' ');

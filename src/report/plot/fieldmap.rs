@@ -1,10 +1,10 @@
 //! Plan maps of a nodal quantity (the vertical displacement of a step, the
-//! vertical part of a critical mode): the nodes are binned into a grid of
-//! cells over the plan (cell value: the mean of its nodes), drawn as filled
-//! cells in a few colour bands, a filled-contour reading that prints in grey.
-//! The number of cells is bounded (at most `MAX_CELLS` a side), so a map's
-//! size does not grow with the model; equal cells in a row are merged into
-//! one rectangle.
+//! vertical part of a critical mode) on a grid of cells over the plan, each
+//! cell the inverse-distance-weighted mean of the nodes near it, drawn in a
+//! few colour bands at round values: a filled-contour reading that prints
+//! in grey. The number of cells is fixed (`CELLS` along the longer side), so
+//! a map's size does not grow with the model; equal cells in a row are
+//! merged into one rectangle.
 
 use super::colour::{ColourScale, DOWN_RGB, UP_RGB};
 use super::svg::{Anchor, Shape, Svg, INK};
@@ -14,10 +14,10 @@ use crate::report::numbers::sig4;
 
 pub const MAP_W: f64 = 900.0;
 pub const MAP_H: f64 = 560.0;
-/// Cells along the longer plan side, at most.
-pub const MAX_CELLS: usize = 96;
-/// Colour bands of a map.
-pub const BANDS: usize = 10;
+/// Cells along the longer plan side (the map's size does not grow with the model).
+pub const CELLS: usize = 72;
+/// About this many colour bands on a map (at round values).
+pub const BANDS: usize = 8;
 
 /// One map: a value per node (in the units named by `unit`).
 pub struct MapInput<'a> {
@@ -50,52 +50,61 @@ pub fn plan_map_svg(input: &MapInput) -> Result<String, String> {
     if !input.values.iter().any(|v| v.is_finite()) {
         return Ok(no_data(MAP_W, MAP_H, heading, "no finite values"));
     }
-    // Grid: about one cell per node along each side, at most MAX_CELLS.
-    let long = ((model.nodes.len() as f64).sqrt().ceil() as usize).clamp(4, MAX_CELLS);
+    // Grid: CELLS cells along the longer side. A cell takes the
+    // inverse-distance-weighted mean (weights 1/d², Shepard 1968) of the
+    // nodes within 1.5 node spacings of its centre, the spacing being that
+    // of an even spread of the nodes over the plan; a cell with no node
+    // that near is left blank (outside the structure).
     let (nx, ny) = if x1 - x0 >= y1 - y0 {
-        (long, ((long as f64) * (y1 - y0) / (x1 - x0)).round().max(1.0) as usize)
+        (CELLS, ((CELLS as f64) * (y1 - y0) / (x1 - x0)).round().max(1.0) as usize)
     } else {
-        (((long as f64) * (x1 - x0) / (y1 - y0)).round().max(1.0) as usize, long)
+        (((CELLS as f64) * (x1 - x0) / (y1 - y0)).round().max(1.0) as usize, CELLS)
     };
-    let mut sum = vec![0.0; nx * ny];
-    let mut count = vec![0u32; nx * ny];
-    let cell = |x: f64, y: f64| {
-        let i = (((x - x0) / (x1 - x0) * nx as f64).floor().max(0.0) as usize).min(nx - 1);
-        let j = (((y - y0) / (y1 - y0) * ny as f64).floor().max(0.0) as usize).min(ny - 1);
-        j * nx + i
+    let spacing = ((x1 - x0) * (y1 - y0) / model.nodes.len() as f64).sqrt();
+    let radius = 1.5 * spacing.max((x1 - x0).max(y1 - y0) / CELLS as f64);
+    // Nodes in buckets of the search radius.
+    let (bx, by) = (((x1 - x0) / radius).ceil().max(1.0) as usize, ((y1 - y0) / radius).ceil().max(1.0) as usize);
+    let bucket_of = |x: f64, y: f64| {
+        let i = (((x - x0) / radius).floor().max(0.0) as usize).min(bx - 1);
+        let j = (((y - y0) / radius).floor().max(0.0) as usize).min(by - 1);
+        (i, j)
     };
-    for (n, v) in model.nodes.iter().zip(input.values) {
-        if v.is_finite() {
-            let c = cell(len(n.at[0]), len(n.at[1]));
-            sum[c] += v;
-            count[c] += 1;
+    let mut buckets: Vec<Vec<usize>> = vec![Vec::new(); bx * by];
+    for (k, (n, v)) in model.nodes.iter().zip(input.values).enumerate() {
+        if v.is_finite() && n.at[0].is_finite() && n.at[1].is_finite() {
+            let (i, j) = bucket_of(len(n.at[0]), len(n.at[1]));
+            buckets[j * bx + i].push(k);
         }
     }
-    let mut value: Vec<Option<f64>> = sum.iter().zip(&count).map(|(s, c)| (*c > 0).then(|| s / *c as f64)).collect();
-    // Gaps left by binning (a node row falling between cells) are filled
-    // from their neighbours: only cells with at least two filled
-    // neighbours, so the map does not spread past the structure's edge.
-    for _ in 0..2 {
-        let before = value.clone();
-        for j in 0..ny {
-            for i in 0..nx {
-                if before[j * nx + i].is_some() {
-                    continue;
-                }
-                let nb: Vec<f64> = [(i.wrapping_sub(1), j), (i + 1, j), (i, j.wrapping_sub(1)), (i, j + 1)]
-                    .into_iter()
-                    .filter(|(a, b)| *a < nx && *b < ny)
-                    .filter_map(|(a, b)| before[b * nx + a])
-                    .collect();
-                if nb.len() >= 2 {
-                    value[j * nx + i] = Some(nb.iter().sum::<f64>() / nb.len() as f64);
+    let (cw_m, ch_m) = ((x1 - x0) / nx as f64, (y1 - y0) / ny as f64);
+    let mut value: Vec<Option<f64>> = vec![None; nx * ny];
+    for j in 0..ny {
+        for i in 0..nx {
+            let (cx, cy) = (x0 + (i as f64 + 0.5) * cw_m, y0 + (j as f64 + 0.5) * ch_m);
+            let (bi, bj) = bucket_of(cx, cy);
+            let (mut wsum, mut vsum) = (0.0, 0.0);
+            let mut exact = None;
+            for b in bj.saturating_sub(1)..(bj + 2).min(by) {
+                for a in bi.saturating_sub(1)..(bi + 2).min(bx) {
+                    for &k in &buckets[b * bx + a] {
+                        let n = &model.nodes[k];
+                        let d2 = (len(n.at[0]) - cx).powi(2) + (len(n.at[1]) - cy).powi(2);
+                        if d2 > radius * radius {
+                            continue;
+                        }
+                        if d2 < 1e-24 * radius * radius {
+                            exact = Some(input.values[k]);
+                        }
+                        wsum += 1.0 / d2.max(1e-24 * radius * radius);
+                        vsum += input.values[k] / d2.max(1e-24 * radius * radius);
+                    }
                 }
             }
+            value[j * nx + i] = exact.or((wsum > 0.0).then(|| vsum / wsum));
         }
     }
     let unit_part = if input.unit.is_empty() { String::new() } else { format!(" [{}]", input.unit) };
-    let mut scale = ColourScale::fit(input.values.iter().copied(), UP_RGB, DOWN_RGB, format!("{}{unit_part}", input.quantity));
-    scale.bands = Some(BANDS);
+    let scale = ColourScale::fit(input.values.iter().copied(), UP_RGB, DOWN_RGB, format!("{}{unit_part}", input.quantity)).banded(BANDS);
 
     let mut svg = Svg::new(MAP_W, MAP_H);
     title(&mut svg, heading, "plan map");
@@ -113,7 +122,7 @@ pub fn plan_map_svg(input: &MapInput) -> Result<String, String> {
     let lu = model.units.length.name();
     axes(&mut svg, f, &x, &xt, &y, &yt, &format!("x [{lu}]"), &format!("y [{lu}]"));
     let (cw, ch) = (f.width / nx as f64, f.height / ny as f64);
-    svg.open_group("map");
+    svg.open_crisp_group("map");
     for j in 0..ny {
         let mut i = 0;
         while i < nx {
@@ -143,7 +152,8 @@ pub fn plan_map_svg(input: &MapInput) -> Result<String, String> {
     }
     let lx = MAP_W - 280.0;
     let below = scale.legend(&mut svg, lx, 90.0, 240.0, &input.unit);
-    svg.text(lx, below + 10.0, &format!("{nx} × {ny} cells, each the mean of its nodes"), 11.0, Anchor::Start, "legend-note");
-    svg.text(lx, below + 24.0, "ring: largest magnitude", 11.0, Anchor::Start, "legend-note");
+    svg.text(lx, below + 10.0, &format!("{nx} × {ny} cells, each a distance-weighted"), 11.0, Anchor::Start, "legend-note");
+    svg.text(lx, below + 24.0, "mean of the nodes near it", 11.0, Anchor::Start, "legend-note");
+    svg.text(lx, below + 38.0, "ring: largest magnitude", 11.0, Anchor::Start, "legend-note");
     Ok(svg.finish())
 }

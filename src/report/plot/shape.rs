@@ -198,9 +198,12 @@ pub fn shape_svg_with(input: &ShapeInput, opts: &ShapeOptions) -> Result<String,
     };
     let scale = match utilisation {
         Some(_) => {
-            let mut s = ColourScale::fit([0.0, 1.0], TENSION_RGB, TENSION_RGB, "utilisation, force ÷ capacity [–]".into());
-            s.lo_note = "(none)".into();
-            s.hi_note = "(at capacity)".into();
+            // From 0 to the largest utilisation, or to 1 when some member
+            // is over capacity (those are drawn black, off the scale).
+            let top = utilisation.map_or(1.0, |u| u.iter().flatten().copied().filter(|v| v.is_finite()).fold(0.0, f64::max));
+            let top = if top > 0.0 { top.min(1.0) } else { 1.0 };
+            let mut s = ColourScale::fit([0.0, top], TENSION_RGB, TENSION_RGB, "utilisation, force ÷ capacity [–]".into());
+            s.hi_note = if top >= 1.0 { "(at capacity)".into() } else { "(largest)".into() };
             s
         }
         None => {
@@ -254,7 +257,7 @@ pub fn shape_svg_with(input: &ShapeInput, opts: &ShapeOptions) -> Result<String,
     svg.text(SHAPE_W / 2.0, 46.0, &line2, 12.0, Anchor::Middle, "scale");
 
     const LEGEND_W: f64 = 210.0;
-    const GAP: f64 = 60.0;
+    const GAP: f64 = 84.0;
     let panel_w = (SHAPE_W - MARGIN_L - LEGEND_W - GAP - 30.0) / 2.0;
     let panels = [(0usize, 1usize, "plan (x–y)"), (0usize, 2usize, "elevation (x–z)")];
     // Sag offsets of the catenaries, at the actual state.

@@ -121,6 +121,12 @@ impl Svg {
         let _ = writeln!(self.buf, r#"<g class="{}">"#, esc(class));
     }
 
+    /// A group whose filled shapes are drawn with crisp edges (no
+    /// anti-aliased seams between abutting cells).
+    pub fn open_crisp_group(&mut self, class: &str) {
+        let _ = writeln!(self.buf, r#"<g class="{}" shape-rendering="crispEdges">"#, esc(class));
+    }
+
     pub fn close_group(&mut self) {
         self.buf.push_str("</g>\n");
     }
