@@ -141,8 +141,10 @@ pub fn solve_plots(
     plots.push(Plot {
         file: Some("path.svg".into()),
         caption: format!(
-            "Load path: load factor λ against the watched displacements (load case: {}); numbered rings are the critical points of the table below, triangles the steps at which cables went slack",
-            load_case(system, 1.0).replace("1.000 × ", "λ × ")
+            "Load path: load factor λ against the watched displacements (load case: {}){}{}",
+            load_case(system, 1.0).replace("1.000 × ", "λ × "),
+            if res.critical_points.is_empty() { "" } else { "; numbered rings are the critical points of the table below" },
+            if res.slack_events.is_empty() { "" } else { "; triangles mark the steps at which cables went slack" }
         ),
         svg: plot::path_svg(res),
     });

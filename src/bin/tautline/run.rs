@@ -732,7 +732,9 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
     // drawn at rest (no displacement), so it is the shape `solve` starts from.
     let at_rest = vec![[0.0; 3]; formed.n_nodes()];
     let slack: Vec<bool> = formed.members.iter().zip(&found.forces).map(|(mb, f)| mb.kind.tension_only() && *f <= 0.0).collect();
-    match report::plot::shape_svg(&formed, &at_rest, &found.forces, &slack) {
+    let input = report::plot::ShapeInput { model: &formed, displacements: &at_rest, forces: &found.forces, slack: &slack, utilisation: None };
+    let options = report::plot::ShapeOptions { form: true, ..Default::default() };
+    match report::plot::shape_svg_with(&input, &options) {
         Ok(svg) => staged.add(out, "shape.svg", svg.as_bytes()).map_err(io)?,
         Err(e) => eprintln!("warning: shape.svg not drawn: {e}"),
     }
