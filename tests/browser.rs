@@ -62,6 +62,6 @@ fn report_renders_in_headless_chromium() {
     let dom = String::from_utf8_lossy(&dom.stdout);
     assert!(dom.contains("id=\"caution\""), "caution banner missing from the DOM");
     assert!(dom.contains(tautline::results::CAUTION.split('.').next().unwrap()));
-    assert_eq!(dom.matches("<svg").count(), 3, "three inline plots in the DOM");
+    assert!(dom.matches("<svg").count() >= 5, "path, shape by utilisation, shape by force, displacement map, convergence in the DOM");
     assert!(dom.contains("class=\"crit\"") || dom.contains("class=\"pt stable\""), "the path plot's points are in the DOM");
 }

@@ -13,6 +13,7 @@ mod form;
 mod ids;
 mod malformed;
 mod determinism;
+mod pictures;
 mod plots;
 mod properties;
 mod quasi_newton;

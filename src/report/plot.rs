@@ -364,17 +364,33 @@ pub fn path_svg(results: &Results) -> Result<String, String> {
             if numbered {
                 let text = (k + 1).to_string();
                 let (w, hgt) = (0.62 * 11.0 * text.len() as f64 + 2.0, 11.0);
-                // Candidate places around the ring, nearest first.
-                let candidates = [
-                    (10.0, -9.0), (10.0, 16.0), (-10.0 - w, -9.0), (-10.0 - w, 16.0), (-w / 2.0, -13.0), (-w / 2.0, 24.0),
-                    (18.0, -20.0), (18.0, 28.0), (-18.0 - w, -20.0), (-18.0 - w, 28.0), (26.0, 4.0), (-26.0 - w, 4.0),
-                    (-w / 2.0, -28.0), (-w / 2.0, 40.0), (34.0, -30.0), (-34.0 - w, 38.0),
-                ];
-                let boxed = |(dx, dy): (f64, f64)| [px + dx, py + dy - hgt, px + dx + w, py + dy + 2.0];
-                let inside = |b: &[f64; 4]| b[0] >= f.left && b[2] <= f.right() && b[1] >= f.top && b[3] <= f.bottom();
-                let free = |b: &[f64; 4]| taken.iter().all(|t| b[2] < t[0] || b[0] > t[2] || b[3] < t[1] || b[1] > t[3]);
-                let pick = candidates.iter().map(|c| boxed(*c)).find(|b| inside(b) && free(b)).unwrap_or_else(|| boxed(candidates[0]));
+                // Candidate places on rings of growing radius around the
+                // point, twelve directions each, nearest first; the first
+                // clear of the markers and of the numbers placed so far,
+                // inside the frame, is taken (a leader line joins a far one).
+                let mut pick = None;
+                'search: for radius in [11.0, 18.0, 26.0, 35.0, 45.0, 56.0, 68.0, 82.0, 98.0] {
+                    for dir in 0..12 {
+                        let th = -std::f64::consts::FRAC_PI_4 + dir as f64 * std::f64::consts::PI / 6.0;
+                        let (c, sn) = (th.cos(), th.sin());
+                        let cx = px + radius * c + c.signum() * (w / 2.0) * (c.abs() > 0.3) as u8 as f64;
+                        let cy = py + radius * sn;
+                        let b = [cx - w / 2.0, cy - hgt / 2.0, cx + w / 2.0, cy + hgt / 2.0];
+                        let inside = b[0] >= f.left && b[2] <= f.right() && b[1] >= f.top && b[3] <= f.bottom();
+                        let free = taken.iter().all(|t| b[2] < t[0] || b[0] > t[2] || b[3] < t[1] || b[1] > t[3]);
+                        if inside && free {
+                            pick = Some((b, radius));
+                            break 'search;
+                        }
+                    }
+                }
+                let (pick, radius) = pick.unwrap_or(([px + 10.0, py - 9.0 - hgt, px + 10.0 + w, py - 9.0], 11.0));
                 taken.push(pick);
+                if radius > 20.0 {
+                    let (cx, cy) = ((pick[0] + pick[2]) / 2.0, (pick[1] + pick[3]) / 2.0);
+                    let d = ((cx - px).powi(2) + (cy - py).powi(2)).sqrt().max(1e-9);
+                    svg.line(px + 8.0 * (cx - px) / d, py + 8.0 * (cy - py) / d, cx - 6.0 * (cx - px) / d, cy - 6.0 * (cy - py) / d, Stroke::solid(MUTED, 0.7), "crit-leader");
+                }
                 svg.text_halo(pick[0], pick[3] - 2.0, &text, 11.0, Anchor::Start, "crit-label");
             } else {
                 // Centred on the outer side of the turn (room was left
@@ -522,7 +538,12 @@ pub fn convergence_svg(results: &Results) -> Result<String, String> {
     svg.text_vertical(f.left - 58.0, f.top + f.height / 2.0, "relative residual norm (log scale)", 13.0, "axis-label");
 
     let color = SERIES_COLORS[0];
+    // Many steps: the histories are drawn thin and pale, only each step's
+    // converged residual (its last) is marked, so the run's trend reads
+    // along the bottom of the sawtooth; refactorizations stay marked.
+    let (line_colour, line_width) = if many { ("#9aa7bd", 0.6) } else { (color, 1.3) };
     let mut offset = 0usize;
+    let mut last: Vec<(f64, f64)> = Vec::new();
     for s in &results.steps {
         let line: Vec<(f64, f64)> = s
             .residual_history
@@ -531,28 +552,39 @@ pub fn convergence_svg(results: &Results) -> Result<String, String> {
             .filter(|(_, r)| positive(**r))
             .map(|(k, r)| (x.at((offset + k) as f64), y.at(r.log10())))
             .collect();
-        svg.polyline(&line, Stroke::solid(color, 1.3), "history");
+        svg.polyline(&line, Stroke::solid(line_colour, line_width), "history");
+        if let Some(p) = line.last() {
+            last.push(*p);
+        }
         offset += s.residual_history.len();
     }
+    let crowd = (0.5 * f.width / idx.max(1) as f64).clamp(0.35, 1.0);
     for (i, r, refactored) in &pts {
         if !positive(*r) {
             continue;
         }
         let (px, py) = (x.at(*i as f64), y.at(r.log10()));
         // Markers shrink as the iterations crowd the axis.
-        let crowd = (f.width / idx.max(1) as f64).clamp(0.35, 1.0);
         if *refactored {
             svg.marker(Shape::Square, px, py, (MARKER_R + 1.0) * crowd.max(0.6), INK, false, "refactor");
-        } else {
+        } else if !many {
             svg.marker(Shape::Circle, px, py, 2.6 * crowd, color, true, "it");
         }
     }
-    let rows = [
-        LegendRow { stroke: Some(Stroke::solid(color, 1.3)), marker: Some((Shape::Circle, true)), color, label: "residual".into() },
+    if many {
+        for (px, py) in &last {
+            svg.marker(Shape::Diamond, *px, *py, 2.4, color, true, "converged");
+        }
+    }
+    let mut rows = vec![
+        LegendRow { stroke: Some(Stroke::solid(line_colour, line_width.max(1.0))), marker: (!many).then_some((Shape::Circle, true)), color, label: "residual".into() },
         LegendRow { stroke: None, marker: Some((Shape::Square, false)), color: INK, label: "tangent refactored".into() },
-        LegendRow { stroke: Some(Stroke::solid(MUTED, 0.6)), marker: None, color: MUTED, label: "step boundary".into() },
+        LegendRow { stroke: Some(Stroke::solid(MUTED, 0.6)), marker: None, color: MUTED, label: if many { "step boundary (top ticks)".into() } else { "step boundary".into() } },
         LegendRow { stroke: Some(Stroke::dashed(INK, 1.0, "6 4")), marker: None, color: INK, label: "tolerance".into() },
     ];
+    if many {
+        rows.insert(1, LegendRow { stroke: None, marker: Some((Shape::Diamond, true)), color, label: "converged (a step's last)".into() });
+    }
     legend(&mut svg, f.right() + 18.0, f.top + 10.0, &rows);
     Ok(svg.finish())
 }
