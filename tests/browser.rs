@@ -23,12 +23,35 @@ pub fn distinct_colours(path: &std::path::Path) -> (u32, u32, usize) {
     (info.width, info.height, seen.len())
 }
 
+/// The Chromium on the PATH, or None after a skip line that stands out in
+/// the test output (on stdout and stderr, so it shows with or without
+/// `--nocapture`).
+fn chromium(test: &str) -> Option<&'static str> {
+    let found = ["chromium", "chromium-browser"].into_iter().find(|c| Command::new(c).arg("--version").output().is_ok_and(|o| o.status.success()));
+    if found.is_none() {
+        let line = format!("!!!! SKIPPED {test}: chromium is not installed (.ci/run installs it with apt-get); this browser check did NOT run !!!!");
+        println!("{line}");
+        eprintln!("{line}");
+    }
+    found
+}
+
+/// Flags for a headless run on a closed network (no background traffic).
+const FLAGS: [&str; 9] = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--enable-logging=stderr",
+];
+
 #[test]
 fn report_renders_in_headless_chromium() {
-    let Some(chromium) = ["chromium", "chromium-browser"].into_iter().find(|c| Command::new(c).arg("--version").output().is_ok_and(|o| o.status.success())) else {
-        println!("SKIPPED report_renders_in_headless_chromium: chromium is not installed (.ci/run installs it with apt-get)");
-        return;
-    };
+    let Some(chromium) = chromium("report_renders_in_headless_chromium") else { return };
     let sc = Scratch::new("browser");
     let out = sc.0.join("demo");
     let (code, stdout, _) = tautline(&["demo", "-o", out.to_str().unwrap()]);
@@ -64,4 +87,41 @@ fn report_renders_in_headless_chromium() {
     assert!(dom.contains(tautline::results::CAUTION.split('.').next().unwrap()));
     assert!(dom.matches("<svg").count() >= 5, "path, shape by utilisation, shape by force, displacement map, convergence in the DOM");
     assert!(dom.contains("class=\"crit\"") || dom.contains("class=\"pt stable\""), "the path plot's points are in the DOM");
+}
+
+/// A report whose shape panels are raster images (a 60 × 60 net, 6 960
+/// members, past the default threshold) renders in headless Chromium: the
+/// page is not blank, the images are in the DOM, and it stays well under
+/// the 10 MB bound.
+#[test]
+fn raster_report_renders_in_headless_chromium() {
+    let Some(chromium) = chromium("raster_report_renders_in_headless_chromium") else { return };
+    let sc = Scratch::new("browser-raster");
+    let model = sc.0.join("net.toml");
+    let (code, o, e) = tautline(&["generate", "net", "--nx", "60", "--ny", "60", "-o", model.to_str().unwrap()]);
+    assert_eq!(code, 0, "{o}{e}");
+    let out = sc.0.join("out");
+    let (code, o, e) = tautline(&["solve", model.to_str().unwrap(), "-o", out.to_str().unwrap(), "--steps", "2", "-q"]);
+    assert_eq!(code, 0, "{o}{e}");
+    let report = out.join("report.html").canonicalize().unwrap();
+    assert!(std::fs::metadata(&report).unwrap().len() < 10_000_000);
+    let url = format!("file://{}", report.display());
+    let shot = sc.0.join("shot.png");
+    let user_dir = format!("--user-data-dir={}", sc.0.join("profile").display());
+    let run = Command::new(chromium)
+        .args(FLAGS)
+        .arg(&user_dir)
+        .arg(format!("--screenshot={}", shot.display()))
+        .arg("--window-size=1200,2400")
+        .arg(&url)
+        .output()
+        .expect("run chromium");
+    assert!(run.status.success(), "chromium failed:\n{}", String::from_utf8_lossy(&run.stderr));
+    let (w, h, colours) = distinct_colours(&shot);
+    assert_eq!((w, h), (1200, 2400));
+    assert!(colours > 50, "the page looks blank: {colours} distinct colours");
+    let dom = Command::new(chromium).args(FLAGS).arg(&user_dir).arg("--dump-dom").arg(&url).output().expect("dump dom");
+    let dom = String::from_utf8_lossy(&dom.stdout);
+    // The generated net gives no capacity: one shape, coloured by force.
+    assert_eq!(dom.matches("<image class=\"raster\"").count(), 2, "plan and elevation of shape.svg in the DOM");
 }
