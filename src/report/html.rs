@@ -508,12 +508,12 @@ fn statistics(h: &mut String, r: &Results) {
     for s in r.steps.iter().take(LISTED_ROWS) {
         let _ = writeln!(
             h,
-            "<tr><td class=\"num\">{}</td>{}<td class=\"num\">{}</td><td class=\"num\">{}</td>{}<td class=\"num\">{}{}</td></tr>",
+            "<tr><td class=\"num\">{}</td>{}<td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{:.3e}</td><td class=\"num\">{}{}</td></tr>",
             s.step,
             td_num(s.load_factor),
             s.iterations,
             s.factorizations,
-            format!("<td class=\"num\">{:.3e}</td>", s.residual),
+            s.residual,
             s.negative_pivots,
             if s.pivots_checked { "" } else { " (carried)" }
         );

@@ -129,12 +129,13 @@ pub fn sag_offsets(rest: f64, ea: f64, w: f64, a: [f64; 3], b: [f64; 3]) -> Opti
     let (lo, hi, flipped) = if a[2] <= b[2] { (a, b, false) } else { (b, a, true) };
     let span = (hi[0] - lo[0]).hypot(hi[1] - lo[1]);
     let rise = hi[2] - lo[2];
-    if !(span > 1e-9 * rest) {
+    // Also true for a NaN span: drawn straight.
+    if span.is_nan() || span <= 1e-9 * rest {
         return None;
     }
     let d = [b[0] - a[0], b[1] - a[1], b[2] - a[2]];
     let f = Catenary::new(d, rest, ea, w).solve(span, rise);
-    if !f.converged || !(f.h > 0.0) {
+    if !f.converged || f.h.is_nan() || f.h <= 0.0 {
         return None;
     }
     let hh = f.h;
@@ -333,8 +334,8 @@ pub fn shape_svg_with(input: &ShapeInput, opts: &ShapeOptions) -> Result<String,
             // strongest members stay on top; slack first, over-capacity last.
             let level_value = |l: i64| lo + (hi - lo) * l as f64 / RASTER_LEVELS;
             let mut levels: std::collections::BTreeMap<(u8, i64), Vec<[f64; 4]>> = Default::default();
-            for k in 0..n_members {
-                let key = match looks[k] {
+            for (k, look) in looks.iter().enumerate() {
+                let key = match look {
                     Look::Slack | Look::NoCapacity => (0, 0),
                     Look::Over => (2, 0),
                     _ => {
