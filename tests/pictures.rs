@@ -119,6 +119,33 @@ fn raster_panels_bound_the_shape_and_report_size() {
     let html = read(&raster.join("report.html"));
     assert!(html.contains(r.trim_end()));
 
+    // --png draws the embedded panels too: the plan panel of shape.png is
+    // mostly not paper white.
+    let pngs = generate_and_solve(&sc, 40, "raster-png", &["--raster-above", "100", "--png"]);
+    let svg = read(&pngs.join("shape.svg"));
+    let plan = tags(&svg, "raster")[0].clone();
+    let (x, y, w, h) = (attr(&plan, "x") as usize, attr(&plan, "y") as usize, attr(&plan, "width") as usize, attr(&plan, "height") as usize);
+    let mut reader = png::Decoder::new(std::io::BufReader::new(std::fs::File::open(pngs.join("shape.png")).unwrap())).read_info().unwrap();
+    let mut buf = vec![0; reader.output_buffer_size().unwrap()];
+    let info = reader.next_frame(&mut buf).unwrap();
+    let px = info.color_type.samples();
+    let stride = info.width as usize * px;
+    let inked = (y + h / 4..y + 3 * h / 4)
+        .flat_map(|r| (x + w / 4..x + 3 * w / 4).map(move |c| (r, c)))
+        .filter(|(r, c)| buf[r * stride + c * px..r * stride + c * px + 3].iter().any(|v| *v < 235))
+        .count();
+    assert!(inked * 4 > (w / 2) * (h / 2), "the plan panel of shape.png is blank: {inked} inked pixels");
+
+    // Several shapes of one model share the vector budget: past it they
+    // are raster panels, so the report stays bounded.
+    let many = generate_and_solve(&sc, 40, "budget", &["--keep-fields", "all", "--shape-at", "0", "--shape-at", "1", "--shape-at", "2"]);
+    let html = read(&many.join("report.html"));
+    let per = tautline::report::figures::VECTOR_BYTES_PER_MEMBER * n_members;
+    let vector_shapes = tautline::report::figures::VECTOR_BUDGET / per;
+    assert!(vector_shapes < 4, "the test needs the budget to bind: {vector_shapes}");
+    assert_eq!(html.matches("<image class=\"raster\"").count(), 2 * (4 - vector_shapes), "shapes past the budget are rasters");
+    assert!(html.len() < 10_000_000);
+
     // Past the default threshold, with no option.
     let big = generate_and_solve(&sc, 60, "big", &[]);
     let members = read(&big.join("members.csv")).lines().count() - 1;

@@ -17,6 +17,14 @@ use crate::results::{MemberOut, Results};
 /// modes); the rest are in `critical_fields.csv` and `critical_modes.csv`.
 pub const MAX_CRITICAL_MAPS: usize = 6;
 
+/// Bytes of vector shape drawings a report may hold (the shapes past it
+/// are drawn as raster panels), so several shapes of a model just under the
+/// raster threshold keep `report.html` well under 10 MB.
+pub const VECTOR_BUDGET: usize = 6_000_000;
+/// SVG bytes per member of a vector shape drawing (two panels, undeformed
+/// and deformed; measured: 555 on a 40 × 40 net).
+pub const VECTOR_BYTES_PER_MEMBER: usize = 560;
+
 /// A shape drawn besides the last state's.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum ShapeAt {
@@ -116,6 +124,7 @@ pub fn solve_plots(
     }
     let colour_by = if members.iter().all(|x| x.utilisation.is_none()) { ColourBy::Force } else { colour_by };
 
+    let vector_bytes = std::cell::Cell::new(0usize);
     // The shape at a state u (free DOFs), with its member forces.
     let shape_of = |drawn: &[f64], u: &[f64], colour: ColourBy, subtitle: String| -> Result<String, String> {
         let disp: Vec<[f64; 3]> = (0..m.n_nodes()).map(|n| std::array::from_fn(|a| system.dofs.displacement(drawn, n, a))).collect();
@@ -133,8 +142,15 @@ pub fn solve_plots(
             })
             .collect();
         let input = ShapeInput { model: m, displacements: &disp, forces: &forces, slack: &slack, utilisation: Some(&util) };
-        let options = ShapeOptions { colour_by: colour, raster_above: opts.raster_above, form: false, subtitle: Some(subtitle) };
-        plot::shape_svg_with(&input, &options)
+        // Vector shapes share a budget: one that would take the report's
+        // vector drawings past it is drawn as raster panels instead.
+        let vector = m.n_members() <= opts.raster_above && vector_bytes.get() + VECTOR_BYTES_PER_MEMBER * m.n_members() <= VECTOR_BUDGET;
+        let options = ShapeOptions { colour_by: colour, raster_above: if vector { opts.raster_above } else { 0 }, form: false, subtitle: Some(subtitle) };
+        let svg = plot::shape_svg_with(&input, &options);
+        if let Ok(text) = &svg {
+            vector_bytes.set(vector_bytes.get() + if vector { text.len() } else { 0 });
+        }
+        svg
     };
     let shape_at = |u: &[f64], colour: ColourBy, subtitle: String| shape_of(u, u, colour, subtitle);
 

@@ -417,7 +417,11 @@ fn governing(h: &mut String, r: &Results, members: &[MemberOut]) {
     if let Some(d) = &r.largest_displacement {
         rows.push((
             format!("largest displacement [{l}]"),
-            format!("{} at node {} (ux, uy, uz = {}, {}, {})", sig4(d.magnitude), esc(&d.node), sig4(d.components[0]), sig4(d.components[1]), sig4(d.components[2])),
+            {
+                // Components below 1e-9 of the magnitude are round-off: 0.
+                let c = d.components.map(|v| if v.abs() < 1e-9 * d.magnitude { 0.0 } else { v });
+                format!("{} at node {} (ux, uy, uz = {}, {}, {})", sig4(d.magnitude), esc(&d.node), sig4(c[0]), sig4(c[1]), sig4(c[2]))
+            },
         ));
     }
     let by = |pick: &dyn Fn(&MemberOut) -> Option<f64>| {

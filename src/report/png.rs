@@ -23,5 +23,14 @@ pub fn svg_to_png(svg: &str) -> Result<Vec<u8>, String> {
     let size = tree.size().to_int_size();
     let mut pixmap = tiny_skia::Pixmap::new(size.width(), size.height()).ok_or("the plot has no area")?;
     resvg::render(&tree, tiny_skia::Transform::default(), &mut pixmap.as_mut());
+    // resvg is built without its raster-image decoders (they would bring
+    // more crates); the raster panels the plots embed are PNGs that
+    // tiny-skia decodes itself, so they are drawn here, on top.
+    for ([x, y, w, h], data) in crate::report::plot::raster::embedded(svg) {
+        let Ok(img) = tiny_skia::Pixmap::decode_png(&data) else { continue };
+        let (sx, sy) = (w / img.width() as f32, h / img.height() as f32);
+        let paint = tiny_skia::PixmapPaint { quality: tiny_skia::FilterQuality::Bilinear, ..Default::default() };
+        pixmap.draw_pixmap(0, 0, img.as_ref(), &paint, tiny_skia::Transform::from_row(sx, 0.0, 0.0, sy, x, y), None);
+    }
     pixmap.encode_png().map_err(|e| format!("PNG encoding failed: {e}"))
 }

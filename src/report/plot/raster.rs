@@ -69,9 +69,65 @@ pub fn base64(bytes: &[u8]) -> String {
     out
 }
 
+/// Decodes standard base64 (with or without padding); None on a character
+/// outside the alphabet.
+pub fn unbase64(s: &str) -> Option<Vec<u8>> {
+    let val = |c: u8| -> Option<u32> {
+        Some(u32::from(match c {
+            b'A'..=b'Z' => c - b'A',
+            b'a'..=b'z' => c - b'a' + 26,
+            b'0'..=b'9' => c - b'0' + 52,
+            b'+' => 62,
+            b'/' => 63,
+            _ => return None,
+        }))
+    };
+    let bytes: Vec<u8> = s.bytes().filter(|c| *c != b'=').collect();
+    let mut out = Vec::with_capacity(bytes.len() * 3 / 4);
+    for chunk in bytes.chunks(4) {
+        let mut n = 0u32;
+        for (i, c) in chunk.iter().enumerate() {
+            n |= val(*c)? << (18 - 6 * i);
+        }
+        for k in 0..chunk.len().saturating_sub(1) {
+            out.push((n >> (16 - 8 * k)) as u8);
+        }
+    }
+    Some(out)
+}
+
+/// The raster images this crate embeds in an SVG (`<image class="raster"
+/// …>`): their box (x, y, width, height, in SVG pixels) and PNG bytes.
+pub fn embedded(svg: &str) -> Vec<([f32; 4], Vec<u8>)> {
+    let attr = |tag: &str, name: &str| -> Option<String> {
+        let k = format!(" {name}=\"");
+        let i = tag.find(&k)? + k.len();
+        Some(tag[i..i + tag[i..].find('"')?].to_string())
+    };
+    svg.split("<image class=\"raster\"")
+        .skip(1)
+        .filter_map(|t| {
+            let t = &t[..t.find("/>")?];
+            let num = |n: &str| attr(t, n)?.parse::<f32>().ok();
+            let href = attr(t, "href")?;
+            let data = unbase64(href.strip_prefix("data:image/png;base64,")?)?;
+            Some(([num("x")?, num("y")?, num("width")?, num("height")?], data))
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn base64_round_trips() {
+        for n in 0..40usize {
+            let bytes: Vec<u8> = (0..n).map(|i| (i * 37 + 11) as u8).collect();
+            assert_eq!(unbase64(&base64(&bytes)).unwrap(), bytes);
+        }
+        assert!(unbase64("Zm9v!").is_none());
+    }
 
     #[test]
     fn base64_of_the_rfc_4648_test_vectors() {
