@@ -234,11 +234,13 @@ pub fn solve_plots(
             });
         }
         if kept.len() > MAX_CRITICAL_MAPS {
-            warnings.push(format!(
-                "report: displacement maps drawn for the first {MAX_CRITICAL_MAPS} of {} critical states; all are in {}",
-                kept.len(),
-                crate::results::CRITICAL_FIELDS_FILE
-            ));
+            if let Some(p) = plots.last_mut() {
+                p.caption.push_str(&format!(
+                    "; maps are drawn for the first {MAX_CRITICAL_MAPS} of {} critical states, all are in {}",
+                    kept.len(),
+                    crate::results::CRITICAL_FIELDS_FILE
+                ));
+            }
         }
         let with_modes: Vec<(usize, &crate::path::Critical)> = path.critical.iter().enumerate().filter(|(_, c)| !c.modes.is_empty()).collect();
         for (i, c) in with_modes.iter().take(MAX_CRITICAL_MAPS) {
