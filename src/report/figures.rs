@@ -233,14 +233,12 @@ pub fn solve_plots(
                 svg: map(uz, format!("critical point {} ({kind}), {case}", i + 1), "uz, upward positive", len_unit),
             });
         }
-        if kept.len() > MAX_CRITICAL_MAPS {
-            if let Some(p) = plots.last_mut() {
-                p.caption.push_str(&format!(
-                    "; maps are drawn for the first {MAX_CRITICAL_MAPS} of {} critical states, all are in {}",
-                    kept.len(),
-                    crate::results::CRITICAL_FIELDS_FILE
-                ));
-            }
+        if let Some(p) = plots.last_mut().filter(|_| kept.len() > MAX_CRITICAL_MAPS) {
+            p.caption.push_str(&format!(
+                "; maps are drawn for the first {MAX_CRITICAL_MAPS} of {} critical states, all are in {}",
+                kept.len(),
+                crate::results::CRITICAL_FIELDS_FILE
+            ));
         }
         let with_modes: Vec<(usize, &crate::path::Critical)> = path.critical.iter().enumerate().filter(|(_, c)| !c.modes.is_empty()).collect();
         for (i, c) in with_modes.iter().take(MAX_CRITICAL_MAPS) {
