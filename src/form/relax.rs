@@ -61,7 +61,9 @@ pub enum RelaxStop {
     Converged,
     /// `max_steps` time steps were taken first.
     StepCap,
-    /// The residual became infinite or NaN.
+    /// The motion stayed unstable (the residual grew without bound or
+    /// turned non-finite) even with the masses raised by the stability
+    /// guard; the state returned is the last one at rest, which is finite.
     NotFinite,
 }
 
@@ -75,6 +77,9 @@ pub struct RelaxReport {
     pub peaks: usize,
     /// Times the masses were recomputed from the tangent.
     pub mass_updates: usize,
+    /// Restarts of the stability guard: an unstable stretch taken back to
+    /// the last state at rest with heavier masses.
+    pub restarts: usize,
     /// ‖r‖ / force scale at the state returned.
     pub relative_residual: f64,
 }
@@ -102,6 +107,19 @@ trait Dynamics {
 
 /// The central-difference loop with kinetic-energy resets shared by the
 /// analysis and the form finding. `v`, `r`, `mass` have the length of `u`.
+///
+/// Stability guard. The masses bound the tangent at the reset where they
+/// were taken; a member that stiffens a lot before the next reset (a slack
+/// cable that tightens and is not covered by [`Dynamics::row_stiffness`], a
+/// bar driven far into strain) can push ω_max·Δt past 2, and the
+/// central-difference scheme then grows without bound. A run whose relative
+/// residual rises above `BLOWUP` times the value at its last reset (or turns
+/// non-finite) is therefore taken back to that reset, at rest, with every
+/// mass multiplied by `MASS_BOOST` (the same as dividing Δt by 2); after
+/// `MAX_BOOSTS` such restarts it gives up and returns the last state at rest,
+/// which is finite. A stable oscillation from rest cannot trip the guard:
+/// for a linear system ‖r‖ stays below √κ(K)·‖r₀‖ (energy is conserved
+/// between resets), far below `BLOWUP` for any net or truss here.
 fn kinetic_damping(
     dynamics: &mut impl Dynamics,
     u: &mut [f64],
@@ -110,24 +128,55 @@ fn kinetic_damping(
     mass: &mut [f64],
     cfg: &RelaxConfig,
 ) -> RelaxReport {
-    let mut report =
-        RelaxReport { stop: RelaxStop::StepCap, steps: 0, peaks: 0, mass_updates: 0, relative_residual: f64::INFINITY };
+    let mut report = RelaxReport {
+        stop: RelaxStop::StepCap,
+        steps: 0,
+        peaks: 0,
+        mass_updates: 0,
+        restarts: 0,
+        relative_residual: f64::INFINITY,
+    };
     v.fill(0.0);
+    // The state at the last reset (finite) and its relative residual: where
+    // an unstable run is taken back to. One copy per run, not per step.
+    let mut u_rest = u.to_vec();
+    let mut rest_residual = f64::INFINITY;
+    // Mass multiplier of the stability guard.
+    let mut boost = 1.0;
     // Kinetic energies at the last two half steps; 0 at rest.
     let (mut e0, mut e1) = (0.0, 0.0);
     let mut from_rest = true;
     loop {
         if from_rest {
             dynamics.row_stiffness(u, mass);
-            lumped_masses(mass);
+            lumped_masses(mass, boost);
             report.mass_updates += 1;
         }
-        report.relative_residual = dynamics.residual(u, r);
-        if !report.relative_residual.is_finite() {
-            report.stop = RelaxStop::NotFinite;
-            return report;
+        let rel = dynamics.residual(u, r);
+        if from_rest && rel.is_finite() {
+            u_rest.copy_from_slice(u);
+            rest_residual = rel;
         }
-        if report.relative_residual <= cfg.tolerance {
+        if !rel.is_finite() || rel > BLOWUP * rest_residual {
+            if !rest_residual.is_finite() || report.restarts >= MAX_BOOSTS {
+                // Nothing finite to go back to, or the guard is spent: keep
+                // the last state at rest.
+                u.copy_from_slice(&u_rest);
+                report.relative_residual = rest_residual;
+                report.stop = RelaxStop::NotFinite;
+                return report;
+            }
+            u.copy_from_slice(&u_rest);
+            v.fill(0.0);
+            boost *= MASS_BOOST;
+            report.restarts += 1;
+            e0 = 0.0;
+            e1 = 0.0;
+            from_rest = true;
+            continue;
+        }
+        report.relative_residual = rel;
+        if rel <= cfg.tolerance {
             report.stop = RelaxStop::Converged;
             return report;
         }
@@ -170,12 +219,24 @@ fn kinetic_damping(
     }
 }
 
-/// mᵢ = (Δt²/2)·Σⱼ|Kᵢⱼ| in place of the row sums, with a floor.
-fn lumped_masses(row: &mut [f64]) {
+/// Growth of the relative residual over its value at the last reset taken
+/// as instability (see [`kinetic_damping`]).
+const BLOWUP: f64 = 1e6;
+
+/// Mass multiplier after an unstable stretch: 4 halves the effective time
+/// step (ω·Δt scales with Δt/√m).
+const MASS_BOOST: f64 = 4.0;
+
+/// Restarts of the stability guard before the run gives up (Δt effectively
+/// divided by 2^30 by then).
+const MAX_BOOSTS: usize = 30;
+
+/// mᵢ = boost·(Δt²/2)·Σⱼ|Kᵢⱼ| in place of the row sums, with a floor.
+fn lumped_masses(row: &mut [f64], boost: f64) {
     let largest = row.iter().fold(0.0f64, |a, &b| a.max(b));
     let floor = if largest > 0.0 { MASS_FLOOR * largest } else { 1.0 };
     for m in row {
-        *m = (0.5 * DT * DT * *m).max(floor);
+        *m = boost * (0.5 * DT * DT * *m).max(floor);
     }
 }
 
@@ -218,6 +279,7 @@ impl Dynamics for Analysis<'_> {
                 }
             }
         }
+        self.system.add_slack_taut_rows(u, row);
     }
 }
 

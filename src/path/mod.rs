@@ -985,11 +985,16 @@ impl<'a> Tracer<'a> {
                     // the target's sign on the first step.
                     let du_f = tangent_direction(sys, ws);
                     let norm = dot(&du_f, &du_f).sqrt();
+                    // The first step heads for the target: δλ takes the sign
+                    // of (target − λ) (from a start beyond the target, back
+                    // towards it); its arc is capped in `Stepper::new`.
+                    let to_target = a.target - state.lambda;
+                    let heading = if to_target != 0.0 { to_target.signum() } else { a.target.signum() };
                     let sign = if last_increment.is_empty() {
-                        a.target.signum()
+                        heading
                     } else {
                         let d = dot(&du_f, &last_increment);
-                        if d == 0.0 { a.target.signum() } else { d.signum() }
+                        if d == 0.0 { heading } else { d.signum() }
                     };
                     let dl = sign * stepper.size / norm;
                     if !dl.is_finite() {
@@ -1037,6 +1042,14 @@ impl<'a> Tracer<'a> {
                 (Termination::Converged, Control::Displacement) if switcher.has_switched() && !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
                     if turned { Termination::Jumped } else { term }
+                }
+                // The first arc-length step must head for the target: a
+                // corrector that converged behind the start (the cylinder
+                // meets the path there too) is cut back and retried shorter.
+                (Termination::Converged, Control::ArcLength)
+                    if last_increment.is_empty() && (state.lambda - start_lambda) * (a.target - start_lambda) < 0.0 =>
+                {
+                    Termination::Jumped
                 }
                 (Termination::Converged, Control::ArcLength) if !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
@@ -1480,20 +1493,31 @@ struct Stepper {
 impl Stepper {
     fn new(a: &crate::model::Analysis, sys: &System, ws: &mut Workspace) -> Stepper {
         let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
+        let mut first_cap = f64::INFINITY;
         let nominal = match a.control {
             Control::Load => (a.target - a.start_load_factor) / a.steps.max(1) as f64,
             Control::Displacement => a.target / a.steps.max(1) as f64,
-            Control::ArcLength => a.arc.unwrap_or_else(|| {
+            Control::ArcLength => {
                 // No arc given: the displacement of the first load increment
-                // along the tangent.
+                // along the tangent. A given arc is capped at the tangent
+                // displacement of the whole way to the target,
+                // ‖K⁻¹f‖·|target − λ₀|: a longer first predictor overshoots
+                // the target and can hand the corrector a cylinder that meets
+                // the path only behind the start (a stiff start with a soft
+                // reverse branch, such as stays that go slack under uplift),
+                // so the run would walk away from the target.
                 let du_f = tangent_direction(sys, ws);
-                (a.target / a.steps.max(1) as f64).abs() * dot(&du_f, &du_f).sqrt()
-            }),
+                let tangent = dot(&du_f, &du_f).sqrt();
+                first_cap = (a.target - a.start_load_factor).abs() * tangent;
+                a.arc.unwrap_or((a.target / a.steps.max(1) as f64).abs() * tangent)
+            }
         };
         let cut = 0.5f64.powi(a.max_cutbacks as i32);
+        // Only the first arc is capped (and may be halved as often as any).
+        let first = if first_cap > 0.0 && first_cap < nominal.abs() { first_cap * nominal.signum() } else { nominal };
         Stepper {
-            size: nominal,
-            min_size: nominal.abs() * cut * (1.0 - 1e-12),
+            size: first,
+            min_size: first.abs() * cut * (1.0 - 1e-12),
             max_size: if a.control == Control::ArcLength { 2.0 * nominal.abs() } else { nominal.abs() },
             adaptive: a.control == Control::ArcLength,
             successes_since_cut: 0,

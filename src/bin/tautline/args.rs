@@ -46,6 +46,12 @@ pub enum Command {
         /// in results.json order) on the shape at that point
         #[arg(long, value_name = "N")]
         plot_mode: Option<usize>,
+        /// Load file ([[load]] tables, optionally [units] and loads_csv) whose
+        /// loads become the reference load, stepped from load factor 0 to the
+        /// target; the model's own loads are held constant at their
+        /// start_load_factor value (a formed model's form-finding loads)
+        #[arg(long = "loads", value_name = "FILE")]
+        loads: Option<PathBuf>,
         #[command(flatten)]
         overrides: Overrides,
     },
