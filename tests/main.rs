@@ -23,3 +23,4 @@ mod stability;
 mod start;
 mod branch;
 mod verification;
+mod workflow;
