@@ -92,6 +92,33 @@ fn dominant_dirs(system: &System, mode: &[f64]) -> Vec<NodeDir> {
     big.into_iter().map(|(_, d)| system.dofs.owner(d)).collect()
 }
 
+/// Out-of-balance force (relative to the largest member force) above which
+/// the drawn geometry is reported as not balancing its prestress: well above
+/// the round-off of coordinates written with 6–16 digits (common practice,
+/// no source).
+pub const IMBALANCE_RATIO: f64 = 1e-6;
+
+/// The largest out-of-balance force of the prestress alone (no dead or
+/// reference load) at a free node of the drawn geometry, N, and that node,
+/// when it exceeds [`IMBALANCE_RATIO`] times the largest member force: such
+/// a model does not start in equilibrium, and `solve` first moves it to
+/// one at load factor 0 (or finds none).
+pub fn prestress_imbalance(system: &System, model: &Model) -> Option<(f64, usize)> {
+    let n = system.n_free();
+    let u = vec![0.0; n];
+    let prestress_only = system.with_dead_factor(0.0);
+    let mut r = vec![0.0; n];
+    let mut reactions = vec![0.0; 3 * model.n_nodes()];
+    prestress_only.residual(&u, 0.0, &mut r, &mut reactions);
+    let largest_member = system.member_results(&u).iter().map(|m| m.force.abs()).fold(0.0, f64::max);
+    let mut per_node = vec![0.0; model.n_nodes()];
+    for (d, v) in r.iter().enumerate() {
+        per_node[system.dofs.owner(d).node] += v * v;
+    }
+    let (node, worst) = per_node.iter().enumerate().map(|(k, v)| (k, v.sqrt())).max_by(|a, b| a.1.total_cmp(&b.1))?;
+    (largest_member > 0.0 && worst > IMBALANCE_RATIO * largest_member).then_some((worst, node))
+}
+
 /// Members with a `force_density` (their own or the `[form]` default) but no
 /// `prestress` or `rest_length`: `solve` takes them as unstressed in the
 /// drawn geometry, the force density being a form-finding input only.

@@ -274,6 +274,16 @@ fn screen_model(m: &Model) -> Vec<String> {
         ));
         return out;
     }
+    if let Some((force, node)) = tautline::screen::prestress_imbalance(&system, m) {
+        out.push(format!(
+            "the prestress is not in balance in the drawn geometry: {:.4e} {} out of balance at node {:?}; `solve` first looks for \
+             the equilibrium at load factor 0, which moves the structure (or finds none). That is expected where members given by \
+             rest length settle the structure (a guyed mast); a cable net should be form-found first (`tautline form`)",
+            m.units.force_out(force),
+            m.units.force.name(),
+            m.nodes[node].label
+        ));
+    }
     match tautline::screen::mechanisms(&system, m) {
         Ok(mech) => {
             if !mech.obvious.is_empty() {
