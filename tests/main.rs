@@ -24,3 +24,4 @@ mod start;
 mod branch;
 mod verification;
 mod workflow;
+mod readme;

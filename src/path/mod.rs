@@ -1488,6 +1488,17 @@ struct Stepper {
     nominal: f64,
     control_dof: Option<usize>,
     normal_plane: bool,
+    /// Arc-length: the tangent displacement of the whole way from the start
+    /// to the target, ‖K⁻¹f‖·|target − λ₀| (infinite otherwise). A first
+    /// step longer than that overshoots the target in the predictor and can
+    /// hand the corrector a cylinder that meets the path only behind the
+    /// start (a stiff start with a soft reverse branch, such as stays that
+    /// go slack under uplift); it is retried at this length.
+    first_cap: f64,
+    /// No step has converged yet.
+    on_first: bool,
+    /// The factor of the smallest step, 2^−max_cutbacks.
+    cut: f64,
 }
 
 impl Stepper {
@@ -1499,13 +1510,8 @@ impl Stepper {
             Control::Displacement => a.target / a.steps.max(1) as f64,
             Control::ArcLength => {
                 // No arc given: the displacement of the first load increment
-                // along the tangent. A given arc is capped at the tangent
-                // displacement of the whole way to the target,
-                // ‖K⁻¹f‖·|target − λ₀|: a longer first predictor overshoots
-                // the target and can hand the corrector a cylinder that meets
-                // the path only behind the start (a stiff start with a soft
-                // reverse branch, such as stays that go slack under uplift),
-                // so the run would walk away from the target.
+                // along the tangent. The cap of a failed first step: see
+                // `first_cap`.
                 let du_f = tangent_direction(sys, ws);
                 let tangent = dot(&du_f, &du_f).sqrt();
                 first_cap = (a.target - a.start_load_factor).abs() * tangent;
@@ -1513,11 +1519,12 @@ impl Stepper {
             }
         };
         let cut = 0.5f64.powi(a.max_cutbacks as i32);
-        // Only the first arc is capped (and may be halved as often as any).
-        let first = if first_cap > 0.0 && first_cap < nominal.abs() { first_cap * nominal.signum() } else { nominal };
         Stepper {
-            size: first,
-            min_size: first.abs() * cut * (1.0 - 1e-12),
+            size: nominal,
+            first_cap: if first_cap > 0.0 && first_cap.is_finite() { first_cap } else { f64::INFINITY },
+            on_first: true,
+            cut,
+            min_size: nominal.abs() * cut * (1.0 - 1e-12),
             max_size: if a.control == Control::ArcLength { 2.0 * nominal.abs() } else { nominal.abs() },
             adaptive: a.control == Control::ArcLength,
             successes_since_cut: 0,
@@ -1534,8 +1541,17 @@ impl Stepper {
     }
 
     /// Halves the step; false when it would fall below the smallest size.
+    /// A first arc-length step that failed (or converged behind the start)
+    /// and is longer than the tangent displacement of the whole way to the
+    /// target is retried at that length instead, and may be halved from
+    /// there as often as any step.
     fn cut_back(&mut self) -> bool {
         self.successes_since_cut = 0;
+        if self.on_first && 0.5 * self.size.abs() > self.first_cap {
+            self.size = self.first_cap * self.size.signum();
+            self.min_size = self.min_size.min(self.first_cap * self.cut * (1.0 - 1e-12));
+            return true;
+        }
         let next = 0.5 * self.size;
         if next.abs() < self.min_size {
             return false;
@@ -1545,6 +1561,7 @@ impl Stepper {
     }
 
     fn converged(&mut self, iterations: usize) {
+        self.on_first = false;
         self.successes_since_cut += 1;
         if self.adaptive {
             let ratio = (DESIRED_ITERATIONS / iterations.max(1) as f64).sqrt().clamp(0.5, 2.0);

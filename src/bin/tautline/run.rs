@@ -64,7 +64,16 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             Ok(exit::DONE)
         }
         Command::Solve { model, out, force, format, png, plot_mode, loads, overrides } => {
-            let mut m = load(&model, format)?;
+            // With a load file the model's "no loads" warning does not apply.
+            let mut m = model::load(&model).map_err(Failure::Model)?;
+            if loads.is_some() {
+                m.warnings.retain(|w| !w.message.contains("the model has no loads"));
+            }
+            if format == Format::Text {
+                for w in &m.warnings {
+                    eprintln!("warning: {w}");
+                }
+            }
             if let Some(file) = &loads {
                 let case = model::validate::load_case(&m, file).map_err(Failure::Model)?;
                 let n = case.loads.len();
@@ -307,12 +316,12 @@ fn screen_model(m: &Model) -> Vec<String> {
                     })
                     .collect();
                 let more = if mech.count > mech.modes.len() { format!("\n  ... ({} not described)", mech.count - mech.modes.len()) } else { String::new() };
+                let listing = if listed.is_empty() { String::new() } else { format!(":\n{}{more}", listed.join("\n")) };
                 out.push(format!(
                     "the drawn geometry has {} independent mechanism(s) (the start tangent has {} zero eigenvalue(s)); `solve` stops at step 0 \
-                     unless the load or the path stiffens them; each needs a support, a member or prestress:\n{}{more}",
+                     unless the load or the path stiffens them; each needs a support, a member or prestress{listing}",
                     mech.count,
                     mech.count,
-                    listed.join("\n")
                 ));
             }
         }
