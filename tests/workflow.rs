@@ -378,3 +378,276 @@ fn form_meets_many_target_forces_and_agrees_with_relaxation() {
         assert!((a - b).abs() <= 1e-6 * b.abs(), "member {k}: {a} against {b}");
     }
 }
+
+// ---------------------------------------------------------------------------
+// 5. `--control displacement` needs its target and point
+
+/// The README's two-cable example without `node` and `dir` (its watched
+/// point is A2.z).
+const NO_POINT: &str = r#"
+title = "two cables, no controlled point"
+[units]
+force = "kN"
+length = "m"
+[[section]]
+name = "strand"
+EA = 2.0e4
+[[node]]
+id = "A1"
+at = [0.0, 0.0, 2.5]
+fix = "xyz"
+[[node]]
+id = "A2"
+at = [2.0, 0.0, 2.5]
+[[node]]
+id = "A3"
+at = [4.0, 0.0, 2.5]
+fix = "xyz"
+[[member]]
+id = "c1"
+kind = "cable"
+ends = ["A1", "A2"]
+section = "strand"
+prestress = 20.0
+[[member]]
+id = "c2"
+kind = "cable"
+ends = ["A2", "A3"]
+section = "strand"
+prestress = 20.0
+[[load]]
+node = "A2"
+force = [0.0, 0.0, -3.0]
+[analysis]
+steps = 4
+target = 1.5
+"#;
+
+#[test]
+fn control_displacement_needs_its_target_and_point() {
+    let dir = Scratch::new("ctrl");
+    dir.write("m.toml", NO_POINT);
+    let run = |args: &[&str]| tautline_in(&dir.dir, args);
+    // No --target: the model's 1.5 is a load factor, not 1.5 m.
+    let r = run(&["solve", "m.toml", "-o", "a", "--control", "displacement"]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("needs --target") && r.stderr.contains("target = 1.5 is a load factor"), "{r}");
+    assert!(!dir.path("a/results.json").exists());
+    // A target but no point in the model and no --watch.
+    let r = run(&["solve", "m.toml", "-o", "a", "--control", "displacement", "--target", "-0.02"]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("needs the controlled point"), "{r}");
+    // Both given: the point taken is named, and the run controls it.
+    let r = run(&["solve", "m.toml", "-o", "a", "--control", "displacement", "--target", "-0.02", "--watch", "A2.z"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stderr.contains("controls A2.z"), "{r}");
+    let res = json(&dir.path("a/results.json"));
+    let last = res["steps"].as_array().unwrap().last().unwrap().clone();
+    assert!((last["point"].as_f64().unwrap() + 0.02).abs() < 1e-12, "{last}");
+}
+
+// ---------------------------------------------------------------------------
+// 6. Misspelt values; `check` finds every mechanism at once
+
+#[test]
+fn misspelt_command_line_values_get_a_suggestion() {
+    let dir = Scratch::new("misspelt");
+    dir.write("m.toml", NO_POINT);
+    for (args, flag, near) in [
+        (vec!["solve", "m.toml", "-o", "a", "--method", "newtn"], "--method newtn", "newton"),
+        (vec!["solve", "m.toml", "-o", "a", "--control", "arc-lenght"], "--control arc-lenght", "arc-length"),
+        (vec!["solve", "m.toml", "-o", "a", "--strain", "grene"], "--strain grene", "green"),
+        (vec!["form", "m.toml", "-o", "a", "--method", "relx"], "--method relx", "relax"),
+    ] {
+        let r = tautline_in(&dir.dir, &args);
+        assert_eq!(r.code, 2, "{r}");
+        assert!(r.stderr.starts_with(&format!("error: {flag}: not a valid value")), "{r}");
+        assert!(r.stderr.contains(&format!("help: did you mean \"{near}\"?")), "{r}");
+        assert!(!dir.path("a").exists(), "{r}");
+    }
+}
+
+/// A plane frame of five bars in z = 0 (invented): A and B fixed, C and D
+/// held in z, E free. Counting (Maxwell's rule; derived): in the plane, 3
+/// free nodes × 2 DOF against 5 independent bars leave 1 mechanism (the
+/// sway of C, D and E in x, no diagonal); out of the plane E.z has no
+/// stiffness at all (no prestress): 2 independent mechanisms. `solve` stops
+/// at the first; `check` names both at once. Member DE has a force density
+/// and no prestress, which `solve` ignores.
+const TWO_MECHANISMS: &str = r#"
+title = "frame with two mechanisms"
+[[section]]
+name = "s"
+EA = 1.0e6
+[[node]]
+id = "A"
+at = [0.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "B"
+at = [2.0, 0.0, 0.0]
+fix = "xyz"
+[[node]]
+id = "C"
+at = [0.0, 2.0, 0.0]
+fix = "z"
+[[node]]
+id = "D"
+at = [2.0, 2.0, 0.0]
+fix = "z"
+[[node]]
+id = "E"
+at = [1.0, 3.0, 0.0]
+[[member]]
+id = "AC"
+kind = "bar"
+ends = ["A", "C"]
+section = "s"
+[[member]]
+id = "BD"
+kind = "bar"
+ends = ["B", "D"]
+section = "s"
+[[member]]
+id = "CD"
+kind = "bar"
+ends = ["C", "D"]
+section = "s"
+[[member]]
+id = "CE"
+kind = "bar"
+ends = ["C", "E"]
+section = "s"
+[[member]]
+id = "DE"
+kind = "bar"
+ends = ["D", "E"]
+section = "s"
+force_density = 10.0
+[[load]]
+node = "E"
+force = [0.0, -1.0, 0.0]
+"#;
+
+#[test]
+fn check_finds_every_mechanism_at_once_and_the_ignored_force_density() {
+    let dir = Scratch::new("mech");
+    dir.write("m.toml", TWO_MECHANISMS);
+    let r = tautline_in(&dir.dir, &["check", "m.toml"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stderr.contains("2 independent mechanism(s)"), "{r}");
+    assert!(r.stderr.contains("1. moves E.z"), "{r}");
+    let sway = r.stderr.lines().find(|l| l.contains("2. moves")).unwrap_or_default();
+    for d in ["C.x", "D.x", "E.x"] {
+        assert!(sway.contains(d), "{r}");
+    }
+    assert!(r.stderr.contains("no stiffness at all in the drawn geometry") && r.stderr.contains(": E.z;"), "{r}");
+    assert!(r.stderr.contains("(first: \"DE\") have a force density but no `prestress`"), "{r}");
+    // The library count, independently of the text.
+    let m = model(TWO_MECHANISMS);
+    let sys = System::new(&m).unwrap();
+    let mech = tautline::screen::mechanisms(&sys, &m).unwrap();
+    assert_eq!(mech.count, 2);
+    assert_eq!(mech.modes.len(), 2);
+    // JSON carries the same warnings.
+    let r = tautline_in(&dir.dir, &["check", "m.toml", "--format", "json"]);
+    let v: Value = serde_json::from_str(&r.stdout).unwrap();
+    let w = v["warnings"].to_string();
+    assert!(w.contains("2 independent mechanism(s)") && w.contains("force density"), "{v}");
+    // A sound model gets none of these.
+    let r = tautline_in(&dir.dir, &["check", repo("models/courtyard_net.toml").to_str().unwrap()]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(!r.stderr.contains("warning"), "{r}");
+}
+
+/// A cable pulled sideways by its prestress alone (the README's old model
+/// example): `check` says the drawn geometry does not balance it.
+#[test]
+fn check_warns_of_a_prestress_out_of_balance() {
+    let dir = Scratch::new("imbalance");
+    let text = NO_POINT.replace("ends = [\"A2\", \"A3\"]\nsection = \"strand\"\nprestress = 20.0", "ends = [\"A2\", \"A3\"]\nsection = \"strand\"\nprestress = 5.0");
+    assert_ne!(text, NO_POINT);
+    dir.write("m.toml", &text);
+    let r = tautline_in(&dir.dir, &["check", "m.toml"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stderr.contains("the prestress is not in balance") && r.stderr.contains("node \"A2\""), "{r}");
+}
+
+// ---------------------------------------------------------------------------
+// 7. Warnings for utilisation above 1 and large strains
+
+#[test]
+fn solve_warns_of_overloaded_and_overstrained_members() {
+    let dir = Scratch::new("warn");
+    let demo = std::fs::read_to_string(repo("models/courtyard_net.toml")).unwrap();
+    // EA entered 1000 times too small: the net strains by tens of percent.
+    dir.write("soft.toml", &demo.replace("EA = 2.0e4", "EA = 20.0"));
+    let r = tautline_in(&dir.dir, &["solve", "soft.toml", "-o", "soft", "-q"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stderr.contains("strain by more than 3 %"), "{r}");
+    // A capacity below the forces: utilisation above 1.
+    dir.write("weak.toml", &demo.replace("tension_capacity = 180.0", "tension_capacity = 11.0"));
+    let r = tautline_in(&dir.dir, &["solve", "weak.toml", "-o", "weak", "-q"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stderr.contains("have a utilisation above 1"), "{r}");
+    assert!(!r.stderr.contains("strain by more"), "{r}");
+    // The largest utilisation named is members.csv's.
+    let members = std::fs::read_to_string(dir.path("weak/members.csv")).unwrap();
+    let header: Vec<&str> = members.lines().next().unwrap().split(',').collect();
+    let col = header.iter().position(|h| h.starts_with("utilisation")).unwrap();
+    let max = members.lines().skip(1).filter_map(|l| l.split(',').nth(col)?.parse::<f64>().ok()).fold(0.0, f64::max);
+    assert!(max > 1.0 && r.stderr.contains(&format!("{max:.3}")), "largest {max}: {r}");
+    // The demo as it is: neither warning.
+    let r = tautline_in(&dir.dir, &["solve", repo("models/courtyard_net.toml").to_str().unwrap(), "-o", "demo", "-q"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(!r.stderr.contains("warning"), "{r}");
+}
+
+// ---------------------------------------------------------------------------
+// 8. A formed model with a separate load file
+
+/// A 7 × 7 net form-found under its own (generated) snow loads, then a
+/// point load at the centre from a load file: the form-finding loads are
+/// held as a dead load, the file's load is stepped. The end state must be
+/// the equilibrium under both (derived: an elastic net's equilibrium under
+/// given loads does not depend on the order they came in), which the same
+/// formed model with the point load added to its own loads reaches in its
+/// start solve at load factor 1.
+#[test]
+fn a_load_file_adds_a_load_case_to_a_formed_model() {
+    let dir = Scratch::new("loadcase");
+    let g = saddle_net(&NetOptions { nx: 7, ny: 7, ..Default::default() }, "n").unwrap();
+    dir.write("net.toml", &format!("{}\n[form]\nforce_density = 2000.0\n", g.toml));
+    let r = tautline_in(&dir.dir, &["form", "net.toml", "-o", "f"]);
+    assert_eq!(r.code, 0, "{r}");
+    dir.write("point.toml", "[[load]]\nnode = \"N003_003\"\nforce = [0.0, 0.0, -5000.0]\n");
+    let r = tautline_in(&dir.dir, &["solve", "f/formed.toml", "--loads", "point.toml", "-o", "a", "--tolerance", "1e-11"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stderr.contains("1 load(s) stepped from load factor 0") && r.stderr.contains("held constant at load factor 1"), "{r}");
+    let a = json(&dir.path("a/results.json"));
+    // Step 0 is the formed equilibrium itself: no movement.
+    assert_eq!(a["steps"][0]["point"].as_f64().unwrap(), 0.0, "{a}");
+    // The same loads in one reference load.
+    let formed = std::fs::read_to_string(dir.path("f/formed.toml")).unwrap();
+    assert!(formed.contains("start_load_factor = 1.0"));
+    let both = formed + "\n[[load]]\nnode = \"N003_003\"\nforce = [0.0, 0.0, -5000.0]\n";
+    dir.write("both.toml", &both);
+    let r = tautline_in(&dir.dir, &["solve", "both.toml", "-o", "b", "--tolerance", "1e-11"]);
+    assert_eq!(r.code, 0, "{r}");
+    let b = json(&dir.path("b/results.json"));
+    let end = |v: &Value| v["steps"].as_array().unwrap().last().unwrap()["point"].as_f64().unwrap();
+    assert!(end(&a) < -1e-3, "the point load moves the centre: {}", end(&a));
+    assert!((end(&a) - end(&b)).abs() <= 1e-8 * end(&b).abs(), "{} against {}", end(&a), end(&b));
+}
+
+#[test]
+fn a_bad_load_file_is_refused_with_its_place() {
+    let dir = Scratch::new("badloads");
+    dir.write("m.toml", NO_POINT);
+    dir.write("l.toml", "[[load]]\nnode = \"A22\"\nforce = [0.0, 0.0, -1.0]\n\n[[node]]\nid = \"X\"\nat = [0.0, 0.0, 0.0]\n");
+    let r = tautline_in(&dir.dir, &["solve", "m.toml", "--loads", "l.toml", "-o", "a"]);
+    assert_eq!(r.code, 2, "{r}");
+    assert!(r.stderr.contains("l.toml:2") && r.stderr.contains("did you mean \"A2\"?"), "{r}");
+    assert!(r.stderr.contains("l.toml:5") && r.stderr.contains("a load file holds loads only"), "{r}");
+    assert!(!dir.path("a").exists(), "{r}");
+}
