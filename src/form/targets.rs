@@ -144,8 +144,8 @@ fn newton_step(model: &Model, targets: &[usize], form: &FormResult, q: &[f64], s
     for (col, &k) in targets.iter().enumerate() {
         let [i, j] = model.members[k].ends;
         dx.iter_mut().for_each(|v| *v = 0.0);
-        for a in 0..3 {
-            let d = x[j][a] - x[i][a];
+        for (a, (xj, xi)) in x[j].iter().zip(&x[i]).enumerate() {
+            let d = xj - xi;
             let (di, dj) = (sys.index[3 * i + a], sys.index[3 * j + a]);
             // −∂R/∂q_k: R_i = Σ q (x_i − x_j) at node i, the opposite at j.
             if di != NONE {
