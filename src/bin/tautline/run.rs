@@ -744,7 +744,7 @@ fn print_run_summary(m: &Model, r: &results::Results) {
 /// `verify`: the built-in textbook cases as a table (or JSON); exit 4 if any fails.
 fn verify(format: &str) -> Result<u8, Failure> {
     if format != "text" && format != "json" {
-        return Err(Failure::BadInput(format!("--format {format}: expected text or json")));
+        return Err(Failure::BadInput(bad_value("--format", format, &["text", "json"])));
     }
     let cases = tautline::verify::run_all();
     if format == "json" {
