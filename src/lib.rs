@@ -11,3 +11,4 @@ pub mod results;
 pub mod report;
 pub mod form;
 pub mod verify;
+pub mod screen;

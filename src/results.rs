@@ -375,6 +375,22 @@ fn norm3(v: [f64; 3]) -> f64 {
     (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt()
 }
 
+/// Whether a path that stopped short is moving away from its target: its
+/// last load factor is farther from the target than an earlier converged
+/// step was (and than its start). Returns that closest step and load factor.
+pub fn moving_away(model: &Model, path: &Path) -> Option<(usize, f64)> {
+    let target = model.analysis.target;
+    if model.analysis.control == crate::model::Control::Displacement {
+        return None;
+    }
+    let last = path.points.last()?;
+    let closest = path.points.iter().min_by(|a, b| (target - a.lambda).abs().total_cmp(&(target - b.lambda).abs()))?;
+    let first = path.points.first()?;
+    let away = (target - last.lambda).abs();
+    (away > (target - closest.lambda).abs() && away >= (target - first.lambda).abs() && closest.step != last.step)
+        .then_some((closest.step, closest.lambda))
+}
+
 /// Describes why the path stopped, in words an engineer can act on.
 pub fn stop_message(model: &Model, path: &Path) -> String {
     let units = &model.units;
@@ -382,10 +398,19 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
     match path.stop {
         StopReason::TargetReached => format!("reached the target at load factor {last:.6}"),
         StopReason::MaxDisplacement => format!("stopped at max_displacement, load factor {last:.6}"),
-        StopReason::MaxSteps => format!(
-            "stopped after max_steps = {} steps at load factor {last:.6}, before the target; raise max_steps or steps",
-            model.analysis.max_steps
-        ),
+        StopReason::MaxSteps => match moving_away(model, path) {
+            Some((step, closest)) => format!(
+                "stopped after max_steps = {} steps at load factor {last:.6}, moving away from the target {}: the load factor \
+                 was closest to it at step {step} ({closest:.6}) and has moved away since, so more steps would not reach it; \
+                 see critical_points in results.json for a limit point on the way, check the sign of the loads and of target, \
+                 or follow the path with a smaller arc",
+                model.analysis.max_steps, model.analysis.target
+            ),
+            None => format!(
+                "stopped after max_steps = {} steps at load factor {last:.6}, before the target; raise max_steps or steps",
+                model.analysis.max_steps
+            ),
+        },
         StopReason::Interrupted => format!("interrupted at load factor {last:.6}; converged steps are kept"),
         StopReason::NoStartEquilibrium => start_failure_message(model, path),
         StopReason::BranchSwitch => match &path.switch {
@@ -437,6 +462,11 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
                 Termination::MaxIterations => "the corrector ran out of iterations".into(),
                 Termination::Diverged => "the iterations diverged".into(),
                 Termination::ConstraintFailed => "the path constraint had no solution".into(),
+                Termination::Jumped if f.step == 1 && model.analysis.control == crate::model::Control::ArcLength => {
+                    "the first step converged only behind the start, away from the target, at every arc length tried \
+                     (the path from the start state heads away from the target for this load direction)"
+                        .into()
+                }
                 Termination::Jumped => "the step jumped to a distant part of the path (the structure snaps through here) or turned back on it".into(),
                 Termination::Converged | Termination::Stopped => "unknown".into(),
             };

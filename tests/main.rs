@@ -24,3 +24,5 @@ mod stability;
 mod start;
 mod branch;
 mod verification;
+mod workflow;
+mod readme;

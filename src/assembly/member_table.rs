@@ -86,6 +86,12 @@ impl MemberTable {
         &self.rest
     }
 
+    /// Chord of member `m` in the given geometry and its elastic stiffness
+    /// EA/Lr (N/m): the axial stiffness it has once taut.
+    pub fn taut_axial(&self, m: usize) -> ([f64; 3], f64) {
+        (self.chord[m], self.ea[m] / self.rest[m])
+    }
+
     /// Force and tangent block of member `m` for the end displacement
     /// difference `du` (node j minus node i).
     #[inline]

@@ -256,6 +256,13 @@ impl System {
                 ref_nodal[3 * load.node + a] += load.force[a];
             }
         }
+        // Constant nodal loads (a formed model's form-finding loads held
+        // while a separate load case is stepped): dead load like self-weight.
+        for load in &model.dead_loads {
+            for a in 0..3 {
+                dead_nodal[3 * load.node + a] += load.force[a];
+            }
+        }
         let mut f_ref = vec![0.0; dofs.n_free()];
         let mut f_dead = vec![0.0; dofs.n_free()];
         let mut support_loads = Vec::new();
@@ -529,6 +536,40 @@ impl System {
                 MemberResult { force: st.force, strain: st.strain, length: st.length, slack: st.slack }
             })
             .collect()
+    }
+
+    /// Adds to `row` (one entry per free DOF) the row sums of |K_m| of every
+    /// member that is slack at `u`, as if it were taut: (EA/Lr)·e eᵀ with e
+    /// its current direction, on the diagonal block of both ends and, negated,
+    /// between them. Dynamic relaxation adds this to the tangent's row sums
+    /// so that its masses bound the stiffness a slack cable regains when it
+    /// tightens (Barnes 1999 takes the masses from the members' elastic
+    /// stiffness for the same reason).
+    pub fn add_slack_taut_rows(&self, u: &[f64], row: &mut [f64]) {
+        let raw = self.dofs.raw();
+        for m in 0..self.members.len() {
+            let du = self.end_difference(u, m);
+            if !self.members.state(m, &du, self.strain).slack {
+                continue;
+            }
+            let (d, k) = self.members.taut_axial(m);
+            let x: [f64; 3] = std::array::from_fn(|a| d[a] + du[a]);
+            let l = (x[0] * x[0] + x[1] * x[1] + x[2] * x[2]).sqrt();
+            if !(l > 0.0 && k.is_finite()) {
+                continue;
+            }
+            let e = x.map(|c| c / l);
+            let sum_e: f64 = e.iter().map(|c| c.abs()).sum();
+            for node in self.ends[m] {
+                for a in 0..3 {
+                    let dof = raw[3 * node as usize + a];
+                    if dof != FIXED {
+                        // Diagonal block and the coupling block to the other end.
+                        row[dof as usize] += 2.0 * k * e[a].abs() * sum_e;
+                    }
+                }
+            }
+        }
     }
 
     /// Indices of the members that carry no tension at `u` (slack cables).

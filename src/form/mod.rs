@@ -117,7 +117,7 @@ pub fn member_force_densities(model: &Model) -> Result<Vec<f64>, FormError> {
         .collect()
 }
 
-const NONE: usize = usize::MAX;
+pub(crate) const NONE: usize = usize::MAX;
 
 /// Finds the equilibrium shape of the model's members under its nodal loads
 /// (at load factor 1) for the given force densities.
@@ -127,7 +127,32 @@ pub fn force_density(model: &Model) -> Result<FormResult, FormError> {
 
 /// [`force_density`] with the force densities `q` (N/m, one per member).
 pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, FormError> {
+    solve_with(model, q).map(|(form, _)| form)
+}
+
+/// The factored force density system of one solve, kept for the
+/// sensitivities of the target iteration ([`targets`]).
+pub(crate) struct FdSystem {
+    /// Unknown of each (node, axis), 3·node + axis; `NONE` if supported.
+    pub index: Vec<usize>,
+    /// D factored (None when every coordinate is supported).
+    pub ldlt: Option<Ldlt>,
+    pub n: usize,
+}
+
+impl FdSystem {
+    /// Solves D·x = rhs in place.
+    pub fn solve_in_place(&mut self, rhs: &mut [f64]) {
+        if let Some(l) = &mut self.ldlt {
+            l.solve_in_place(rhs);
+        }
+    }
+}
+
+/// The force density solve, returning the factored system as well.
+pub(crate) fn solve_with(model: &Model, q: Vec<f64>) -> Result<(FormResult, FdSystem), FormError> {
     let n_nodes = model.n_nodes();
+    let mut kept = None;
 
     // Unknowns: free (node, axis) pairs, node by node.
     let mut index = vec![NONE; 3 * n_nodes];
@@ -253,6 +278,7 @@ pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, Form
             }
             positions[k][a] = rhs[d];
         }
+        kept = Some(ldlt);
     }
 
     let mut lengths = Vec::with_capacity(model.n_members());
@@ -277,13 +303,16 @@ pub fn force_density_with(model: &Model, q: Vec<f64>) -> Result<FormResult, Form
             ));
         }
     }
-    Ok(FormResult {
-        positions,
-        forces,
-        lengths,
-        force_densities: q,
-        warnings,
-    })
+    Ok((
+        FormResult {
+            positions,
+            forces,
+            lengths,
+            force_densities: q,
+            warnings,
+        },
+        FdSystem { index, ldlt: kept, n },
+    ))
 }
 
 fn axis_letter(a: usize) -> char {

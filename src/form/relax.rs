@@ -61,7 +61,9 @@ pub enum RelaxStop {
     Converged,
     /// `max_steps` time steps were taken first.
     StepCap,
-    /// The residual became infinite or NaN.
+    /// The motion stayed unstable (the residual grew without bound or
+    /// turned non-finite) even with the masses raised by the stability
+    /// guard; the state returned is the last one at rest, which is finite.
     NotFinite,
 }
 
@@ -75,6 +77,9 @@ pub struct RelaxReport {
     pub peaks: usize,
     /// Times the masses were recomputed from the tangent.
     pub mass_updates: usize,
+    /// Restarts of the stability guard: an unstable stretch taken back to
+    /// the last state at rest with heavier masses.
+    pub restarts: usize,
     /// ‖r‖ / force scale at the state returned.
     pub relative_residual: f64,
 }
@@ -102,6 +107,19 @@ trait Dynamics {
 
 /// The central-difference loop with kinetic-energy resets shared by the
 /// analysis and the form finding. `v`, `r`, `mass` have the length of `u`.
+///
+/// Stability guard. The masses bound the tangent at the reset where they
+/// were taken; a member that stiffens a lot before the next reset (a slack
+/// cable that tightens and is not covered by [`Dynamics::row_stiffness`], a
+/// bar driven far into strain) can push ω_max·Δt past 2, and the
+/// central-difference scheme then grows without bound. A run whose relative
+/// residual rises above `BLOWUP` times the value at its last reset (or turns
+/// non-finite) is therefore taken back to that reset, at rest, with every
+/// mass multiplied by `MASS_BOOST` (the same as dividing Δt by 2); after
+/// `MAX_BOOSTS` such restarts it gives up and returns the last state at rest,
+/// which is finite. A stable oscillation from rest cannot trip the guard:
+/// for a linear system ‖r‖ stays below √κ(K)·‖r₀‖ (energy is conserved
+/// between resets), far below `BLOWUP` for any net or truss here.
 fn kinetic_damping(
     dynamics: &mut impl Dynamics,
     u: &mut [f64],
@@ -110,24 +128,55 @@ fn kinetic_damping(
     mass: &mut [f64],
     cfg: &RelaxConfig,
 ) -> RelaxReport {
-    let mut report =
-        RelaxReport { stop: RelaxStop::StepCap, steps: 0, peaks: 0, mass_updates: 0, relative_residual: f64::INFINITY };
+    let mut report = RelaxReport {
+        stop: RelaxStop::StepCap,
+        steps: 0,
+        peaks: 0,
+        mass_updates: 0,
+        restarts: 0,
+        relative_residual: f64::INFINITY,
+    };
     v.fill(0.0);
+    // The state at the last reset (finite) and its relative residual: where
+    // an unstable run is taken back to. One copy per run, not per step.
+    let mut u_rest = u.to_vec();
+    let mut rest_residual = f64::INFINITY;
+    // Mass multiplier of the stability guard.
+    let mut boost = 1.0;
     // Kinetic energies at the last two half steps; 0 at rest.
     let (mut e0, mut e1) = (0.0, 0.0);
     let mut from_rest = true;
     loop {
         if from_rest {
             dynamics.row_stiffness(u, mass);
-            lumped_masses(mass);
+            lumped_masses(mass, boost);
             report.mass_updates += 1;
         }
-        report.relative_residual = dynamics.residual(u, r);
-        if !report.relative_residual.is_finite() {
-            report.stop = RelaxStop::NotFinite;
-            return report;
+        let rel = dynamics.residual(u, r);
+        if from_rest && rel.is_finite() {
+            u_rest.copy_from_slice(u);
+            rest_residual = rel;
         }
-        if report.relative_residual <= cfg.tolerance {
+        if !rel.is_finite() || rel > BLOWUP * rest_residual {
+            if !rest_residual.is_finite() || report.restarts >= MAX_BOOSTS {
+                // Nothing finite to go back to, or the guard is spent: keep
+                // the last state at rest.
+                u.copy_from_slice(&u_rest);
+                report.relative_residual = rest_residual;
+                report.stop = RelaxStop::NotFinite;
+                return report;
+            }
+            u.copy_from_slice(&u_rest);
+            v.fill(0.0);
+            boost *= MASS_BOOST;
+            report.restarts += 1;
+            e0 = 0.0;
+            e1 = 0.0;
+            from_rest = true;
+            continue;
+        }
+        report.relative_residual = rel;
+        if rel <= cfg.tolerance {
             report.stop = RelaxStop::Converged;
             return report;
         }
@@ -170,12 +219,24 @@ fn kinetic_damping(
     }
 }
 
-/// mᵢ = (Δt²/2)·Σⱼ|Kᵢⱼ| in place of the row sums, with a floor.
-fn lumped_masses(row: &mut [f64]) {
+/// Growth of the relative residual over its value at the last reset taken
+/// as instability (see [`kinetic_damping`]).
+const BLOWUP: f64 = 1e6;
+
+/// Mass multiplier after an unstable stretch: 4 halves the effective time
+/// step (ω·Δt scales with Δt/√m).
+const MASS_BOOST: f64 = 4.0;
+
+/// Restarts of the stability guard before the run gives up (Δt effectively
+/// divided by 2^30 by then).
+const MAX_BOOSTS: usize = 30;
+
+/// mᵢ = boost·(Δt²/2)·Σⱼ|Kᵢⱼ| in place of the row sums, with a floor.
+fn lumped_masses(row: &mut [f64], boost: f64) {
     let largest = row.iter().fold(0.0f64, |a, &b| a.max(b));
     let floor = if largest > 0.0 { MASS_FLOOR * largest } else { 1.0 };
     for m in row {
-        *m = (0.5 * DT * DT * *m).max(floor);
+        *m = boost * (0.5 * DT * DT * *m).max(floor);
     }
 }
 
@@ -218,6 +279,7 @@ impl Dynamics for Analysis<'_> {
                 }
             }
         }
+        self.system.add_slack_taut_rows(u, row);
     }
 }
 
@@ -436,4 +498,82 @@ pub fn relax_form(model: &Model, cfg: &RelaxConfig) -> Result<(FormResult, Relax
         }
     }
     Ok((form, report))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// r(u) = K·u − f for a 2-DOF chain of springs k₁ (to ground) and k₂,
+    /// with row stiffnesses understated by `under`: the masses then violate
+    /// the stability bound ω²Δt² ≤ 4 and the central-difference motion grows
+    /// until the guard restarts it with heavier masses.
+    struct Chain {
+        k1: f64,
+        k2: f64,
+        f: [f64; 2],
+        under: f64,
+    }
+
+    impl Dynamics for Chain {
+        fn residual(&mut self, u: &[f64], r: &mut [f64]) -> f64 {
+            r[0] = (self.k1 + self.k2) * u[0] - self.k2 * u[1] - self.f[0];
+            r[1] = -self.k2 * u[0] + self.k2 * u[1] - self.f[1];
+            (r[0] * r[0] + r[1] * r[1]).sqrt() / (self.f[0].hypot(self.f[1]))
+        }
+        fn row_stiffness(&mut self, _: &[f64], row: &mut [f64]) {
+            row[0] = (self.k1 + 2.0 * self.k2) * self.under;
+            row[1] = 2.0 * self.k2 * self.under;
+        }
+    }
+
+    fn run(d: &mut impl Dynamics, n: usize) -> (Vec<f64>, RelaxReport) {
+        let mut u = vec![0.0; n];
+        let (mut v, mut r, mut m) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+        let cfg = RelaxConfig { tolerance: 1e-12, max_steps: 20_000 };
+        let rep = kinetic_damping(d, &mut u, &mut v, &mut r, &mut m, &cfg);
+        (u, rep)
+    }
+
+    /// With the Gershgorin masses the chain converges without a restart; with
+    /// masses 1000× too light (ω²Δt² ≈ 2000, far past 4) the guard restarts
+    /// and still converges to the exact solution u = K⁻¹f (derived: u₁ =
+    /// (f₁ + f₂)/k₁, u₂ = u₁ + f₂/k₂).
+    #[test]
+    fn the_guard_rescues_masses_below_the_stability_bound() {
+        let (k1, k2, f) = (1.0e3, 1.0e6, [2.0, 5.0]);
+        let exact = [(f[0] + f[1]) / k1, (f[0] + f[1]) / k1 + f[1] / k2];
+        for (under, restarts) in [(1.0, false), (1.0e-3, true)] {
+            let (u, rep) = run(&mut Chain { k1, k2, f, under }, 2);
+            assert_eq!(rep.stop, RelaxStop::Converged, "under = {under}: {rep:?}");
+            assert_eq!(rep.restarts > 0, restarts, "under = {under}: {rep:?}");
+            for (a, b) in u.iter().zip(exact) {
+                assert!((a - b).abs() <= 1e-9 * b.abs(), "under = {under}: {u:?} against {exact:?}");
+            }
+        }
+    }
+
+    /// A problem with no stable equilibrium (r = −k·u − f: the motion grows
+    /// from any state) does not converge and returns a finite state with a
+    /// finite residual, never a diverged one: the guard restarts the growing
+    /// motion with heavier masses, which slows it, until the step cap.
+    #[test]
+    fn an_unstable_problem_returns_the_last_state_at_rest() {
+        struct Repelling;
+        impl Dynamics for Repelling {
+            fn residual(&mut self, u: &[f64], r: &mut [f64]) -> f64 {
+                r[0] = -1.0e3 * u[0] - 1.0;
+                r[0].abs()
+            }
+            fn row_stiffness(&mut self, _: &[f64], row: &mut [f64]) {
+                row[0] = 1.0e3;
+            }
+        }
+        let (u, rep) = run(&mut Repelling, 1);
+        assert_ne!(rep.stop, RelaxStop::Converged, "{rep:?}");
+        assert!(u[0].is_finite() && rep.relative_residual.is_finite(), "{u:?} {rep:?}");
+        assert!(rep.restarts > 0, "{rep:?}");
+        let mut r = [0.0];
+        assert_eq!(Repelling.residual(&u, &mut r), rep.relative_residual, "the residual reported is the state's");
+    }
 }

@@ -359,6 +359,9 @@ pub struct Analysis {
     pub max_displacement: Option<f64>,
     /// Controlled / watched point.
     pub point: Option<NodeDir>,
+    /// `point` was given as `node` and `dir` in the file (not taken from
+    /// the first watched displacement).
+    pub point_given: bool,
     /// First arc length (arc-length control), in the model's scaled norm.
     pub arc: Option<f64>,
     pub max_steps: usize,
@@ -440,6 +443,7 @@ impl Default for Analysis {
             target: 1.0,
             max_displacement: None,
             point: None,
+            point_given: false,
             arc: None,
             max_steps: 200,
             tolerance: 1e-9,
@@ -539,6 +543,11 @@ pub struct Model {
     pub members: Vec<Member>,
     pub springs: Vec<Spring>,
     pub loads: Vec<NodalLoad>,
+    /// Constant nodal loads, N, present at every load factor like the
+    /// self-weight's dead load: the model's own loads when a load file is
+    /// added for `solve` (see [`Model::with_load_case`]). Empty for a model
+    /// read from a file.
+    pub dead_loads: Vec<NodalLoad>,
     pub analysis: Analysis,
     pub form: FormSettings,
     /// Things worth knowing that do not stop the run (e.g. an unloaded model).
@@ -546,6 +555,31 @@ pub struct Model {
 }
 
 impl Model {
+    /// This model with a separate load case: `loads` (from a load file)
+    /// become the reference load, stepped from λ = 0 to `target`; the
+    /// model's own loads are held constant, as a dead load, at their value
+    /// at `start_load_factor` (a formed model's form-finding loads at 1,
+    /// which its shape balances; a model starting at 0 drops them). Returns
+    /// the number of the model's loads held.
+    pub fn with_load_case(&mut self, case: validate::LoadCase) -> usize {
+        // The load file's places index its own file list: append it.
+        let offset = self.files.len() as u16;
+        self.files.extend(case.files);
+        let loads: Vec<NodalLoad> = case
+            .loads
+            .into_iter()
+            .map(|l| NodalLoad { place: Place { file: l.place.file + offset, ..l.place }, ..l })
+            .collect();
+        let held = self.analysis.start_load_factor;
+        let own = std::mem::replace(&mut self.loads, loads);
+        let n_held = if held != 0.0 { own.len() } else { 0 };
+        if held != 0.0 {
+            self.dead_loads.extend(own.into_iter().map(|l| NodalLoad { force: l.force.map(|f| held * f), ..l }));
+        }
+        self.analysis.start_load_factor = 0.0;
+        n_held
+    }
+
     pub fn n_nodes(&self) -> usize {
         self.nodes.len()
     }

@@ -985,11 +985,16 @@ impl<'a> Tracer<'a> {
                     // the target's sign on the first step.
                     let du_f = tangent_direction(sys, ws);
                     let norm = dot(&du_f, &du_f).sqrt();
+                    // The first step heads for the target: δλ takes the sign
+                    // of (target − λ) (from a start beyond the target, back
+                    // towards it); its arc is capped in `Stepper::new`.
+                    let to_target = a.target - state.lambda;
+                    let heading = if to_target != 0.0 { to_target.signum() } else { a.target.signum() };
                     let sign = if last_increment.is_empty() {
-                        a.target.signum()
+                        heading
                     } else {
                         let d = dot(&du_f, &last_increment);
-                        if d == 0.0 { a.target.signum() } else { d.signum() }
+                        if d == 0.0 { heading } else { d.signum() }
                     };
                     let dl = sign * stepper.size / norm;
                     if !dl.is_finite() {
@@ -1037,6 +1042,14 @@ impl<'a> Tracer<'a> {
                 (Termination::Converged, Control::Displacement) if switcher.has_switched() && !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
                     if turned { Termination::Jumped } else { term }
+                }
+                // The first arc-length step must head for the target: a
+                // corrector that converged behind the start (the cylinder
+                // meets the path there too) is cut back and retried shorter.
+                (Termination::Converged, Control::ArcLength)
+                    if last_increment.is_empty() && (state.lambda - start_lambda) * (a.target - start_lambda) < 0.0 =>
+                {
+                    Termination::Jumped
                 }
                 (Termination::Converged, Control::ArcLength) if !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
@@ -1475,24 +1488,42 @@ struct Stepper {
     nominal: f64,
     control_dof: Option<usize>,
     normal_plane: bool,
+    /// Arc-length: the tangent displacement of the whole way from the start
+    /// to the target, ‖K⁻¹f‖·|target − λ₀| (infinite otherwise). A first
+    /// step longer than that overshoots the target in the predictor and can
+    /// hand the corrector a cylinder that meets the path only behind the
+    /// start (a stiff start with a soft reverse branch, such as stays that
+    /// go slack under uplift); it is retried at this length.
+    first_cap: f64,
+    /// No step has converged yet.
+    on_first: bool,
+    /// The factor of the smallest step, 2^−max_cutbacks.
+    cut: f64,
 }
 
 impl Stepper {
     fn new(a: &crate::model::Analysis, sys: &System, ws: &mut Workspace) -> Stepper {
         let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
+        let mut first_cap = f64::INFINITY;
         let nominal = match a.control {
             Control::Load => (a.target - a.start_load_factor) / a.steps.max(1) as f64,
             Control::Displacement => a.target / a.steps.max(1) as f64,
-            Control::ArcLength => a.arc.unwrap_or_else(|| {
+            Control::ArcLength => {
                 // No arc given: the displacement of the first load increment
-                // along the tangent.
+                // along the tangent. The cap of a failed first step: see
+                // `first_cap`.
                 let du_f = tangent_direction(sys, ws);
-                (a.target / a.steps.max(1) as f64).abs() * dot(&du_f, &du_f).sqrt()
-            }),
+                let tangent = dot(&du_f, &du_f).sqrt();
+                first_cap = (a.target - a.start_load_factor).abs() * tangent;
+                a.arc.unwrap_or((a.target / a.steps.max(1) as f64).abs() * tangent)
+            }
         };
         let cut = 0.5f64.powi(a.max_cutbacks as i32);
         Stepper {
             size: nominal,
+            first_cap: if first_cap > 0.0 && first_cap.is_finite() { first_cap } else { f64::INFINITY },
+            on_first: true,
+            cut,
             min_size: nominal.abs() * cut * (1.0 - 1e-12),
             max_size: if a.control == Control::ArcLength { 2.0 * nominal.abs() } else { nominal.abs() },
             adaptive: a.control == Control::ArcLength,
@@ -1510,8 +1541,17 @@ impl Stepper {
     }
 
     /// Halves the step; false when it would fall below the smallest size.
+    /// A first arc-length step that failed (or converged behind the start)
+    /// and is longer than the tangent displacement of the whole way to the
+    /// target is retried at that length instead, and may be halved from
+    /// there as often as any step.
     fn cut_back(&mut self) -> bool {
         self.successes_since_cut = 0;
+        if self.on_first && 0.5 * self.size.abs() > self.first_cap {
+            self.size = self.first_cap * self.size.signum();
+            self.min_size = self.min_size.min(self.first_cap * self.cut * (1.0 - 1e-12));
+            return true;
+        }
         let next = 0.5 * self.size;
         if next.abs() < self.min_size {
             return false;
@@ -1521,6 +1561,7 @@ impl Stepper {
     }
 
     fn converged(&mut self, iterations: usize) {
+        self.on_first = false;
         self.successes_since_cut += 1;
         if self.adaptive {
             let ratio = (DESIRED_ITERATIONS / iterations.max(1) as f64).sqrt().clamp(0.5, 2.0);

@@ -6,10 +6,12 @@ use std::path::PathBuf;
 #[derive(Parser, Debug)]
 #[command(name = "tautline", version, about = "Large-displacement equilibrium of cable nets and pin-jointed trusses")]
 pub struct Cli {
-    /// No progress bar; print only the outcome, the files written and the caution
+    /// No progress bar; `solve` and `demo` print only the outcome line, the
+    /// files written and the caution (the other commands print as usual)
     #[arg(short, long, global = true)]
     pub quiet: bool,
-    /// Threads for assembly and factorization (default: TAUTLINE_THREADS, else every core)
+    /// Threads that assemble the residual and tangent (default: TAUTLINE_THREADS,
+    /// else every core); the sparse factorization always runs on one thread
     #[arg(long, global = true, value_name = "N")]
     pub threads: Option<usize>,
     #[command(subcommand)]
@@ -46,6 +48,12 @@ pub enum Command {
         /// in results.json order) on the shape at that point
         #[arg(long, value_name = "N")]
         plot_mode: Option<usize>,
+        /// Load file ([[load]] tables, optionally [units] and loads_csv) whose
+        /// loads become the reference load, stepped from load factor 0 to the
+        /// target; the model's own loads are held constant at their
+        /// start_load_factor value (a formed model's form-finding loads)
+        #[arg(long = "loads", value_name = "FILE")]
+        loads: Option<PathBuf>,
         #[command(flatten)]
         report: ReportArgs,
         #[command(flatten)]

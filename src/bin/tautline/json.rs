@@ -39,7 +39,7 @@ fn warnings(m: &Model, extra: &[String]) -> Vec<Value> {
 }
 
 /// `check`: what the model holds.
-pub fn check(m: &Model, c: &Counts) -> Value {
+pub fn check(m: &Model, c: &Counts, screening: &[String]) -> Value {
     let u = m.units;
     let t = m.total_reference_load();
     json!({
@@ -59,7 +59,7 @@ pub fn check(m: &Model, c: &Counts) -> Value {
         "loads": c.loads,
         "free_dofs": c.free_dofs,
         "total_reference_load": t.map(|v| u.force_out(v)),
-        "warnings": warnings(m, &[]),
+        "warnings": warnings(m, screening),
     })
 }
 

@@ -73,7 +73,12 @@ fn run_cli() -> ExitCode {
             code
         }
         Err(run::Failure::BadInput(msg)) => {
-            eprintln!("{msg}");
+            // The same "error: …" start as a model file's problems.
+            if msg.starts_with("error:") {
+                eprintln!("{msg}");
+            } else {
+                eprintln!("error: {msg}");
+            }
             if !msg.contains("nothing was written") {
                 eprintln!("nothing was written");
             }

@@ -61,8 +61,8 @@ pub fn relax(
 
     println!("relax: {} at load factor {lambda}", m.title);
     println!(
-        "dynamic relaxation: {} time steps, {} kinetic-energy peaks, {} mass updates, relative residual {:.3e}",
-        rep.steps, rep.peaks, rep.mass_updates, rep.relative_residual
+        "dynamic relaxation: {} time steps, {} kinetic-energy peaks, {} mass updates, {} stability restarts, relative residual {:.3e}",
+        rep.steps, rep.peaks, rep.mass_updates, rep.restarts, rep.relative_residual
     );
     for w in &a.watch {
         let v = units.length_out(system.dofs.displacement(&u, w.node, w.axis.index()));
@@ -83,8 +83,9 @@ pub fn relax(
         }
         RelaxStop::NotFinite => {
             println!(
-                "stopped before the target: the residual became non-finite after {} time steps; relax.csv holds the last state",
-                rep.steps
+                "stopped before the target: the motion stayed unstable after {} time steps and {} restarts with heavier masses; \
+                 relax.csv holds the last state at rest before that (relative residual {:.3e}), which is not an equilibrium",
+                rep.steps, rep.restarts, rep.relative_residual
             );
             exit::STOPPED
         }

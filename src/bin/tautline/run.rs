@@ -50,17 +50,44 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
             let started = Instant::now();
             let m = load(&model, format)?;
             let read_s = started.elapsed().as_secs_f64();
+            let screening = screen_model(&m);
             match format {
                 Format::Text => {
+                    for w in &screening {
+                        eprintln!("warning: {w}");
+                    }
                     print_summary(&m);
                     println!("read and validated in {read_s:.2} s");
                 }
-                Format::Json => println!("{}", crate::json::check(&m, &Counts::of(&m))),
+                Format::Json => println!("{}", crate::json::check(&m, &Counts::of(&m), &screening)),
             }
             Ok(exit::DONE)
         }
-        Command::Solve { model, out, force, format, png, plot_mode, report, overrides } => {
-            let mut m = load(&model, format)?;
+        Command::Solve { model, out, force, format, png, plot_mode, report, loads, overrides } => {
+            // With a load file the model's "no loads" warning does not apply.
+            let mut m = model::load(&model).map_err(Failure::Model)?;
+            if loads.is_some() {
+                m.warnings.retain(|w| !w.message.contains("the model has no loads"));
+            }
+            if format == Format::Text {
+                for w in &m.warnings {
+                    eprintln!("warning: {w}");
+                }
+            }
+            if let Some(file) = &loads {
+                let case = model::validate::load_case(&m, file).map_err(Failure::Model)?;
+                let n = case.loads.len();
+                let start = m.analysis.start_load_factor;
+                let held = m.with_load_case(case);
+                if format == Format::Text {
+                    let own = if held > 0 {
+                        format!("the model's {held} load(s) held constant at load factor {start}")
+                    } else {
+                        "the model's own loads not applied (its start_load_factor is 0)".to_string()
+                    };
+                    eprintln!("note: {}: {n} load(s) stepped from load factor 0; {own}", file.display());
+                }
+            }
             apply_overrides(&mut m, &overrides).map_err(Failure::BadInput)?;
             if plot_mode == Some(0) {
                 return Err(Failure::BadInput("--plot-mode 0: critical points are counted from 1".into()));
@@ -94,6 +121,13 @@ pub(crate) fn load(path: &Path, format: Format) -> Result<Model, Failure> {
         }
     }
     Ok(m)
+}
+
+/// A command-line value that is not one of `names`, in the style of the
+/// model file's errors: the value, then a help line with the nearest name
+/// ("did you mean") and the full list.
+pub(crate) fn bad_value(flag: &str, value: &str, names: &[&str]) -> String {
+    format!("{flag} {value}: not a valid value\n  help: {}", model::validate::suggest::choice_help(value, names))
 }
 
 fn parse_node_dir(m: &Model, s: &str) -> Result<NodeDir, String> {
@@ -133,18 +167,22 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
     let len_in = m.units.length.to_si();
     let a = &mut m.analysis;
     if let Some(s) = &o.method {
-        a.method = Method::parse(s)
-            .ok_or_else(|| format!("--method {s}: expected one of {}", Method::NAMES.join(", ")))?;
+        a.method = Method::parse(s).ok_or_else(|| bad_value("--method", s, &Method::NAMES))?;
     }
+    // `--control displacement` on a model written for another control: its
+    // `target` is a load factor and its point may only be a watched one, so
+    // both must be said on the command line (or the point in the model).
+    let mut switched_to_displacement = false;
     if let Some(s) = &o.control {
-        a.control = Control::parse(s)
-            .ok_or_else(|| format!("--control {s}: expected one of {}", Control::NAMES.join(", ")))?;
+        let c = Control::parse(s).ok_or_else(|| bad_value("--control", s, &Control::NAMES))?;
+        switched_to_displacement = c == Control::Displacement && a.control != Control::Displacement;
+        a.control = c;
     }
     if let Some(s) = &o.strain {
         a.strain = match s.as_str() {
             "green" => StrainMeasure::Green,
             "engineering" => StrainMeasure::Engineering,
-            _ => return Err(format!("--strain {s}: expected green or engineering")),
+            _ => return Err(bad_value("--strain", s, &["green", "engineering"])),
         };
     }
     if let Some(n) = o.steps {
@@ -196,6 +234,27 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
         }
         m.analysis.watch = watch;
     }
+    if switched_to_displacement {
+        let ln = m.units.length.name();
+        if o.target.is_none() {
+            return Err(format!(
+                "--control displacement needs --target: the controlled displacement in {ln} (the model's target = {} is a load factor, not a displacement)",
+                m.analysis.target
+            ));
+        }
+        if !m.analysis.point_given {
+            if o.watch.is_empty() {
+                return Err(
+                    "--control displacement needs the controlled point: set node and dir in [analysis], or pass --watch NODE.DIR (the first --watch is controlled)"
+                        .into(),
+                );
+            }
+            m.analysis.point = m.analysis.watch.first().copied();
+            if let Some(p) = m.analysis.point {
+                eprintln!("note: --control displacement controls {} (the first --watch)", m.node_dir_label(p));
+            }
+        }
+    }
     let a = &m.analysis;
     if a.control == Control::Displacement {
         match a.point {
@@ -207,6 +266,85 @@ fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
         }
     }
     Ok(())
+}
+
+/// `check`'s screening beyond validation: force densities `solve` ignores,
+/// and every independent mechanism of the drawn geometry (`screen`).
+fn screen_model(m: &Model) -> Vec<String> {
+    let mut out: Vec<String> = force_density_warning(m).into_iter().collect();
+    let Ok(system) = System::new(m) else {
+        // `solve` reports why the system cannot be built.
+        return out;
+    };
+    if system.n_free() > SCREEN_MAX_DOFS {
+        out.push(format!(
+            "mechanism search skipped: {} free DOFs, above {SCREEN_MAX_DOFS} (it factors the tangent twice); `solve` still names a mechanism it meets",
+            system.n_free()
+        ));
+        return out;
+    }
+    if let Some((force, node)) = tautline::screen::prestress_imbalance(&system, m) {
+        out.push(format!(
+            "the prestress is not in balance in the drawn geometry: {:.4e} {} out of balance at node {:?}; `solve` first looks for \
+             the equilibrium at load factor 0, which moves the structure (or finds none). That is expected where members given by \
+             rest length settle the structure (a guyed mast); a cable net should be form-found first (`tautline form`)",
+            m.units.force_out(force),
+            m.units.force.name(),
+            m.nodes[node].label
+        ));
+    }
+    match tautline::screen::mechanisms(&system, m) {
+        Ok(mech) => {
+            if !mech.obvious.is_empty() {
+                let shown: Vec<String> = mech.obvious.iter().take(10).map(|nd| m.node_dir_label(*nd)).collect();
+                let more = if mech.obvious.len() > 10 { format!(" and {} more", mech.obvious.len() - 10) } else { String::new() };
+                out.push(format!(
+                    "{} free direction(s) have no stiffness at all in the drawn geometry (no member, prestress or spring acts along them): {}{more}; \
+                     support them, add a member or spring, or prestress the members that meet there",
+                    mech.obvious.len(),
+                    shown.join(", ")
+                ));
+            }
+            if mech.count > 0 {
+                let listed: Vec<String> = mech
+                    .modes
+                    .iter()
+                    .enumerate()
+                    .map(|(k, dirs)| {
+                        let d: Vec<String> = dirs.iter().map(|nd| m.node_dir_label(*nd)).collect();
+                        format!("  {}. moves {}", k + 1, d.join(", "))
+                    })
+                    .collect();
+                let more = if mech.count > mech.modes.len() { format!("\n  ... ({} not described)", mech.count - mech.modes.len()) } else { String::new() };
+                let listing = if listed.is_empty() { String::new() } else { format!(":\n{}{more}", listed.join("\n")) };
+                out.push(format!(
+                    "the drawn geometry has {} independent mechanism(s) (the start tangent has {} zero eigenvalue(s)); `solve` stops at step 0 \
+                     unless the load or the path stiffens them; each needs a support, a member or prestress{listing}",
+                    mech.count,
+                    mech.count,
+                ));
+            }
+        }
+        Err(e) => out.push(format!("the mechanism search did not finish: {e}")),
+    }
+    out
+}
+
+/// Largest model `check` searches for mechanisms.
+const SCREEN_MAX_DOFS: usize = 300_000;
+
+/// One warning for members whose `force_density` `solve` does not use.
+fn force_density_warning(m: &Model) -> Option<String> {
+    let ignored = tautline::screen::ignored_force_densities(m);
+    let first = *ignored.first()?;
+    Some(format!(
+        "{} member(s) (first: {:?}) have a force density but no `prestress` or `rest_length`: `solve` ignores force densities \
+         (they are an input of `form`), so these members start unstressed in the drawn geometry; run `tautline form {} -o DIR` \
+         and solve DIR/formed.toml, or give them a `prestress`",
+        ignored.len(),
+        m.members[first].label,
+        m.files[0]
+    ))
 }
 
 /// What `check` reports about a model.
@@ -376,6 +514,14 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     let seconds = started.elapsed().as_secs_f64();
     let res = results::build(m, &system, &path, &tracer.wasted, seconds);
     let members = results::members(m, &system, &path);
+    // Warnings an engineer needs besides the numbers: force densities the
+    // run ignored, members over capacity, strains no steel takes.
+    let mut warnings: Vec<String> = force_density_warning(m).into_iter().collect();
+    if !res.steps.is_empty() {
+        let util: Vec<Option<f64>> = members.iter().map(|x| x.utilisation).collect();
+        let strain: Vec<f64> = members.iter().map(|x| x.strain).collect();
+        warnings.extend(tautline::screen::result_warnings(m, &util, &strain));
+    }
 
     let mut staged = report::Staged::default();
     let write = |staged: &mut report::Staged, name: &str, text: String| {
@@ -403,6 +549,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     // numbers above are written regardless.
     let (plots, mut plot_warnings) = report::figures::solve_plots(m, &system, &path, &res, &members, &figures);
     let mut drawn = Vec::new();
+    plot_warnings.splice(0..0, warnings);
     for p in plots {
         let name = p.file.clone().unwrap_or_else(|| "a report figure".into());
         match p.svg {
@@ -559,7 +706,7 @@ fn print_run_summary(m: &Model, r: &results::Results) {
 /// `verify`: the built-in textbook cases as a table (or JSON); exit 4 if any fails.
 fn verify(format: &str) -> Result<u8, Failure> {
     if format != "text" && format != "json" {
-        return Err(Failure::BadInput(format!("--format {format}: expected text or json")));
+        return Err(Failure::BadInput(bad_value("--format", format, &["text", "json"])));
     }
     let cases = tautline::verify::run_all();
     if format == "json" {
@@ -658,9 +805,7 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
     use tautline::model::{FormMethod, FormSettings};
     let mut m = load(model_path, Format::Text)?;
     if let Some(s) = method {
-        let chosen = FormMethod::parse(s).ok_or_else(|| {
-            Failure::BadInput(format!("--method {s}: expected one of {}", FormMethod::NAMES.join(", ")))
-        })?;
+        let chosen = FormMethod::parse(s).ok_or_else(|| Failure::BadInput(bad_value("--method", s, &FormMethod::NAMES)))?;
         if chosen != m.form.method && m.form.max_iterations == FormSettings::default_max_iterations(m.form.method) {
             m.form.max_iterations = FormSettings::default_max_iterations(chosen);
         }
