@@ -466,6 +466,11 @@ fn readme_shoring_prop_switches_at_its_closed_form_load() {
     let (k, l, ea) = (2.0e5, 3.0, 1.1e8);
     let p_cr = (k * l / 2.0) / (1.0 + k * l / (2.0 * ea));
     assert!(rel_err(s.lambda * 1.0e5, p_cr, 1.0) < 1e-7, "{} vs {p_cr}", s.lambda * 1.0e5);
+    // The bisection lands on a midpoint already in equilibrium whose tangent
+    // is singular: that is the critical state itself, so it is pinpointed
+    // (it used to stop there and report the bracket as not pinpointed).
+    let first = &run.path.critical[0];
+    assert!(first.pinpointed && first.bracket <= first.tolerance, "bracket {} tolerance {}", first.bracket, first.tolerance);
     let sway: Vec<f64> = run.path.points.iter().filter(|p| p.step >= s.step).map(|p| p.watched[0]).collect();
     assert!(sway[0] > 0.0 && sway.windows(2).all(|w| w[1] > w[0]) && *sway.last().unwrap() > 1.5, "{sway:?}");
 }

@@ -460,6 +460,18 @@ impl<'a> Tracer<'a> {
             ws.fresh = false;
             let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: half }, &self.corrector, 0, observer);
             add_records(&mut self.wasted, &rec);
+            if matches!(term, Termination::SingularTangent { .. }) && st.relative_residual <= self.corrector.tolerance {
+                // The state between the bracket's ends is already in
+                // equilibrium and its tangent is singular: exactly on the
+                // critical state (the corrector stops there before its
+                // first iteration).
+                bisections += 1;
+                ua.clone_from(&st.u);
+                ub.clone_from(&st.u);
+                la = st.lambda;
+                lb = st.lambda;
+                break;
+            }
             if term != Termination::Converged {
                 break;
             }
