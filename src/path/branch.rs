@@ -64,10 +64,10 @@
 
 use super::{dot, Critical, CriticalKind, PathPoint, StopReason, Tracer};
 use crate::assembly::System;
-use crate::linalg::Ldlt;
 use crate::model::{BranchSettings, Control, Model};
 use crate::observe::Observer;
-use crate::solve::{self, Constraint, CorrectorConfig, InverseTangent, State, Termination, Workspace};
+use crate::solver::Run;
+use crate::solve::{self, Constraint, State, Termination, Workspace};
 
 /// How many times the switch step is halved before the switch is given up.
 pub const SWITCH_HALVINGS: usize = 4;
@@ -78,7 +78,7 @@ pub const MAX_MODE_DOUBLINGS: usize = 20;
 /// Where the path left the primary branch.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Switched {
-    /// Index into `Path::critical` of the bifurcation left.
+    /// Index into `EquilibriumPath::critical` of the bifurcation left.
     pub at_critical: usize,
     /// Load factor of the bifurcation.
     pub lambda: f64,
@@ -398,15 +398,8 @@ pub fn seed(model: &Model, observer: &mut dyn Observer) -> Result<Option<(Model,
     let Some(imp) = model.analysis.branch.imperfection else { return Ok(None) };
     let mut perfect = model.clone();
     perfect.analysis.branch = BranchSettings::default();
-    let system = System::new(&perfect).map_err(|e| SeedError::Model(format!("member \"{}\": {}", e.member, e.message)))?;
-    let corrector = CorrectorConfig::from_analysis(&perfect.analysis);
-    let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| SeedError::Model(e.to_string()))?;
-    let h = InverseTangent::new(perfect.analysis.method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, perfect.n_nodes(), h);
-    let path = {
-        let mut tracer = Tracer::new(&system, &perfect, corrector);
-        tracer.run(&mut ws, observer)
-    };
+    let solver = crate::solver::Solver::new(&perfect).map_err(|e| SeedError::Model(e.to_string()))?;
+    let Run { system, path, .. } = solver.trace(observer);
     let Some(c) = path.critical.get(imp.mode - 1) else {
         return Err(SeedError::NotMet {
             requested: imp.mode,

@@ -17,7 +17,7 @@ pub mod modes;
 
 use crate::assembly::System;
 use crate::model::{Control, KeepFields, Model, NodeDir};
-use crate::observe::{Control as Answer, Observer, StepEvent};
+use crate::observe::{Answer, Observer, StepEvent};
 use crate::solve::{self, CorrectorConfig, FixedLoad, State, StepRecord, Termination, Workspace};
 use constraints::{Cylindrical, NormalPlane, PrescribedDisplacement};
 use fields::{Field, Keeper};
@@ -40,7 +40,7 @@ pub enum StopReason {
     /// The given geometry and its prestress have no equilibrium at the start
     /// load factor that the corrector could find ([`StartFailure`] says why).
     NoStartEquilibrium,
-    /// Stopped at a requested branch switch: see `Path::switch` (the mode
+    /// Stopped at a requested branch switch: see `EquilibriumPath::switch` (the mode
     /// asked for does not exist, no secondary state was found, or load
     /// control cannot follow a falling secondary branch).
     BranchSwitch,
@@ -101,14 +101,14 @@ pub struct Mechanism {
 
 /// The whole path.
 #[derive(Clone, Debug)]
-pub struct Path {
+pub struct EquilibriumPath {
     pub points: Vec<PathPoint>,
     pub stop: StopReason,
     /// Displacements at the last converged state, free DOFs, m.
     pub final_state: State,
     pub mechanism: Option<Mechanism>,
     /// What the last failed step was doing, for the stop message.
-    pub last_failure: Option<Failure>,
+    pub last_failure: Option<StepFailure>,
     pub n_cutbacks: usize,
     /// Critical points pinpointed along the path.
     pub critical: Vec<Critical>,
@@ -290,7 +290,7 @@ pub const MAX_BISECTIONS: usize = 60;
 
 /// A step that failed for good.
 #[derive(Clone, Debug)]
-pub struct Failure {
+pub struct StepFailure {
     pub step: usize,
     /// λ the step was trying to reach.
     pub lambda_tried: f64,
@@ -300,7 +300,7 @@ pub struct Failure {
     pub zero_pivot_dirs: Vec<NodeDir>,
 }
 
-impl Path {
+impl EquilibriumPath {
     pub fn totals(&self) -> (usize, usize, usize) {
         let mut t = (0, 0, 0);
         for p in &self.points {
@@ -839,7 +839,7 @@ impl<'a> Tracer<'a> {
     }
 
     /// Runs the analysis of the model's `[analysis]` table.
-    pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> Path {
+    pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> EquilibriumPath {
         let a = self.model.analysis.clone();
         let sys = self.system;
         let mut state = State::at_rest(sys, self.model.n_nodes());
@@ -858,7 +858,7 @@ impl<'a> Tracer<'a> {
             let p = self.make_point(&state, 0, rec0, 0);
             keeper.offer(0, state.lambda, &state.u, false);
             let (keep, fields) = keeper.finish(Some((0, state.lambda, &state.u)));
-            return Path {
+            return EquilibriumPath {
                 points: vec![p],
                 stop: StopReason::Mechanism,
                 final_state: state,
@@ -901,7 +901,7 @@ impl<'a> Tracer<'a> {
                 let start_failure = self.start_failure(&start_u, &state, termination);
                 add_records(&mut self.wasted, &rec0);
                 restore(&mut state, start_u, a.start_load_factor);
-                return Path {
+                return EquilibriumPath {
                     points: Vec::new(),
                     stop: StopReason::NoStartEquilibrium,
                     final_state: state,
@@ -1159,7 +1159,7 @@ impl<'a> Tracer<'a> {
                                     // A jump with no critical point on the
                                     // way, or a walk that failed: cut back.
                                     if !stepper.cut_back() {
-                                        last_failure = Some(Failure {
+                                        last_failure = Some(StepFailure {
                                             step,
                                             lambda_tried,
                                             termination: Termination::Jumped,
@@ -1308,7 +1308,7 @@ impl<'a> Tracer<'a> {
                         Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
                         _ => Vec::new(),
                     };
-                    let failure = Failure {
+                    let failure = StepFailure {
                         step,
                         lambda_tried: state.lambda,
                         termination: other.clone(),
@@ -1359,7 +1359,7 @@ impl<'a> Tracer<'a> {
         let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
         let (keep, fields) = keeper.finish(last);
         let switch = switcher.finish();
-        Path {
+        EquilibriumPath {
             points,
             stop,
             final_state: state,

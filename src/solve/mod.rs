@@ -29,7 +29,7 @@ pub use inverse::InverseTangent;
 
 use crate::assembly::System;
 use crate::model::Method;
-use crate::observe::{Control, IterEvent, Observer};
+use crate::observe::{Answer, IterEvent, Observer};
 
 /// When the tangent is refactored.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -781,7 +781,7 @@ pub fn drive(
             refactored: need_factor || escalate.is_some(),
             line_search_trials: trials,
         };
-        if observer.on_iteration(&ev) == Control::Stop {
+        if observer.on_iteration(&ev) == Answer::Stop {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Stopped, rec);
         }
