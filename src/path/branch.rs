@@ -324,7 +324,7 @@ impl Tracer<'_> {
             }
             state.u = due.u.iter().zip(&psi).map(|(u, p)| u + xi * p).collect();
             state.lambda = due.lambda;
-            ws.fresh = false;
+            ws.set_factor_fresh(false);
             let c = AlongMode { psi: &psi };
             let (term, rec) = solve::drive(sys, ws, &mut state, &due.u, due.lambda, &c, &self.corrector, step, observer);
             if term == Termination::Stopped {
@@ -351,7 +351,7 @@ impl Tracer<'_> {
                     let mut next = state.clone();
                     next.u = due.u.iter().zip(&state.u).map(|(c, u)| c + 2.0 * (u - c)).collect();
                     next.lambda = due.lambda + 2.0 * (state.lambda - due.lambda);
-                    ws.fresh = false;
+                    ws.set_factor_fresh(false);
                     let c = AlongMode { psi: &psi };
                     let (term, rec) = solve::drive(sys, ws, &mut next, &due.u, due.lambda, &c, &self.corrector, step, observer);
                     if term != Termination::Converged {
@@ -363,8 +363,8 @@ impl Tracer<'_> {
                     xi *= 2.0;
                 }
             }
-            let singular = solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
-            let neg = ws.h.inertia.negative;
+            let singular = ws.refactor_at(sys, &mut state, &mut record).is_some();
+            let neg = ws.negative_pivots();
             let mut point = self.make_point(&state, step, record, neg);
             point.pivots_checked = !singular;
             let increment: Vec<f64> = state.u.iter().zip(&due.u).map(|(a, b)| a - b).collect();

@@ -323,14 +323,13 @@ pub struct Tracer<'a> {
 
 /// The `m` modes of the tangent at (u, λ) nearest zero, from the true
 /// (sign-keeping) factorization: see [`modes::lowest_modes`]. The factor in
-/// the workspace is overwritten (`ws.fresh` is cleared).
+/// the workspace is overwritten (and marked not fresh).
 fn null_modes(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, m: usize) -> modes::LowModes {
     let mut k = system.new_tangent_values();
     let mut r = vec![0.0; system.n_free()];
     let mut react = vec![0.0; n_reactions];
     system.residual_and_tangent(u, lambda, &mut r, &mut react, &mut k);
-    ws.fresh = false;
-    modes::lowest_modes(system, &mut ws.h.ldlt, &k, m)
+    modes::lowest_modes(system, ws.overwrite_factor(), &k, m)
 }
 
 /// Node directions carrying at least half the largest component of a mode,
@@ -444,7 +443,7 @@ impl<'a> Tracer<'a> {
         let sys = self.system;
         let (ua, la, na) = a_state;
         let (mut ua, mut la) = (ua.to_vec(), la);
-        let (mut ub, mut lb, mut nb) = (b.u.clone(), b.lambda, ws.h.inertia.negative);
+        let (mut ub, mut lb, mut nb) = (b.u.clone(), b.lambda, ws.negative_pivots());
         let dist = |x: &[f64], y: &[f64]| x.iter().zip(y).map(|(p, q)| (p - q) * (p - q)).sum::<f64>().sqrt();
         let full = dist(&ua, &ub);
         let mut bisections = 0;
@@ -457,7 +456,7 @@ impl<'a> Tracer<'a> {
                 *u = 0.5 * (a + b);
             }
             st.lambda = 0.5 * (la + lb);
-            ws.fresh = false;
+            ws.set_factor_fresh(false);
             let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: half }, &self.corrector, 0, observer);
             add_records(&mut self.wasted, &rec);
             if matches!(term, Termination::SingularTangent { .. }) && st.relative_residual <= self.corrector.tolerance {
@@ -476,7 +475,7 @@ impl<'a> Tracer<'a> {
                 break;
             }
             let mut rec = StepRecord::default();
-            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            let singular = ws.refactor_at(sys, &mut st, &mut rec).is_some();
             add_records(&mut self.wasted, &rec);
             bisections += 1;
             if singular {
@@ -487,13 +486,13 @@ impl<'a> Tracer<'a> {
                 lb = st.lambda;
                 break;
             }
-            if ws.h.inertia.negative == na {
+            if ws.negative_pivots() == na {
                 ua.clone_from(&st.u);
                 la = st.lambda;
             } else {
                 ub.clone_from(&st.u);
                 lb = st.lambda;
-                nb = ws.h.inertia.negative;
+                nb = ws.negative_pivots();
             }
         }
         let bracket = dist(&ua, &ub);
@@ -559,7 +558,7 @@ impl<'a> Tracer<'a> {
         within: Option<(f64, f64)>,
         observer: &mut dyn Observer,
     ) -> (Vec<Critical>, bool) {
-        let end_count = ws.h.inertia.negative;
+        let end_count = ws.negative_pivots();
         let (mut from_u, mut from_l, mut from_n) = (a_state.0.to_vec(), a_state.1, a_state.2);
         let mut found = Vec::new();
         let mut rounds = 0;
@@ -579,7 +578,7 @@ impl<'a> Tracer<'a> {
                 }
             }
             let mut rec = StepRecord::default();
-            solve::refactor_at(self.system, ws, b, &mut rec);
+            ws.refactor_at(self.system, b, &mut rec);
             add_records(&mut self.wasted, &rec);
             if beyond {
                 return (found, true);
@@ -609,7 +608,7 @@ impl<'a> Tracer<'a> {
                 *u = 0.5 * (a + b);
             }
             st.lambda = 0.5 * (la + lb);
-            ws.fresh = false;
+            ws.set_factor_fresh(false);
             // λ is monotone through a displacement turning point (the tangent
             // is regular there), so the sub-step is a load-control one.
             let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &FixedLoad, &self.corrector, 0, observer);
@@ -618,7 +617,7 @@ impl<'a> Tracer<'a> {
                 break;
             }
             let mut rec = StepRecord::default();
-            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            let singular = ws.refactor_at(sys, &mut st, &mut rec).is_some();
             add_records(&mut self.wasted, &rec);
             if singular {
                 break;
@@ -671,7 +670,7 @@ impl<'a> Tracer<'a> {
         st.u.copy_from_slice(ua);
         st.lambda = la;
         let mut rec = StepRecord::default();
-        let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+        let singular = ws.refactor_at(sys, &mut st, &mut rec).is_some();
         add_records(&mut self.wasted, &rec);
         if singular {
             return None;
@@ -716,7 +715,7 @@ impl<'a> Tracer<'a> {
                     return None;
                 }
                 restore(&mut st, pu, pl);
-                solve::refactor_at(sys, ws, &mut st, &mut rec);
+                ws.refactor_at(sys, &mut st, &mut rec);
                 add_records(&mut self.wasted, &rec);
                 arc *= 0.5;
                 if arc < arc0 * 1e-4 {
@@ -724,12 +723,12 @@ impl<'a> Tracer<'a> {
                 }
                 continue;
             }
-            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
+            let singular = ws.refactor_at(sys, &mut st, &mut rec).is_some();
             add_records(&mut self.wasted, &rec);
             if singular {
                 return None;
             }
-            let now = ws.h.inertia.negative;
+            let now = ws.negative_pivots();
             // λ fell along the path: a limit point lies in this sub-step or
             // at its start (λ has its extremum there).
             let fell = (st.lambda - pl) * direction < 0.0;
@@ -774,7 +773,7 @@ impl<'a> Tracer<'a> {
             let target = if first { 0.0 } else { (mu + d_mu).min(1.0) };
             let partial = self.system.with_dead_factor(target);
             let start_u = state.u.clone();
-            ws.fresh = false;
+            ws.set_factor_fresh(false);
             let (term, rec) = solve::drive(&partial, ws, state, &start_u, state.lambda, &FixedLoad, &self.corrector, 0, observer);
             if term == Termination::Converged {
                 add_records(rec0, &rec);
@@ -853,7 +852,7 @@ impl<'a> Tracer<'a> {
         // Step 0: the initial state, with its inertia. A prestressed structure
         // may be out of balance here only if the model is; the residual says.
         let mut rec0 = StepRecord::default();
-        if solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some() {
+        if ws.refactor_at(sys, &mut state, &mut rec0).is_some() {
             let moving = find_mechanism(sys, ws, &state);
             let p = self.make_point(&state, 0, rec0, 0);
             keeper.offer(0, state.lambda, &state.u, false);
@@ -874,7 +873,7 @@ impl<'a> Tracer<'a> {
                 imperfection: None,
             };
         }
-        ws.fresh = true;
+        ws.set_factor_fresh(true);
         if state.relative_residual > self.corrector.tolerance {
             // The given geometry is not in balance with its prestress: find
             // the prestressed equilibrium at λ = 0 first.
@@ -889,7 +888,7 @@ impl<'a> Tracer<'a> {
                 term = self.step_in_dead_load(ws, &mut state, &mut rec0, observer);
             }
             let singular_dofs = if term == Termination::Converged {
-                solve::refactor_at(sys, ws, &mut state, &mut rec0)
+                ws.refactor_at(sys, &mut state, &mut rec0)
             } else {
                 None
             };
@@ -917,9 +916,9 @@ impl<'a> Tracer<'a> {
                     imperfection: None,
                 };
             }
-            ws.fresh = true;
+            ws.set_factor_fresh(true);
         }
-        let neg0 = ws.h.inertia.negative;
+        let neg0 = ws.negative_pivots();
         points.push(self.make_point(&state, 0, rec0, neg0));
         keeper.offer(0, state.lambda, &state.u, false);
 
@@ -937,7 +936,7 @@ impl<'a> Tracer<'a> {
         // The last state whose pivots were counted (u, λ, negative pivots),
         // kept only under `on-refactor`, where it may lie steps back.
         let mut counted_state: Option<(Vec<f64>, f64, usize)> =
-            (!a.stability_each_step).then(|| (state.u.clone(), state.lambda, ws.h.inertia.negative));
+            (!a.stability_each_step).then(|| (state.u.clone(), state.lambda, ws.negative_pivots()));
         // (K⁻¹f_ref) at the controlled DOF at the last converged state (NaN:
         // not known): du/ds there up to the sign of dλ/ds.
         let mut last_tangent_at_dof = match (a.control, stepper.control_dof) {
@@ -1093,9 +1092,9 @@ impl<'a> Tracer<'a> {
                     let check = a.stability_each_step
                         || a.method == crate::model::Method::Newton
                         || count_needed(counted_compliance, load_compliance(sys, ws), &counted_slack, &slack_now);
-                    let singular = check && solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
-                    let neg = ws.h.inertia.negative;
-                    ws.fresh = check && !singular;
+                    let singular = check && ws.refactor_at(sys, &mut state, &mut record).is_some();
+                    let neg = ws.negative_pivots();
+                    ws.set_factor_fresh(check && !singular);
                     let mut point = self.make_point_with(&state, step, record, neg, slack_now.clone());
                     point.pivots_checked = check;
                     let ev = StepEvent {
@@ -1150,9 +1149,9 @@ impl<'a> Tracer<'a> {
                                     add_records(&mut self.wasted, &point.record);
                                     restore(&mut state, start_u.clone(), start_lambda);
                                     let mut rec = StepRecord::default();
-                                    solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                    ws.refactor_at(sys, &mut state, &mut rec);
                                     add_records(&mut self.wasted, &rec);
-                                    ws.fresh = true;
+                                    ws.set_factor_fresh(true);
                                     if limit {
                                         break 'path StopReason::LimitPoint;
                                     }
@@ -1174,9 +1173,9 @@ impl<'a> Tracer<'a> {
                                 // Bifurcations only: B is on the path; back
                                 // to its factor.
                                 let mut rec = StepRecord::default();
-                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                ws.refactor_at(sys, &mut state, &mut rec);
                                 add_records(&mut self.wasted, &rec);
-                                ws.fresh = true;
+                                ws.set_factor_fresh(true);
                             }
                         }
                     }
@@ -1198,7 +1197,7 @@ impl<'a> Tracer<'a> {
                         let keep_field = keeper.keeps_critical();
                         let want = keep_field || switcher.wants_field();
                         let (points, _) = self.pinpoint_all(ws, (a_u, a_l, n_before), &mut state, want, None, observer);
-                        ws.fresh = true;
+                        ws.set_factor_fresh(true);
                         for mut c in points {
                             c.step = step;
                             // Branch switching (branch.rs) counts the bifurcations.
@@ -1222,9 +1221,9 @@ impl<'a> Tracer<'a> {
                         t.step = step;
                         turning.push(t);
                         let mut rec = StepRecord::default();
-                        solve::refactor_at(sys, ws, &mut state, &mut rec);
+                        ws.refactor_at(sys, &mut state, &mut rec);
                         add_records(&mut self.wasted, &rec);
-                        ws.fresh = true;
+                        ws.set_factor_fresh(true);
                     }
                     last_tangent_at_dof = tangent_at_dof;
                     let pivots_changed = before.is_some_and(|(n, _)| n != neg);
@@ -1270,13 +1269,13 @@ impl<'a> Tracer<'a> {
                         let Some((left, falls)) = self.leave_along_mode(ws, &mut switcher, xi, control_step, next, observer) else {
                             // Back to the factor of the last converged state.
                             let mut rec = StepRecord::default();
-                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            ws.refactor_at(sys, &mut state, &mut rec);
                             add_records(&mut self.wasted, &rec);
-                            ws.fresh = true;
+                            ws.set_factor_fresh(true);
                             break 'path StopReason::BranchSwitch;
                         };
                         state = left.state;
-                        ws.fresh = left.fresh;
+                        ws.set_factor_fresh(left.fresh);
                         keeper.offer(next, state.lambda, &state.u, false);
                         let ev = StepEvent {
                             step: next,
@@ -1318,9 +1317,9 @@ impl<'a> Tracer<'a> {
                     restore(&mut state, start_u, start_lambda);
                     // Back to the last converged state and its tangent.
                     let mut rec = StepRecord::default();
-                    let singular = solve::refactor_at(sys, ws, &mut state, &mut rec).is_some();
+                    let singular = ws.refactor_at(sys, &mut state, &mut rec).is_some();
                     add_records(&mut self.wasted, &rec);
-                    ws.fresh = !singular;
+                    ws.set_factor_fresh(!singular);
                     if singular || !stepper.cut_back() {
                         // Load control that cannot go on: is there a limit
                         // point between here and where it tried to go?
@@ -1339,13 +1338,13 @@ impl<'a> Tracer<'a> {
                                 }
                                 restore(&mut state, u0, l0);
                                 let mut rec = StepRecord::default();
-                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                ws.refactor_at(sys, &mut state, &mut rec);
                                 add_records(&mut self.wasted, &rec);
                                 break StopReason::LimitPoint;
                             }
                             restore(&mut state, u0, l0);
                             let mut rec = StepRecord::default();
-                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            ws.refactor_at(sys, &mut state, &mut rec);
                             add_records(&mut self.wasted, &rec);
                         }
                         last_failure = Some(failure);
@@ -1384,7 +1383,7 @@ impl<'a> Tracer<'a> {
 /// Holand & Søreide 1978, S_p = f·δu₁ / f·δuᵢ with δu = K⁻¹f): positive on a
 /// stable path, it passes through ±∞ at a limit point and changes sign there.
 fn load_compliance(sys: &System, ws: &mut Workspace) -> f64 {
-    if !ws.h.ldlt.is_factored() || sys.f_ref_norm() == 0.0 {
+    if !ws.is_factored() || sys.f_ref_norm() == 0.0 {
         return f64::NAN;
     }
     let du = tangent_direction(sys, ws);
@@ -1478,7 +1477,7 @@ fn load_predictor(sys: &System, ws: &mut Workspace, inc: f64, last_u: &[f64], la
 
 fn tangent_direction(sys: &System, ws: &mut Workspace) -> Vec<f64> {
     let mut du_f = sys.f_ref.clone();
-    ws.h.apply(&mut du_f);
+    ws.apply_inverse(&mut du_f);
     du_f
 }
 
