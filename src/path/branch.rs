@@ -2,7 +2,7 @@
 //! the geometry with a critical mode (imperfection).
 //!
 //! ## Branch switching: the mode-injection predictor
-//! At a bifurcation point C (u_c, λ_c), pinpointed by [`Tracer::pinpoint`],
+//! At a bifurcation point C (u_c, λ_c), pinpointed by `Tracer::pinpoint` (in `critical`),
 //! the tangent is singular and its null space holds, besides the primary
 //! path's direction, the secondary path's. The path leaves C along the
 //! bifurcation mode φ made orthogonal to the primary path's tangent t,

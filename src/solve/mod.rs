@@ -473,9 +473,9 @@ const QN_DIVERGENCE: f64 = 1e3;
 /// 1. an iteration *stalls* when ‖r_new‖ > `stall_ratio`·‖r_old‖; the
 ///    first stall refactors K at the current state (`StallRefactor`);
 /// 2. a later stall refactors again only if the residual has fallen by
-///    [`REFRESH_GAIN`] (a decade) since the previous stall-refactor;
+///    `REFRESH_GAIN` (a decade) since the previous stall-refactor;
 ///    otherwise, or when the quasi-Newton iterations *diverge* (residual
-///    [`QN_DIVERGENCE`] times the predictor's, or not finite), use up their
+///    `QN_DIVERGENCE` times the predictor's, or not finite), use up their
 ///    `max_iterations`, or the path constraint has no solution, the step
 ///    goes on with full Newton iterations (`NewtonFallback`, a fresh tangent
 ///    every iteration), from the current state or, if that is worse than
