@@ -749,10 +749,10 @@ impl<'a> Tracer<'a> {
                     if reached && !switcher.is_due() {
                         break 'path StopReason::TargetReached;
                     }
-                    if let (Some(max_d), Some(p)) = (a.max_displacement, a.point) {
-                        if self.displacement_of(&state.u, p).abs() >= max_d {
-                            break 'path StopReason::MaxDisplacement;
-                        }
+                    if let (Some(max_d), Some(p)) = (a.max_displacement, a.point)
+                        && self.displacement_of(&state.u, p).abs() >= max_d
+                    {
+                        break 'path StopReason::MaxDisplacement;
                     }
                     // ---- Branch switching (branch.rs): at the `switch_at`th
                     // bifurcation, leave the primary path along the mode.

@@ -147,8 +147,8 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     // Assembly and residual rates at the final state, where the members are
     // stretched as they are along the path.
     let u1 = &path.final_state.u;
-    let assembly_1 = assembly_time(&system, u1, m.n_nodes(), 1)?;
-    let assembly_2 = assembly_time(&system, u1, m.n_nodes(), 2)?;
+    let assembly_1 = assembly_time(system, u1, m.n_nodes(), 1)?;
+    let assembly_2 = assembly_time(system, u1, m.n_nodes(), 2)?;
     let residual_s = mean_time(|| {
         system.residual(u1, 1.0, &mut r, &mut react);
     });
@@ -176,7 +176,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         path.fields.len() * m.n_nodes(),
         kept.join(","),
         system.slack_members(&path.final_state.u).len(),
-        results::slack_events(&m, &path).len(),
+        results::slack_events(&m, path).len(),
     );
     Ok(0)
 }

@@ -85,15 +85,14 @@ fn previous_model(out: &Path) -> Option<String> {
 }
 
 pub fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, force: bool) -> Result<(), Failure> {
-    if !force {
-        if let Some(prev) = previous_model(out) {
-            if prev != this_model {
-                return Err(Failure::BadInput(format!(
-                    "{}: holds the results of another model ({prev}); choose another -o DIR or pass --force to overwrite them",
-                    out.display()
-                )));
-            }
-        }
+    if !force
+        && let Some(prev) = previous_model(out)
+        && prev != this_model
+    {
+        return Err(Failure::BadInput(format!(
+            "{}: holds the results of another model ({prev}); choose another -o DIR or pass --force to overwrite them",
+            out.display()
+        )));
     }
     if out.exists() && !out.is_dir() {
         return Err(Failure::BadInput(format!(
@@ -101,10 +100,10 @@ pub fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, 
             out.display()
         )));
     }
-    if let Some(mp) = model_path {
-        if mp.canonicalize().ok() == out.canonicalize().ok() {
-            return Err(Failure::BadInput("the output folder may not be the model file".into()));
-        }
+    if let Some(mp) = model_path
+        && mp.canonicalize().ok() == out.canonicalize().ok()
+    {
+        return Err(Failure::BadInput("the output folder may not be the model file".into()));
     }
     std::fs::create_dir_all(out).map_err(|e| {
         Failure::BadInput(format!("{}: cannot create the output folder: {e}", out.display()))
