@@ -1,11 +1,13 @@
 //! The library's entry point: one model in, one traced equilibrium path out.
 //!
-//! Every caller (the binary's `solve` and `bench`, `verify`, the branch
-//! seeding, the tests and the fuzz target) used to repeat the same set-up:
-//! assemble the [`System`], analyse the pattern of its tangent once
-//! ([`Ldlt`]), wrap the factor in the corrector's inverse tangent, size a
-//! [`Workspace`] and run a [`Tracer`]. [`Solver`] holds that set-up in one
-//! place so the order of its pieces cannot drift between callers.
+//! Every caller (the binary's `solve` and `bench`, `verify`, the tests and
+//! the fuzz target) used to repeat the same set-up: assemble the [`System`],
+//! analyse the pattern of its tangent once ([`Ldlt`]), wrap the factor in the
+//! corrector's inverse tangent, size a [`crate::solve::Workspace`] and run a
+//! [`crate::path::Tracer`]. [`Solver`] holds that set-up in one place (the
+//! last three steps are [`crate::path::trace_whole`], which branch seeding
+//! inside `path` calls directly) so the order of its pieces cannot drift
+//! between callers.
 
 use std::time::Instant;
 
@@ -13,8 +15,8 @@ use crate::assembly::{BuildError, System};
 use crate::linalg::{Ldlt, LinalgError};
 use crate::model::Model;
 use crate::observe::Observer;
-use crate::path::{EquilibriumPath, Tracer};
-use crate::solve::{CorrectorConfig, InverseTangent, StepRecord, Workspace};
+use crate::path::EquilibriumPath;
+use crate::solve::{CorrectorConfig, StepRecord};
 
 /// Why a model could not be set up for tracing.
 #[derive(Debug, Clone, PartialEq)]
@@ -109,13 +111,7 @@ impl<'m> Solver<'m> {
     /// step and may stop the run, which keeps what it found.
     pub fn trace(self, observer: &mut dyn Observer) -> Run {
         let Solver { model, system, ldlt, corrector, .. } = self;
-        let h = InverseTangent::new(model.analysis.method, ldlt, corrector.refactor.max_updates);
-        let mut ws = Workspace::new(&system, model.n_nodes(), h);
-        let (path, wasted) = {
-            let mut tracer = Tracer::new(&system, model, corrector);
-            let path = tracer.run(&mut ws, observer);
-            (path, tracer.wasted)
-        };
+        let (path, wasted) = crate::path::trace_whole(&system, model, ldlt, corrector, observer);
         Run { system, path, wasted }
     }
 }

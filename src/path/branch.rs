@@ -66,8 +66,8 @@ use super::{dot, Critical, CriticalKind, PathPoint, StopReason, Tracer};
 use crate::assembly::System;
 use crate::model::{BranchSettings, Control, Model};
 use crate::observe::Observer;
-use crate::solver::Run;
-use crate::solve::{self, Constraint, State, Termination, Workspace};
+use crate::linalg::Ldlt;
+use crate::solve::{self, Constraint, CorrectorConfig, State, Termination, Workspace};
 
 /// How many times the switch step is halved before the switch is given up.
 pub const SWITCH_HALVINGS: usize = 4;
@@ -398,8 +398,12 @@ pub fn seed(model: &Model, observer: &mut dyn Observer) -> Result<Option<(Model,
     let Some(imp) = model.analysis.branch.imperfection else { return Ok(None) };
     let mut perfect = model.clone();
     perfect.analysis.branch = BranchSettings::default();
-    let solver = crate::solver::Solver::new(&perfect).map_err(|e| SeedError::Model(e.to_string()))?;
-    let Run { system, path, .. } = solver.trace(observer);
+    // Not through `crate::Solver`, which sits above `path`: the same steps
+    // with the tracer's own `trace_whole`.
+    let system = System::new(&perfect).map_err(|e| SeedError::Model(format!("member \"{}\": {}", e.member, e.message)))?;
+    let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| SeedError::Model(e.to_string()))?;
+    let corrector = CorrectorConfig::from_analysis(&perfect.analysis);
+    let (path, _) = super::trace_whole(&system, &perfect, ldlt, corrector, observer);
     let Some(c) = path.critical.get(imp.mode - 1) else {
         return Err(SeedError::NotMet {
             requested: imp.mode,

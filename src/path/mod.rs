@@ -181,6 +181,24 @@ impl EquilibriumPath {
     }
 }
 
+/// Traces `model` on its assembled `system` with the symbolic factor `ldlt`
+/// of its tangent: the one place where a whole run's inverse tangent,
+/// workspace and tracer are made ([`crate::Solver::trace`] and branch
+/// seeding call it). Returns the path and the work of cut-back attempts.
+pub fn trace_whole(
+    system: &System,
+    model: &Model,
+    ldlt: crate::linalg::Ldlt,
+    corrector: CorrectorConfig,
+    observer: &mut dyn Observer,
+) -> (EquilibriumPath, StepRecord) {
+    let h = solve::InverseTangent::new(model.analysis.method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(system, model.n_nodes(), h);
+    let mut tracer = Tracer::new(system, model, corrector);
+    let path = tracer.run(&mut ws, observer);
+    (path, tracer.wasted)
+}
+
 /// Follows the path of one model.
 pub struct Tracer<'a> {
     pub system: &'a System,
