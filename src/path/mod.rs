@@ -15,6 +15,8 @@ pub mod constraints;
 pub mod critical;
 pub mod fields;
 pub mod modes;
+mod start;
+mod stepper;
 
 use crate::assembly::System;
 use crate::model::{Control, KeepFields, Model, NodeDir};
@@ -22,6 +24,9 @@ use crate::observe::{Answer, Observer, StepEvent};
 use crate::solve::{self, CorrectorConfig, FixedLoad, State, StepRecord, Termination, Workspace};
 use constraints::{Cylindrical, NormalPlane, PrescribedDisplacement};
 use fields::{Field, Keeper};
+pub use start::{StartFailure, LOST_PRESTRESS};
+use stepper::{load_predictor, tangent_direction, Stepper};
+pub use stepper::DESIRED_ITERATIONS;
 pub use critical::{
     find_mechanism, Critical, CriticalKind, Turning, BIFURCATION_ALIGNMENT, BISECTION_TARGET, COINCIDENT, MAX_BISECTIONS,
     MAX_POINTS_PER_STEP, PINPOINT_TOLERANCE,
@@ -132,30 +137,6 @@ pub struct EquilibriumPath {
     /// [`branch::seed`]).
     pub imperfection: Option<branch::Seed>,
 }
-
-/// The prestressed start could not be brought into balance: what the
-/// corrector met, which members lost the tension they were given and where
-/// the given geometry is most out of balance.
-#[derive(Clone, Debug)]
-pub struct StartFailure {
-    pub termination: Termination,
-    /// Relative residual of the given geometry (before any correction).
-    pub given_residual: f64,
-    /// Members in tension in the given geometry that are slack, or keep less
-    /// than [`LOST_PRESTRESS`] of that tension, at the last state the
-    /// corrector reached (or at the singular state it converged to), by
-    /// index, ascending: the prestress they cannot hold.
-    pub lost_prestress: Vec<u32>,
-    /// Nodes with the largest out-of-balance force in the given geometry,
-    /// largest first (node index, force in N), at most five.
-    pub out_of_balance: Vec<(usize, f64)>,
-    /// Node directions free to move at the last state, when its tangent was singular.
-    pub free_dirs: Vec<NodeDir>,
-}
-
-/// A member that keeps less than this share of its given tension at a failed
-/// start has lost its prestress (a cable run back to its rest length).
-pub const LOST_PRESTRESS: f64 = 1e-6;
 
 /// A step that failed for good.
 #[derive(Clone, Debug)]
@@ -271,85 +252,6 @@ impl<'a> Tracer<'a> {
         if term == Termination::Converged {
             *state = trial;
         }
-    }
-
-    /// Finds the equilibrium under the full dead load (self-weight) at the
-    /// start load factor by stepping its share μ from 0 to 1, each step a
-    /// load-control corrector from the last converged state, halved on
-    /// failure (at most `DEAD_LOAD_HALVINGS` times in a row) and grown by
-    /// half after a success. The state at μ = 0 is solved first when it is
-    /// out of balance (prestress). Ends on the real system, μ = 1.
-    fn step_in_dead_load(&mut self, ws: &mut Workspace, state: &mut State, rec0: &mut StepRecord, observer: &mut dyn Observer) -> Termination {
-        let mut mu = 0.0f64;
-        let mut d_mu = 0.25f64;
-        let mut halvings = 0;
-        let mut first = true;
-        for _ in 0..DEAD_LOAD_MAX_STEPS {
-            let target = if first { 0.0 } else { (mu + d_mu).min(1.0) };
-            let partial = self.system.with_dead_factor(target);
-            let start_u = state.u.clone();
-            ws.set_factor_fresh(false);
-            let (term, rec) = solve::drive(&partial, ws, state, &start_u, state.lambda, &FixedLoad, &self.corrector, 0, observer);
-            if term == Termination::Converged {
-                add_records(rec0, &rec);
-                let was_first = std::mem::replace(&mut first, false);
-                mu = target;
-                halvings = 0;
-                if mu >= 1.0 {
-                    return Termination::Converged;
-                }
-                if !was_first {
-                    d_mu *= 1.5;
-                }
-                d_mu = d_mu.min(1.0 - mu);
-            } else {
-                add_records(&mut self.wasted, &rec);
-                let lambda = state.lambda;
-                restore(state, start_u, lambda);
-                if term == Termination::Stopped || first {
-                    return term;
-                }
-                halvings += 1;
-                if halvings > DEAD_LOAD_HALVINGS {
-                    return term;
-                }
-                d_mu *= 0.5;
-            }
-        }
-        Termination::MaxIterations
-    }
-
-    /// What is known when the start has no equilibrium: the given
-    /// geometry's imbalance (at `given_u`, the start displacements), the
-    /// members in tension there that are slack at `reached` (the last state
-    /// the corrector reached), and the free directions of a singular end.
-    fn start_failure(&self, given_u: &[f64], reached: &State, termination: Termination) -> StartFailure {
-        let sys = self.system;
-        let mut r = vec![0.0; sys.n_free()];
-        let mut react = vec![0.0; reached.reactions.len()];
-        let norms = sys.residual(given_u, reached.lambda, &mut r, &mut react);
-        let mut per_node = vec![0.0f64; self.model.n_nodes()];
-        for (d, v) in r.iter().enumerate() {
-            per_node[sys.dofs.owner(d).node] += v * v;
-        }
-        let mut out_of_balance: Vec<(usize, f64)> =
-            per_node.iter().enumerate().filter(|(_, f)| **f > 0.0).map(|(n, f)| (n, f.sqrt())).collect();
-        out_of_balance.sort_by(|a, b| b.1.total_cmp(&a.1));
-        out_of_balance.truncate(5);
-        let given = sys.member_results(given_u);
-        let now = sys.member_results(&reached.u);
-        let lost_prestress = given
-            .iter()
-            .zip(&now)
-            .enumerate()
-            .filter(|(_, (g, n))| g.force > 0.0 && (n.slack || n.force <= LOST_PRESTRESS * g.force))
-            .map(|(m, _)| m as u32)
-            .collect();
-        let free_dirs = match &termination {
-            Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
-            _ => Vec::new(),
-        };
-        StartFailure { termination, given_residual: sys.relative_residual(norms), lost_prestress, out_of_balance, free_dirs }
     }
 
     /// Runs the analysis of the model's `[analysis]` table.
@@ -953,10 +855,6 @@ pub const SECANT_RATIO: f64 = 1.5;
 /// Arc-length steps allowed when re-walking one load step.
 const PROBE_MAX_STEPS: usize = 400;
 
-/// Steps and successive halvings allowed while stepping in the dead load.
-const DEAD_LOAD_MAX_STEPS: usize = 400;
-const DEAD_LOAD_HALVINGS: usize = 12;
-
 /// A load-control step whose displacement increment exceeds this multiple of
 /// the previous one (scaled by the load increments) is taken as a jump to a
 /// distant branch and cut back.
@@ -968,137 +866,6 @@ fn dot_dist(a: &[f64], b: &[f64]) -> f64 {
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
-
-/// δu_f = K⁻¹·f_ref with the current factor: the tangent direction of the path.
-/// The displacement increment expected for a load increment `inc` under load
-/// control. From the second step on: the last converged increment scaled by
-/// the ratio of the load increments, a secant (first-order extrapolation)
-/// predictor that costs nothing; its error is of the order of the path's
-/// curvature times the step squared, where keeping the last state (no
-/// predictor) errs by the whole increment. On the first step: the tangent
-/// solution K⁻¹·f_ref·inc with the factor of the start state, one solve.
-/// Either way only the corrector's starting point changes, not the state it
-/// converges to.
-fn load_predictor(sys: &System, ws: &mut Workspace, inc: f64, last_u: &[f64], last_lambda: f64) -> Vec<f64> {
-    if last_u.is_empty() || last_lambda == 0.0 {
-        let mut du = tangent_direction(sys, ws);
-        du.iter_mut().for_each(|d| *d *= inc);
-        return du;
-    }
-    let ratio = inc / last_lambda;
-    last_u.iter().map(|d| ratio * d).collect()
-}
-
-fn tangent_direction(sys: &System, ws: &mut Workspace) -> Vec<f64> {
-    let mut du_f = sys.f_ref.clone();
-    ws.apply_inverse(&mut du_f);
-    du_f
-}
-
-/// Iterations a step should take; the next step length is scaled by the
-/// square root of desired over actual (Crisfield 1981), within bounds.
-pub const DESIRED_ITERATIONS: f64 = 4.0;
-
-/// The size of the next step (a load increment, a displacement increment or
-/// an arc length) and its adaptation.
-struct Stepper {
-    /// Current step size.
-    size: f64,
-    /// Smallest size allowed: the nominal size halved `max_cutbacks` times.
-    min_size: f64,
-    /// Largest size allowed.
-    max_size: f64,
-    adaptive: bool,
-    successes_since_cut: usize,
-    nominal: f64,
-    control_dof: Option<usize>,
-    normal_plane: bool,
-    /// Arc-length: the tangent displacement of the whole way from the start
-    /// to the target, ‖K⁻¹f‖·|target − λ₀| (infinite otherwise). A first
-    /// step longer than that overshoots the target in the predictor and can
-    /// hand the corrector a cylinder that meets the path only behind the
-    /// start (a stiff start with a soft reverse branch, such as stays that
-    /// go slack under uplift); it is retried at this length.
-    first_cap: f64,
-    /// No step has converged yet.
-    on_first: bool,
-    /// The factor of the smallest step, 2^−max_cutbacks.
-    cut: f64,
-}
-
-impl Stepper {
-    fn new(a: &crate::model::Analysis, sys: &System, ws: &mut Workspace) -> Stepper {
-        let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
-        let mut first_cap = f64::INFINITY;
-        let nominal = match a.control {
-            Control::Load => (a.target - a.start_load_factor) / a.steps.max(1) as f64,
-            Control::Displacement => a.target / a.steps.max(1) as f64,
-            Control::ArcLength => {
-                // No arc given: the displacement of the first load increment
-                // along the tangent. The cap of a failed first step: see
-                // `first_cap`.
-                let du_f = tangent_direction(sys, ws);
-                let tangent = dot(&du_f, &du_f).sqrt();
-                first_cap = (a.target - a.start_load_factor).abs() * tangent;
-                a.arc.unwrap_or((a.target / a.steps.max(1) as f64).abs() * tangent)
-            }
-        };
-        let cut = 0.5f64.powi(a.max_cutbacks as i32);
-        Stepper {
-            size: nominal,
-            first_cap: if first_cap > 0.0 && first_cap.is_finite() { first_cap } else { f64::INFINITY },
-            on_first: true,
-            cut,
-            min_size: nominal.abs() * cut * (1.0 - 1e-12),
-            max_size: if a.control == Control::ArcLength { 2.0 * nominal.abs() } else { nominal.abs() },
-            adaptive: a.control == Control::ArcLength,
-            successes_since_cut: 0,
-            nominal,
-            control_dof,
-            normal_plane: a.arc_variant_normal_plane,
-        }
-    }
-
-    /// The next increment, shortened so as not to step past the target when
-    /// `remaining` is left to go.
-    fn towards(&self, remaining: f64) -> f64 {
-        if self.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { self.size }
-    }
-
-    /// Halves the step; false when it would fall below the smallest size.
-    /// A first arc-length step that failed (or converged behind the start)
-    /// and is longer than the tangent displacement of the whole way to the
-    /// target is retried at that length instead, and may be halved from
-    /// there as often as any step.
-    fn cut_back(&mut self) -> bool {
-        self.successes_since_cut = 0;
-        if self.on_first && 0.5 * self.size.abs() > self.first_cap {
-            self.size = self.first_cap * self.size.signum();
-            self.min_size = self.min_size.min(self.first_cap * self.cut * (1.0 - 1e-12));
-            return true;
-        }
-        let next = 0.5 * self.size;
-        if next.abs() < self.min_size {
-            return false;
-        }
-        self.size = next;
-        true
-    }
-
-    fn converged(&mut self, iterations: usize) {
-        self.on_first = false;
-        self.successes_since_cut += 1;
-        if self.adaptive {
-            let ratio = (DESIRED_ITERATIONS / iterations.max(1) as f64).sqrt().clamp(0.5, 2.0);
-            let next = (self.size * ratio).abs().clamp(self.min_size, self.max_size);
-            self.size = next * self.size.signum();
-        } else if self.successes_since_cut >= 2 && self.size.abs() < self.nominal.abs() {
-            // Regrow a halved step after two good steps.
-            self.size = (2.0 * self.size).abs().min(self.nominal.abs()) * self.nominal.signum();
-            self.successes_since_cut = 0;
-        }
-    }
 }
 
 fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {
