@@ -1,10 +1,10 @@
 //! Typed events from the solver and the path tracer. The library never
 //! prints: a terminal progress display, a recorder or a Ctrl-C flag are
-//! observers, and any of them may answer [`Control::Stop`].
+//! observers, and any of them may answer [`Answer::Stop`].
 
 /// An observer's answer.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Control {
+pub enum Answer {
     Continue,
     Stop,
 }
@@ -33,11 +33,11 @@ pub struct StepEvent {
 }
 
 pub trait Observer {
-    fn on_iteration(&mut self, _ev: &IterEvent) -> Control {
-        Control::Continue
+    fn on_iteration(&mut self, _ev: &IterEvent) -> Answer {
+        Answer::Continue
     }
-    fn on_step(&mut self, _ev: &StepEvent) -> Control {
-        Control::Continue
+    fn on_step(&mut self, _ev: &StepEvent) -> Answer {
+        Answer::Continue
     }
 }
 

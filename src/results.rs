@@ -1,11 +1,11 @@
 //! Plain, serializable results, in the model's units: the only `Serialize`
-//! outputs of the library. Built from a [`Path`], the [`Model`] and its
+//! outputs of the library. Built from an [`EquilibriumPath`], the [`Model`] and its
 //! [`System`]; writers in `report` read nothing else.
 
 use crate::assembly::System;
 use crate::model::Model;
 use crate::path::branch::SwitchOutcome;
-use crate::path::{Path, StopReason};
+use crate::path::{EquilibriumPath, StopReason};
 use crate::solve::Termination;
 use serde::Serialize;
 
@@ -126,7 +126,7 @@ pub const CRITICAL_FIELDS_FILE: &str = "critical_fields.csv";
 pub const CRITICAL_MODES_FILE: &str = "critical_modes.csv";
 
 /// What the field files of `path` hold.
-pub fn fields_out(model: &Model, path: &Path) -> FieldsOut {
+pub fn fields_out(model: &Model, path: &EquilibriumPath) -> FieldsOut {
     let critical: Vec<usize> =
         path.critical.iter().enumerate().filter(|(_, c)| c.field.is_some()).map(|(i, _)| i).collect();
     FieldsOut {
@@ -306,7 +306,7 @@ pub struct SlackEvent {
 /// The slack episodes of every member along the path: each starts at the
 /// first converged step where the member is slack and ends at the next one
 /// where it is not.
-pub fn slack_events(model: &Model, path: &Path) -> Vec<SlackEvent> {
+pub fn slack_events(model: &Model, path: &EquilibriumPath) -> Vec<SlackEvent> {
     let mut open: Vec<Option<usize>> = vec![None; model.n_members()];
     let mut events: Vec<SlackEvent> = Vec::new();
     let mut before: &[u32] = &[];
@@ -378,7 +378,7 @@ fn norm3(v: [f64; 3]) -> f64 {
 /// Whether a path that stopped short is moving away from its target: its
 /// last load factor is farther from the target than an earlier converged
 /// step was (and than its start). Returns that closest step and load factor.
-pub fn moving_away(model: &Model, path: &Path) -> Option<(usize, f64)> {
+pub fn moving_away(model: &Model, path: &EquilibriumPath) -> Option<(usize, f64)> {
     let target = model.analysis.target;
     if model.analysis.control == crate::model::Control::Displacement {
         return None;
@@ -392,7 +392,7 @@ pub fn moving_away(model: &Model, path: &Path) -> Option<(usize, f64)> {
 }
 
 /// Describes why the path stopped, in words an engineer can act on.
-pub fn stop_message(model: &Model, path: &Path) -> String {
+pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
     let units = &model.units;
     let last = path.points.last().map_or(0.0, |p| p.lambda);
     match path.stop {
@@ -533,7 +533,7 @@ pub fn stop_message(model: &Model, path: &Path) -> String {
 /// Why the prestressed start has no equilibrium, in the model's words:
 /// the members that cannot hold their tension, what is then free to move,
 /// where the given geometry is out of balance, and what to do.
-fn start_failure_message(model: &Model, path: &Path) -> String {
+fn start_failure_message(model: &Model, path: &EquilibriumPath) -> String {
     let lambda = model.analysis.start_load_factor;
     let Some(f) = &path.start_failure else {
         return format!("no equilibrium was found at the start load factor {lambda:.6}");
@@ -587,7 +587,7 @@ fn start_failure_message(model: &Model, path: &Path) -> String {
 /// between converged steps: a limit point when the load factor turns back
 /// (or the count changes where λ has an extremum), a bifurcation when the
 /// count changes while λ keeps rising.
-pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
+pub fn critical_points(path: &EquilibriumPath) -> Vec<CriticalPoint> {
     let pts = &path.points;
     let mut out = Vec::new();
     for k in 1..pts.len() {
@@ -623,7 +623,7 @@ pub fn critical_points(path: &Path) -> Vec<CriticalPoint> {
 }
 
 /// `wasted` is the work of attempts that were cut back; it is added to the totals.
-pub fn build(model: &Model, system: &System, path: &Path, wasted: &crate::solve::StepRecord, seconds: f64) -> Results {
+pub fn build(model: &Model, system: &System, path: &EquilibriumPath, wasted: &crate::solve::StepRecord, seconds: f64) -> Results {
     let units = model.units;
     let a = &model.analysis;
     let len = |v: f64| units.length_out(v);
@@ -856,7 +856,7 @@ fn kind_name(k: crate::path::CriticalKind) -> &'static str {
 }
 
 /// A requested switch that was not made, in words.
-pub fn switch_not_made(path: &Path) -> Option<SwitchNotMadeOut> {
+pub fn switch_not_made(path: &EquilibriumPath) -> Option<SwitchNotMadeOut> {
     let bifurcations = |upto: usize| {
         path.critical.iter().take(upto).filter(|c| c.kind == crate::path::CriticalKind::Bifurcation).count()
     };
@@ -899,7 +899,7 @@ pub fn switch_not_made(path: &Path) -> Option<SwitchNotMadeOut> {
 }
 
 /// Final member states, model units.
-pub fn members(model: &Model, system: &System, path: &Path) -> Vec<MemberOut> {
+pub fn members(model: &Model, system: &System, path: &EquilibriumPath) -> Vec<MemberOut> {
     let units = model.units;
     system
         .member_results(&path.final_state.u)

@@ -8,11 +8,10 @@
 //! the same formulas.
 
 use crate::assembly::System;
-use crate::linalg::Ldlt;
 use crate::model::{self, Model};
 use crate::observe::Silent;
-use crate::path::{CriticalKind, Path, StopReason, Tracer};
-use crate::solve::{CorrectorConfig, InverseTangent, Workspace};
+use crate::path::{CriticalKind, EquilibriumPath, StopReason};
+use crate::solver::Solver;
 use serde::Serialize;
 
 /// One checked quantity.
@@ -194,21 +193,16 @@ fn load(text: &str, name: &str) -> Result<Model, String> {
 }
 
 /// Traces a model's path with its own corrector, observing nothing.
-fn trace(m: &Model) -> Result<Path, String> {
-    let system = System::new(m).map_err(|e| format!("member {}: {}", e.member, e.message))?;
-    let corrector = CorrectorConfig::from_analysis(&m.analysis);
-    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).map_err(|e| e.to_string())?;
-    let h = InverseTangent::new(m.analysis.method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, m.n_nodes(), h);
-    let mut tracer = Tracer::new(&system, m, corrector);
-    Ok(tracer.run(&mut ws, &mut Silent))
+fn trace(m: &Model) -> Result<EquilibriumPath, String> {
+    let solver = Solver::with_parallelism(m, faer::Par::Seq).map_err(|e| e.to_string())?;
+    Ok(solver.trace(&mut Silent).path)
 }
 
-fn reached(path: &Path) -> Result<(), String> {
+fn reached(path: &EquilibriumPath) -> Result<(), String> {
     if path.stop == StopReason::TargetReached { Ok(()) } else { Err(format!("run stopped: {:?}", path.stop)) }
 }
 
-fn first_limit(path: &Path) -> Result<f64, String> {
+fn first_limit(path: &EquilibriumPath) -> Result<f64, String> {
     path.critical
         .iter()
         .find(|c| c.kind == CriticalKind::Limit)
@@ -821,7 +815,7 @@ fn steep_arc(legs: usize) -> String {
     steep_crown(legs, "arc-length", 1.0e9, 10, "arc = 0.05\nmax_steps = 400\nmax_displacement = 2.5")
 }
 
-fn nth_critical(path: &Path, kind: CriticalKind, nth: usize, multiplicity: usize) -> Result<f64, String> {
+fn nth_critical(path: &EquilibriumPath, kind: CriticalKind, nth: usize, multiplicity: usize) -> Result<f64, String> {
     let c = path.critical.iter().filter(|c| c.kind == kind).nth(nth).ok_or_else(|| format!("no {kind:?} number {} found", nth + 1))?;
     if !c.pinpointed || !c.mode_converged || c.multiplicity != multiplicity {
         return Err(format!(
@@ -832,7 +826,7 @@ fn nth_critical(path: &Path, kind: CriticalKind, nth: usize, multiplicity: usize
     Ok(c.lambda * STEEP_LOAD / 1.0e3)
 }
 
-fn ends_at_max_displacement(path: &Path) -> Result<(), String> {
+fn ends_at_max_displacement(path: &EquilibriumPath) -> Result<(), String> {
     if path.stop == StopReason::MaxDisplacement { Ok(()) } else { Err(format!("run stopped: {:?}", path.stop)) }
 }
 

@@ -213,20 +213,11 @@ fn hard_net(steps: usize) -> tautline::model::Model {
 
 /// Traces with a corrector configuration changed by `edit`.
 fn trace_with(m: tautline::model::Model, method: Method, edit: impl Fn(&mut tautline::solve::CorrectorConfig)) -> Run {
-    use tautline::assembly::System;
-    use tautline::path::Tracer;
-    use tautline::solve::{CorrectorConfig, Workspace};
     let mut m = m;
     m.analysis.method = method;
-    let system = System::new(&m).expect("system builds");
-    let mut corrector = CorrectorConfig::from_analysis(&m.analysis);
-    edit(&mut corrector);
-    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).expect("symbolic analysis");
-    let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, m.n_nodes(), h);
-    let mut tracer = Tracer::new(&system, &m, corrector);
-    let path = tracer.run(&mut ws, &mut tautline::observe::Silent);
-    let wasted = tracer.wasted.clone();
+    let mut solver = tautline::Solver::with_parallelism(&m, faer::Par::Seq).expect("model sets up");
+    edit(solver.corrector_mut());
+    let tautline::Run { system, path, wasted } = solver.trace(&mut tautline::observe::Silent);
     Run { model: m, system, path, wasted }
 }
 

@@ -8,8 +8,6 @@ use libfuzzer_sys::fuzz_target;
 use tautline::assembly::System;
 use tautline::linalg::Ldlt;
 use tautline::observe::Silent;
-use tautline::path::Tracer;
-use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
 
 mod split;
 
@@ -44,13 +42,9 @@ fuzz_target!(|data: &[u8]| {
     a.max_steps = a.max_steps.min(4);
     a.max_iterations = a.max_iterations.min(12);
     a.max_cutbacks = a.max_cutbacks.min(3);
-    let corrector = CorrectorConfig::from_analysis(&m.analysis);
-    let Ok(ldlt) = Ldlt::new(&system.pattern, faer::Par::Seq) else { return };
-    let h = InverseTangent::new(m.analysis.method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, m.n_nodes(), h);
-    let mut tracer = Tracer::new(&system, &m, corrector);
-    let path = tracer.run(&mut ws, &mut Silent);
-    let res = tautline::results::build(&m, &system, &path, &tracer.wasted, 0.0);
+    let Ok(solver) = tautline::Solver::with_parallelism(&m, faer::Par::Seq) else { return };
+    let run = solver.trace(&mut Silent);
+    let res = tautline::results::build(&m, &run.system, &run.path, &run.wasted, 0.0);
     let _ = tautline::report::results_json(&res);
     let _ = tautline::report::path_csv(&res);
 });

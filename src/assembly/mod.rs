@@ -10,4 +10,4 @@ pub mod system;
 
 pub use dofs::DofMap;
 pub use pattern::Pattern;
-pub use system::{MemberResult, System, SystemMemory};
+pub use system::{BuildError, MemberResult, System, SystemMemory};

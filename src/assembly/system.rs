@@ -611,11 +611,8 @@ impl System {
 mod tests {
     use super::*;
     use crate::generate::{DomeOptions, Loading, NetOptions, lattice_dome, saddle_net};
-    use crate::linalg::Ldlt;
     use crate::model::Method;
     use crate::observe::Silent;
-    use crate::path::Tracer;
-    use crate::solve::{CorrectorConfig, InverseTangent, Workspace};
 
     fn pool(threads: usize) -> rayon::ThreadPool {
         rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap()
@@ -741,15 +738,9 @@ mod tests {
         let mut m = net(16, 120.0);
         m.analysis.method = Method::Bfgs;
         m.analysis.steps = 5;
-        let sys = System::new(&m).unwrap();
         let run = |threads: usize| {
             pool(threads).install(|| {
-                let ldlt = Ldlt::new(&sys.pattern, faer::Par::Seq).unwrap();
-                let corrector = CorrectorConfig::from_analysis(&m.analysis);
-                let h = InverseTangent::new(m.analysis.method, ldlt, corrector.refactor.max_updates);
-                let mut ws = Workspace::new(&sys, m.n_nodes(), h);
-                let mut tracer = Tracer::new(&sys, &m, corrector);
-                let path = tracer.run(&mut ws, &mut Silent);
+                let path = crate::Solver::with_parallelism(&m, faer::Par::Seq).unwrap().trace(&mut Silent).path;
                 let lambdas: Vec<f64> = path.points.iter().map(|p| p.lambda).collect();
                 assert_eq!(path.stop, crate::path::StopReason::TargetReached, "{threads} threads");
                 (bits(&path.final_state.u), bits(&lambdas), path.totals())

@@ -2,7 +2,7 @@
 //! meet in one solve: a force T or a length L* for chosen members.
 //!
 //! The force densities are iterated around linear solves (Schek 1974's
-//! equations, [`force_density_with`]). After each solve, with l the member's
+//! equations, [`force_density_with`](super::force_density_with)). After each solve, with l the member's
 //! length there:
 //!
 //! - target force: q ← T / l, so that q·l = T at the current length (the

@@ -2,7 +2,7 @@
 //! everything, collecting every problem (up to a cap) before failing.
 //!
 //! TOML entries and CSV rows are first put into the same raw shape
-//! ([`RawNode`], [`RawMember`], [`RawLoad`]) and then go through the same
+//! (`RawNode`, `RawMember`, `RawLoad`) and then go through the same
 //! checks, so a row of `members.csv` is held to exactly the rules of a
 //! `[[member]]` table. The CSV tables themselves are read in `tables`.
 

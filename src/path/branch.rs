@@ -2,7 +2,7 @@
 //! the geometry with a critical mode (imperfection).
 //!
 //! ## Branch switching: the mode-injection predictor
-//! At a bifurcation point C (u_c, λ_c), pinpointed by [`Tracer::pinpoint`],
+//! At a bifurcation point C (u_c, λ_c), pinpointed by `Tracer::pinpoint` (in `critical`),
 //! the tangent is singular and its null space holds, besides the primary
 //! path's direction, the secondary path's. The path leaves C along the
 //! bifurcation mode φ made orthogonal to the primary path's tangent t,
@@ -64,10 +64,10 @@
 
 use super::{dot, Critical, CriticalKind, PathPoint, StopReason, Tracer};
 use crate::assembly::System;
-use crate::linalg::Ldlt;
 use crate::model::{BranchSettings, Control, Model};
 use crate::observe::Observer;
-use crate::solve::{self, Constraint, CorrectorConfig, InverseTangent, State, Termination, Workspace};
+use crate::linalg::Ldlt;
+use crate::solve::{self, Constraint, CorrectorConfig, State, Termination, Workspace};
 
 /// How many times the switch step is halved before the switch is given up.
 pub const SWITCH_HALVINGS: usize = 4;
@@ -78,7 +78,7 @@ pub const MAX_MODE_DOUBLINGS: usize = 20;
 /// Where the path left the primary branch.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Switched {
-    /// Index into `Path::critical` of the bifurcation left.
+    /// Index into `EquilibriumPath::critical` of the bifurcation left.
     pub at_critical: usize,
     /// Load factor of the bifurcation.
     pub lambda: f64,
@@ -324,7 +324,7 @@ impl Tracer<'_> {
             }
             state.u = due.u.iter().zip(&psi).map(|(u, p)| u + xi * p).collect();
             state.lambda = due.lambda;
-            ws.fresh = false;
+            ws.set_factor_fresh(false);
             let c = AlongMode { psi: &psi };
             let (term, rec) = solve::drive(sys, ws, &mut state, &due.u, due.lambda, &c, &self.corrector, step, observer);
             if term == Termination::Stopped {
@@ -351,7 +351,7 @@ impl Tracer<'_> {
                     let mut next = state.clone();
                     next.u = due.u.iter().zip(&state.u).map(|(c, u)| c + 2.0 * (u - c)).collect();
                     next.lambda = due.lambda + 2.0 * (state.lambda - due.lambda);
-                    ws.fresh = false;
+                    ws.set_factor_fresh(false);
                     let c = AlongMode { psi: &psi };
                     let (term, rec) = solve::drive(sys, ws, &mut next, &due.u, due.lambda, &c, &self.corrector, step, observer);
                     if term != Termination::Converged {
@@ -363,8 +363,8 @@ impl Tracer<'_> {
                     xi *= 2.0;
                 }
             }
-            let singular = solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
-            let neg = ws.h.inertia.negative;
+            let singular = ws.refactor_at(sys, &mut state, &mut record).is_some();
+            let neg = ws.negative_pivots();
             let mut point = self.make_point(&state, step, record, neg);
             point.pivots_checked = !singular;
             let increment: Vec<f64> = state.u.iter().zip(&due.u).map(|(a, b)| a - b).collect();
@@ -398,15 +398,12 @@ pub fn seed(model: &Model, observer: &mut dyn Observer) -> Result<Option<(Model,
     let Some(imp) = model.analysis.branch.imperfection else { return Ok(None) };
     let mut perfect = model.clone();
     perfect.analysis.branch = BranchSettings::default();
+    // Not through `crate::Solver`, which sits above `path`: the same steps
+    // with the tracer's own `trace_whole`.
     let system = System::new(&perfect).map_err(|e| SeedError::Model(format!("member \"{}\": {}", e.member, e.message)))?;
-    let corrector = CorrectorConfig::from_analysis(&perfect.analysis);
     let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| SeedError::Model(e.to_string()))?;
-    let h = InverseTangent::new(perfect.analysis.method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, perfect.n_nodes(), h);
-    let path = {
-        let mut tracer = Tracer::new(&system, &perfect, corrector);
-        tracer.run(&mut ws, observer)
-    };
+    let corrector = CorrectorConfig::from_analysis(&perfect.analysis);
+    let (path, _) = super::trace_whole(&system, &perfect, ldlt, corrector, observer);
     let Some(c) = path.critical.get(imp.mode - 1) else {
         return Err(SeedError::NotMet {
             requested: imp.mode,

@@ -3,7 +3,7 @@
 use crate::solve::Constraint;
 
 /// Displacement control: the controlled DOF keeps the value the predictor gave
-/// it, so each correction has δu_c = 0, i.e. δλ = −δu_r[c] / δu_f[c]
+/// it, so each correction has δu_c = 0, i.e. δλ = −δu_r\[c\] / δu_f\[c\]
 /// (Batoz & Dhatt 1979).
 pub struct PrescribedDisplacement {
     pub dof: usize,

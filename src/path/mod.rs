@@ -12,15 +12,25 @@
 
 pub mod branch;
 pub mod constraints;
+pub mod critical;
 pub mod fields;
 pub mod modes;
+mod start;
+mod stepper;
 
 use crate::assembly::System;
 use crate::model::{Control, KeepFields, Model, NodeDir};
-use crate::observe::{Control as Answer, Observer, StepEvent};
+use crate::observe::{Answer, Observer, StepEvent};
 use crate::solve::{self, CorrectorConfig, FixedLoad, State, StepRecord, Termination, Workspace};
 use constraints::{Cylindrical, NormalPlane, PrescribedDisplacement};
 use fields::{Field, Keeper};
+pub use start::{StartFailure, LOST_PRESTRESS};
+use stepper::{load_predictor, tangent_direction, Stepper};
+pub use stepper::DESIRED_ITERATIONS;
+pub use critical::{
+    find_mechanism, Critical, CriticalKind, Turning, BIFURCATION_ALIGNMENT, BISECTION_TARGET, COINCIDENT, MAX_BISECTIONS,
+    MAX_POINTS_PER_STEP, PINPOINT_TOLERANCE,
+};
 
 /// Why the path ended.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -40,7 +50,7 @@ pub enum StopReason {
     /// The given geometry and its prestress have no equilibrium at the start
     /// load factor that the corrector could find ([`StartFailure`] says why).
     NoStartEquilibrium,
-    /// Stopped at a requested branch switch: see `Path::switch` (the mode
+    /// Stopped at a requested branch switch: see `EquilibriumPath::switch` (the mode
     /// asked for does not exist, no secondary state was found, or load
     /// control cannot follow a falling secondary branch).
     BranchSwitch,
@@ -101,14 +111,14 @@ pub struct Mechanism {
 
 /// The whole path.
 #[derive(Clone, Debug)]
-pub struct Path {
+pub struct EquilibriumPath {
     pub points: Vec<PathPoint>,
     pub stop: StopReason,
     /// Displacements at the last converged state, free DOFs, m.
     pub final_state: State,
     pub mechanism: Option<Mechanism>,
     /// What the last failed step was doing, for the stop message.
-    pub last_failure: Option<Failure>,
+    pub last_failure: Option<StepFailure>,
     pub n_cutbacks: usize,
     /// Critical points pinpointed along the path.
     pub critical: Vec<Critical>,
@@ -128,169 +138,9 @@ pub struct Path {
     pub imperfection: Option<branch::Seed>,
 }
 
-/// The prestressed start could not be brought into balance: what the
-/// corrector met, which members lost the tension they were given and where
-/// the given geometry is most out of balance.
-#[derive(Clone, Debug)]
-pub struct StartFailure {
-    pub termination: Termination,
-    /// Relative residual of the given geometry (before any correction).
-    pub given_residual: f64,
-    /// Members in tension in the given geometry that are slack, or keep less
-    /// than [`LOST_PRESTRESS`] of that tension, at the last state the
-    /// corrector reached (or at the singular state it converged to), by
-    /// index, ascending: the prestress they cannot hold.
-    pub lost_prestress: Vec<u32>,
-    /// Nodes with the largest out-of-balance force in the given geometry,
-    /// largest first (node index, force in N), at most five.
-    pub out_of_balance: Vec<(usize, f64)>,
-    /// Node directions free to move at the last state, when its tangent was singular.
-    pub free_dirs: Vec<NodeDir>,
-}
-
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum CriticalKind {
-    /// The load factor has an extremum: snap-through under load control.
-    Limit,
-    /// The path branches while the load can still rise.
-    Bifurcation,
-}
-
-/// A state where the tangent's negative pivot count changes, found by
-/// bisection of the step in which it changed.
-#[derive(Clone, Debug)]
-pub struct Critical {
-    pub kind: CriticalKind,
-    pub lambda: f64,
-    /// First converged step past the point.
-    pub step: usize,
-    /// Watched displacements at the point, m.
-    pub watched: Vec<f64>,
-    /// Node directions with the largest share of the first critical mode.
-    pub mode: Vec<NodeDir>,
-    /// The first mode at the watched DOFs, scaled to a largest component of 1.
-    pub mode_watched: Vec<f64>,
-    /// ‖Φᵀf_ref‖ / ‖f_ref‖ over the whole null space Φ (orthonormal): near 1
-    /// at a limit point, 0 at a bifurcation.
-    pub mode_load_alignment: f64,
-    /// The critical modes: unit Euclidean norm over the free DOFs, mutually
-    /// orthogonal, one per pivot that changed sign (`multiplicity`). At a
-    /// limit point the first is the load's direction within the null space
-    /// and the others (a bifurcation coinciding with it) are orthogonal to
-    /// f_ref; at a bifurcation all are orthogonal to f_ref.
-    pub modes: Vec<Vec<f64>>,
-    /// Eigenvalues of the tangent belonging to `modes`, N/m, at the state
-    /// the modes were computed (the bracket's far end).
-    pub mode_eigenvalues: Vec<f64>,
-    /// Every mode passed the residual check ‖Kφ − μφ‖ ≤ 1e-8·max|K_ii|.
-    pub mode_converged: bool,
-    /// Number of pivots that changed sign across the point.
-    pub multiplicity: usize,
-    /// Negative pivots before and after.
-    pub pivots: (usize, usize),
-    /// Bisections done, and the distance (displacement norm) still
-    /// bracketing the point, m.
-    pub bisections: usize,
-    pub bracket: f64,
-    /// The load factors at the two ends of the final bracket.
-    pub lambda_bracket: (f64, f64),
-    /// The bisection met its tolerance: the bracket is at most
-    /// [`PINPOINT_TOLERANCE`] times the larger of the displacement increment
-    /// of the step it started from and ‖u‖ there (it aims for
-    /// [`BISECTION_TARGET`] of the increment).
-    pub pinpointed: bool,
-    /// The bracket the bisection aimed for, m.
-    pub tolerance: f64,
-    /// The free-DOF displacements at the point (the middle of the final
-    /// bracket), m, when the `keep_fields` policy keeps critical states.
-    pub field: Option<Vec<f64>>,
-}
-
-/// A turning point of the controlled displacement along the path (the
-/// displacement has an extremum while the load factor goes on: snap-back).
-/// The tangent stiffness stays regular there, so the pivot count does not
-/// see it: it is found where du/ds at the controlled DOF changes sign, with
-/// du/ds ∝ (K⁻¹f_ref)·dλ/ds (derived from K·du = f_ref·dλ), and bisected as
-/// a critical point is.
-#[derive(Clone, Debug)]
-pub struct Turning {
-    pub lambda: f64,
-    /// First converged step past the point.
-    pub step: usize,
-    /// The controlled displacement at the point (its extremum), m.
-    pub point: f64,
-    /// Watched displacements at the point, m.
-    pub watched: Vec<f64>,
-    pub bisections: usize,
-    /// Displacement norm still bracketing the point, m.
-    pub bracket: f64,
-    /// As for [`Critical::pinpointed`].
-    pub pinpointed: bool,
-    pub tolerance: f64,
-}
-
-/// The bisection aims for a bracket of this fraction of the step's
-/// displacement increment.
-pub const BISECTION_TARGET: f64 = 1e-9;
-
-/// A critical point is reported as pinpointed when its final bracket is at
-/// most this fraction of the step's displacement increment or of the
-/// displacement itself (‖u‖ at the bracket's end), whichever is larger.
-/// Looser than the aim: next to a singular tangent, or in a very short step,
-/// a sub-step may fail to converge to a tight tolerance, which ends the
-/// bisection early.
-pub const PINPOINT_TOLERANCE: f64 = 1e-8;
-
-/// A mode is taken as orthogonal to the load (a bifurcation) below this
-/// alignment. The null vector of a limit point carries load; that of a
-/// symmetric bifurcation is orthogonal to it (common practice, no source).
-pub const BIFURCATION_ALIGNMENT: f64 = 1e-3;
-
-/// A member that keeps less than this share of its given tension at a failed
-/// start has lost its prestress (a cable run back to its rest length).
-pub const LOST_PRESTRESS: f64 = 1e-6;
-
-/// Two critical points found one after the other in a step whose load
-/// factors agree within this fraction (of max(|λ|, 1)) are one point: a
-/// double point whose two eigenvalues reach zero a rounding apart.
-pub const COINCIDENT: f64 = 1e-8;
-
-/// Adds `c` to the list, merged into the last point when it is the
-/// continuation of the same step's bisection at the same load factor
-/// ([`COINCIDENT`]): one point with the summed multiplicity, both sets of
-/// modes, the far pivot count of the second, a limit if either is.
-fn push_critical(list: &mut Vec<Critical>, c: Critical, same_step_as_last: bool) {
-    if coincides(list, &c, same_step_as_last) {
-        let last = list.last_mut().expect("coincides with the last point");
-        last.multiplicity += c.multiplicity;
-        last.pivots.1 = c.pivots.1;
-        last.modes.extend(c.modes);
-        last.mode_eigenvalues.extend(c.mode_eigenvalues);
-        last.mode_converged &= c.mode_converged;
-        last.pinpointed &= c.pinpointed;
-        if c.kind == CriticalKind::Limit {
-            last.kind = CriticalKind::Limit;
-        }
-        last.mode_load_alignment = (last.mode_load_alignment.powi(2) + c.mode_load_alignment.powi(2)).sqrt();
-        return;
-    }
-    list.push(c);
-}
-
-/// Whether `c` is the last point of `list` again (see [`push_critical`]).
-fn coincides(list: &[Critical], c: &Critical, same_step_as_last: bool) -> bool {
-    same_step_as_last && list.last().is_some_and(|l| (l.lambda - c.lambda).abs() <= COINCIDENT * l.lambda.abs().max(1.0))
-}
-
-/// Largest number of critical points pinpointed within one step.
-pub const MAX_POINTS_PER_STEP: usize = 16;
-
-/// Largest number of bisections when pinpointing a critical point.
-pub const MAX_BISECTIONS: usize = 60;
-
 /// A step that failed for good.
 #[derive(Clone, Debug)]
-pub struct Failure {
+pub struct StepFailure {
     pub step: usize,
     /// λ the step was trying to reach.
     pub lambda_tried: f64,
@@ -300,7 +150,7 @@ pub struct Failure {
     pub zero_pivot_dirs: Vec<NodeDir>,
 }
 
-impl Path {
+impl EquilibriumPath {
     pub fn totals(&self) -> (usize, usize, usize) {
         let mut t = (0, 0, 0);
         for p in &self.points {
@@ -312,6 +162,24 @@ impl Path {
     }
 }
 
+/// Traces `model` on its assembled `system` with the symbolic factor `ldlt`
+/// of its tangent: the one place where a whole run's inverse tangent,
+/// workspace and tracer are made ([`crate::Solver::trace`] and branch
+/// seeding call it). Returns the path and the work of cut-back attempts.
+pub fn trace_whole(
+    system: &System,
+    model: &Model,
+    ldlt: crate::linalg::Ldlt,
+    corrector: CorrectorConfig,
+    observer: &mut dyn Observer,
+) -> (EquilibriumPath, StepRecord) {
+    let h = solve::InverseTangent::new(model.analysis.method, ldlt, corrector.refactor.max_updates);
+    let mut ws = Workspace::new(system, model.n_nodes(), h);
+    let mut tracer = Tracer::new(system, model, corrector);
+    let path = tracer.run(&mut ws, observer);
+    (path, tracer.wasted)
+}
+
 /// Follows the path of one model.
 pub struct Tracer<'a> {
     pub system: &'a System,
@@ -319,39 +187,6 @@ pub struct Tracer<'a> {
     pub corrector: CorrectorConfig,
     /// Extra work done in failed attempts, so totals stay honest.
     pub wasted: StepRecord,
-}
-
-/// The `m` modes of the tangent at (u, λ) nearest zero, from the true
-/// (sign-keeping) factorization: see [`modes::lowest_modes`]. The factor in
-/// the workspace is overwritten (`ws.fresh` is cleared).
-fn null_modes(system: &System, ws: &mut Workspace, u: &[f64], lambda: f64, n_reactions: usize, m: usize) -> modes::LowModes {
-    let mut k = system.new_tangent_values();
-    let mut r = vec![0.0; system.n_free()];
-    let mut react = vec![0.0; n_reactions];
-    system.residual_and_tangent(u, lambda, &mut r, &mut react, &mut k);
-    ws.fresh = false;
-    modes::lowest_modes(system, &mut ws.h.ldlt, &k, m)
-}
-
-/// Node directions carrying at least half the largest component of a mode,
-/// largest first, at most eight.
-fn dominant_dirs(system: &System, mode: &[f64]) -> Vec<NodeDir> {
-    let max = mode.iter().map(|v| v.abs()).fold(0.0, f64::max);
-    let mut big: Vec<(f64, usize)> =
-        mode.iter().enumerate().filter(|(_, v)| v.abs() >= 0.5 * max).map(|(i, v)| (v.abs(), i)).collect();
-    big.sort_by(|a, b| b.0.total_cmp(&a.0));
-    big.truncate(8);
-    big.into_iter().map(|(_, d)| system.dofs.owner(d)).collect()
-}
-
-/// Finds the node directions of a mechanism: the mode of the singular
-/// tangent nearest zero.
-pub fn find_mechanism(system: &System, ws: &mut Workspace, state: &State) -> Vec<NodeDir> {
-    let low = null_modes(system, ws, &state.u, state.lambda, state.reactions.len(), 1);
-    match low.modes.first() {
-        Some(mode) => dominant_dirs(system, mode),
-        None => Vec::new(),
-    }
 }
 
 fn add_records(into: &mut StepRecord, from: &StepRecord) {
@@ -419,427 +254,8 @@ impl<'a> Tracer<'a> {
         }
     }
 
-    /// Bisects the step from state A (u, λ, negative pivots) to the converged
-    /// state B in which the pivot count changed: arc-length sub-steps from A
-    /// of half the bracketing length, keeping the half whose ends differ in
-    /// count, until the bracket is below 1e-9 of the step (or no sub-step
-    /// converges). The critical mode φ comes from inverse iteration with the
-    /// factorization at the end of the bracket, and the kind from φ's
-    /// alignment with the reference load.
-    fn pinpoint(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Critical {
-        self.pinpoint_with_end(ws, a_state, b, keep_field, observer).0
-    }
-
-    /// [`Tracer::pinpoint`], also handing back the far end of the final
-    /// bracket (u, λ): when the pivot count there (`pivots.1`) is not yet
-    /// B's, another critical point lies between it and B.
-    fn pinpoint_with_end(
-        &mut self,
-        ws: &mut Workspace,
-        a_state: (&[f64], f64, usize),
-        b: &State,
-        keep_field: bool,
-        observer: &mut dyn Observer,
-    ) -> (Critical, Vec<f64>, f64) {
-        let sys = self.system;
-        let (ua, la, na) = a_state;
-        let (mut ua, mut la) = (ua.to_vec(), la);
-        let (mut ub, mut lb, mut nb) = (b.u.clone(), b.lambda, ws.h.inertia.negative);
-        let dist = |x: &[f64], y: &[f64]| x.iter().zip(y).map(|(p, q)| (p - q) * (p - q)).sum::<f64>().sqrt();
-        let full = dist(&ua, &ub);
-        let mut bisections = 0;
-        let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > BISECTION_TARGET * full {
-            let half = 0.5 * dist(&ua, &ub);
-            // Predictor halfway along the chord, corrected on the cylinder of
-            // radius `half` around A.
-            for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
-                *u = 0.5 * (a + b);
-            }
-            st.lambda = 0.5 * (la + lb);
-            ws.fresh = false;
-            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: half }, &self.corrector, 0, observer);
-            add_records(&mut self.wasted, &rec);
-            if matches!(term, Termination::SingularTangent { .. }) && st.relative_residual <= self.corrector.tolerance {
-                // The state between the bracket's ends is already in
-                // equilibrium and its tangent is singular: exactly on the
-                // critical state (the corrector stops there before its
-                // first iteration).
-                bisections += 1;
-                ua.clone_from(&st.u);
-                ub.clone_from(&st.u);
-                la = st.lambda;
-                lb = st.lambda;
-                break;
-            }
-            if term != Termination::Converged {
-                break;
-            }
-            let mut rec = StepRecord::default();
-            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
-            add_records(&mut self.wasted, &rec);
-            bisections += 1;
-            if singular {
-                // Exactly on the critical state.
-                ua.clone_from(&st.u);
-                ub.clone_from(&st.u);
-                la = st.lambda;
-                lb = st.lambda;
-                break;
-            }
-            if ws.h.inertia.negative == na {
-                ua.clone_from(&st.u);
-                la = st.lambda;
-            } else {
-                ub.clone_from(&st.u);
-                lb = st.lambda;
-                nb = ws.h.inertia.negative;
-            }
-        }
-        let bracket = dist(&ua, &ub);
-        let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
-        let pinpointed = bracket <= tolerance;
-        // Modes: the eigenvectors of K nearest zero at B, one per pivot that
-        // changed sign, from the sign-keeping factorization.
-        let multiplicity = na.abs_diff(nb).max(1);
-        let low = null_modes(sys, ws, &ub, lb, b.reactions.len(), multiplicity);
-        self.wasted.factorizations += 1;
-        // Classified by the whole null space: a limit point when f_ref has a
-        // component in it (the load factor has an extremum, Thompson & Hunt,
-        // *A General Theory of Elastic Stability*, 1973, ch. 3, from memory),
-        // a bifurcation when the null space is orthogonal to f_ref.
-        let (alignment, modes) = modes::split_by_load(&low.modes, &sys.f_ref);
-        let phi = modes.first().cloned().unwrap_or_else(|| vec![0.0; sys.n_free()]);
-        let max = phi.iter().map(|v| v.abs()).fold(0.0, f64::max);
-        let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
-        let c = Critical {
-            kind: if alignment < BIFURCATION_ALIGNMENT { CriticalKind::Bifurcation } else { CriticalKind::Limit },
-            lambda: 0.5 * (la + lb),
-            step: 0,
-            watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
-            field: keep_field.then_some(mid),
-            mode: dominant_dirs(sys, &phi),
-            mode_watched: self
-                .model
-                .analysis
-                .watch
-                .iter()
-                .map(|w| if max > 0.0 { self.displacement_of(&phi, *w) / max } else { 0.0 })
-                .collect(),
-            mode_load_alignment: alignment,
-            modes,
-            mode_eigenvalues: low.eigenvalues.clone(),
-            mode_converged: low.converged && !low.modes.is_empty(),
-            multiplicity,
-            pivots: (na, nb),
-            bisections,
-            bracket,
-            lambda_bracket: (la, lb),
-            pinpointed,
-            tolerance,
-        };
-        (c, ub, lb)
-    }
-
-    /// Every critical point between A (u, λ, negative pivots) and the
-    /// converged state B, whose factor is in the workspace. A step may hold
-    /// more than one (the count changes at two loads within it): after each,
-    /// the bisection goes on from the far end of its bracket while the count
-    /// there is not yet B's; coincident halves of a double point are merged
-    /// ([`push_critical`]). B is refactored after each point, for the next
-    /// bisection and the caller. With `within = (λ_b, direction)` (the
-    /// load-control walk), a point beyond λ_b is dropped and a limit point
-    /// kept; either ends the search (`true`), the latter without the refactor.
-    fn pinpoint_all(
-        &mut self,
-        ws: &mut Workspace,
-        a_state: (&[f64], f64, usize),
-        b: &mut State,
-        keep_field: bool,
-        within: Option<(f64, f64)>,
-        observer: &mut dyn Observer,
-    ) -> (Vec<Critical>, bool) {
-        let end_count = ws.h.inertia.negative;
-        let (mut from_u, mut from_l, mut from_n) = (a_state.0.to_vec(), a_state.1, a_state.2);
-        let mut found = Vec::new();
-        let mut rounds = 0;
-        while from_n != end_count && rounds < MAX_POINTS_PER_STEP {
-            rounds += 1;
-            let (c, far_u, far_l) = self.pinpoint_with_end(ws, (&from_u, from_l, from_n), b, keep_field, observer);
-            // The walk's last sub-step may overshoot B's load factor: a point
-            // beyond it belongs to the next load step, which finds it itself.
-            let beyond = within.is_some_and(|(lambda_b, direction)| (c.lambda - lambda_b) * direction > 0.0);
-            let limit = within.is_some() && c.kind == CriticalKind::Limit;
-            let far_n = c.pivots.1;
-            let next = c.pinpointed && far_n != from_n;
-            if !beyond {
-                push_critical(&mut found, c, rounds > 1);
-                if limit {
-                    return (found, true);
-                }
-            }
-            let mut rec = StepRecord::default();
-            solve::refactor_at(self.system, ws, b, &mut rec);
-            add_records(&mut self.wasted, &rec);
-            if beyond {
-                return (found, true);
-            }
-            if !next {
-                break;
-            }
-            (from_u, from_l, from_n) = (far_u, far_l, far_n);
-        }
-        (found, false)
-    }
-
-    /// Bisects the step from A (u, λ, du/ds at the controlled DOF) to B in
-    /// which du/ds at `dof` changed sign, as [`Tracer::pinpoint`] does with
-    /// the pivot count; `dir` is the sign of dλ/ds across the step.
-    #[allow(clippy::too_many_arguments)]
-    fn pinpoint_turning(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, f64), b: &State, dir: f64, dof: usize, observer: &mut dyn Observer) -> Turning {
-        let sys = self.system;
-        let (ua, la, va) = a_state;
-        let (mut ua, mut la) = (ua.to_vec(), la);
-        let (mut ub, mut lb) = (b.u.clone(), b.lambda);
-        let full = dot_dist(&ua, &ub);
-        let mut bisections = 0;
-        let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dot_dist(&ua, &ub) > BISECTION_TARGET * full {
-            for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
-                *u = 0.5 * (a + b);
-            }
-            st.lambda = 0.5 * (la + lb);
-            ws.fresh = false;
-            // λ is monotone through a displacement turning point (the tangent
-            // is regular there), so the sub-step is a load-control one.
-            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &FixedLoad, &self.corrector, 0, observer);
-            add_records(&mut self.wasted, &rec);
-            if term != Termination::Converged {
-                break;
-            }
-            let mut rec = StepRecord::default();
-            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
-            add_records(&mut self.wasted, &rec);
-            if singular {
-                break;
-            }
-            bisections += 1;
-            let v = tangent_direction(sys, ws)[dof] * dir;
-            if v * va > 0.0 {
-                ua.clone_from(&st.u);
-                la = st.lambda;
-            } else {
-                ub.clone_from(&st.u);
-                lb = st.lambda;
-            }
-        }
-        let bracket = dot_dist(&ua, &ub);
-        let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
-        let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
-        Turning {
-            lambda: 0.5 * (la + lb),
-            step: 0,
-            point: mid[dof],
-            watched: self.model.analysis.watch.iter().map(|w| self.displacement_of(&mid, *w)).collect(),
-            bisections,
-            bracket,
-            pinpointed: bracket <= tolerance,
-            tolerance,
-        }
-    }
-
-    /// Re-walks a suspect load-control step by arc length from its start A
-    /// (u, λ, negative pivots) until λ reaches B's, pinpointing every change
-    /// of the pivot count on the way; stops at the first limit point. The arc
-    /// is a quarter of the tangent's prediction for the step (or of the
-    /// chord to B, if shorter), halved when a sub-step fails or turns back.
-    /// Some(list): the critical points met (empty: none, B is on the path);
-    /// None: the walk failed (the caller cuts the step back).
-    fn probe(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
-        let chord = dot_dist(&b.u, a_state.0);
-        self.walk(ws, a_state, b.lambda, chord, b, keep_field, observer)
-    }
-
-    /// The walk of [`Tracer::probe`] towards `lambda_b`; `chord` bounds the
-    /// arc (ignored when zero: a step that never converged has no B).
-    #[allow(clippy::too_many_arguments)]
-    fn walk(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), lambda_b: f64, chord: f64, template: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
-        let sys = self.system;
-        let (ua, la, na) = a_state;
-        let b = template;
-        let mut st = b.clone();
-        st.u.copy_from_slice(ua);
-        st.lambda = la;
-        let mut rec = StepRecord::default();
-        let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
-        add_records(&mut self.wasted, &rec);
-        if singular {
-            return None;
-        }
-        let direction = (lambda_b - la).signum();
-        let du_a = tangent_direction(sys, ws);
-        let predicted = dot(&du_a, &du_a).sqrt() * (lambda_b - la).abs();
-        let arc0 = if chord > 0.0 { 0.25 * predicted.min(chord).max(1e-12 * chord) } else { 0.25 * predicted };
-        if !(arc0 > 0.0 && arc0.is_finite()) {
-            return None;
-        }
-        let mut arc = arc0;
-        let mut found = Vec::new();
-        let mut prev_inc: Vec<f64> = Vec::new();
-        let mut neg = na;
-        for _ in 0..PROBE_MAX_STEPS {
-            if (st.lambda - lambda_b) * direction >= 0.0 {
-                return Some(found);
-            }
-            let (pu, pl) = (st.u.clone(), st.lambda);
-            let du_f = tangent_direction(sys, ws);
-            let norm = dot(&du_f, &du_f).sqrt();
-            let sign = if prev_inc.is_empty() {
-                direction
-            } else {
-                let d = dot(&du_f, &prev_inc);
-                if d == 0.0 { direction } else { d.signum() }
-            };
-            let dl = sign * arc / norm;
-            if !dl.is_finite() {
-                return None;
-            }
-            st.u.iter_mut().zip(&du_f).for_each(|(u, d)| *u += dl * d);
-            st.lambda += dl;
-            let (term, r) = solve::drive(sys, ws, &mut st, &pu, pl, &Cylindrical { arc }, &self.corrector, 0, observer);
-            add_records(&mut self.wasted, &r);
-            let turned = !prev_inc.is_empty()
-                && st.u.iter().zip(&pu).zip(&prev_inc).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
-            let mut rec = StepRecord::default();
-            if term != Termination::Converged || turned {
-                if term == Termination::Stopped {
-                    return None;
-                }
-                restore(&mut st, pu, pl);
-                solve::refactor_at(sys, ws, &mut st, &mut rec);
-                add_records(&mut self.wasted, &rec);
-                arc *= 0.5;
-                if arc < arc0 * 1e-4 {
-                    return None;
-                }
-                continue;
-            }
-            let singular = solve::refactor_at(sys, ws, &mut st, &mut rec).is_some();
-            add_records(&mut self.wasted, &rec);
-            if singular {
-                return None;
-            }
-            let now = ws.h.inertia.negative;
-            // λ fell along the path: a limit point lies in this sub-step or
-            // at its start (λ has its extremum there).
-            let fell = (st.lambda - pl) * direction < 0.0;
-            if now != neg {
-                let (points, ended) =
-                    self.pinpoint_all(ws, (&pu, pl, neg), &mut st, keep_field, Some((lambda_b, direction)), observer);
-                found.extend(points);
-                if ended {
-                    return Some(found);
-                }
-                neg = now;
-            }
-            if fell {
-                // No pivot changed sign within the sub-step (the walk began
-                // on the limit, within the zero-pivot threshold of it): a
-                // limit at the walk's highest load, not bisected.
-                let mut c = self.pinpoint(ws, (&pu, pl, neg), &st, keep_field, observer);
-                c.kind = CriticalKind::Limit;
-                c.pinpointed = false;
-                c.lambda = if direction > 0.0 { pl.max(st.lambda) } else { pl.min(st.lambda) };
-                found.push(c);
-                return Some(found);
-            }
-            prev_inc = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
-            arc = (arc * 1.5).min(4.0 * arc0);
-        }
-        None
-    }
-
-    /// Finds the equilibrium under the full dead load (self-weight) at the
-    /// start load factor by stepping its share μ from 0 to 1, each step a
-    /// load-control corrector from the last converged state, halved on
-    /// failure (at most `DEAD_LOAD_HALVINGS` times in a row) and grown by
-    /// half after a success. The state at μ = 0 is solved first when it is
-    /// out of balance (prestress). Ends on the real system, μ = 1.
-    fn step_in_dead_load(&mut self, ws: &mut Workspace, state: &mut State, rec0: &mut StepRecord, observer: &mut dyn Observer) -> Termination {
-        let mut mu = 0.0f64;
-        let mut d_mu = 0.25f64;
-        let mut halvings = 0;
-        let mut first = true;
-        for _ in 0..DEAD_LOAD_MAX_STEPS {
-            let target = if first { 0.0 } else { (mu + d_mu).min(1.0) };
-            let partial = self.system.with_dead_factor(target);
-            let start_u = state.u.clone();
-            ws.fresh = false;
-            let (term, rec) = solve::drive(&partial, ws, state, &start_u, state.lambda, &FixedLoad, &self.corrector, 0, observer);
-            if term == Termination::Converged {
-                add_records(rec0, &rec);
-                let was_first = std::mem::replace(&mut first, false);
-                mu = target;
-                halvings = 0;
-                if mu >= 1.0 {
-                    return Termination::Converged;
-                }
-                if !was_first {
-                    d_mu *= 1.5;
-                }
-                d_mu = d_mu.min(1.0 - mu);
-            } else {
-                add_records(&mut self.wasted, &rec);
-                let lambda = state.lambda;
-                restore(state, start_u, lambda);
-                if term == Termination::Stopped || first {
-                    return term;
-                }
-                halvings += 1;
-                if halvings > DEAD_LOAD_HALVINGS {
-                    return term;
-                }
-                d_mu *= 0.5;
-            }
-        }
-        Termination::MaxIterations
-    }
-
-    /// What is known when the start has no equilibrium: the given
-    /// geometry's imbalance (at `given_u`, the start displacements), the
-    /// members in tension there that are slack at `reached` (the last state
-    /// the corrector reached), and the free directions of a singular end.
-    fn start_failure(&self, given_u: &[f64], reached: &State, termination: Termination) -> StartFailure {
-        let sys = self.system;
-        let mut r = vec![0.0; sys.n_free()];
-        let mut react = vec![0.0; reached.reactions.len()];
-        let norms = sys.residual(given_u, reached.lambda, &mut r, &mut react);
-        let mut per_node = vec![0.0f64; self.model.n_nodes()];
-        for (d, v) in r.iter().enumerate() {
-            per_node[sys.dofs.owner(d).node] += v * v;
-        }
-        let mut out_of_balance: Vec<(usize, f64)> =
-            per_node.iter().enumerate().filter(|(_, f)| **f > 0.0).map(|(n, f)| (n, f.sqrt())).collect();
-        out_of_balance.sort_by(|a, b| b.1.total_cmp(&a.1));
-        out_of_balance.truncate(5);
-        let given = sys.member_results(given_u);
-        let now = sys.member_results(&reached.u);
-        let lost_prestress = given
-            .iter()
-            .zip(&now)
-            .enumerate()
-            .filter(|(_, (g, n))| g.force > 0.0 && (n.slack || n.force <= LOST_PRESTRESS * g.force))
-            .map(|(m, _)| m as u32)
-            .collect();
-        let free_dirs = match &termination {
-            Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
-            _ => Vec::new(),
-        };
-        StartFailure { termination, given_residual: sys.relative_residual(norms), lost_prestress, out_of_balance, free_dirs }
-    }
-
     /// Runs the analysis of the model's `[analysis]` table.
-    pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> Path {
+    pub fn run(&mut self, ws: &mut Workspace, observer: &mut dyn Observer) -> EquilibriumPath {
         let a = self.model.analysis.clone();
         let sys = self.system;
         let mut state = State::at_rest(sys, self.model.n_nodes());
@@ -853,12 +269,12 @@ impl<'a> Tracer<'a> {
         // Step 0: the initial state, with its inertia. A prestressed structure
         // may be out of balance here only if the model is; the residual says.
         let mut rec0 = StepRecord::default();
-        if solve::refactor_at(sys, ws, &mut state, &mut rec0).is_some() {
+        if ws.refactor_at(sys, &mut state, &mut rec0).is_some() {
             let moving = find_mechanism(sys, ws, &state);
             let p = self.make_point(&state, 0, rec0, 0);
             keeper.offer(0, state.lambda, &state.u, false);
             let (keep, fields) = keeper.finish(Some((0, state.lambda, &state.u)));
-            return Path {
+            return EquilibriumPath {
                 points: vec![p],
                 stop: StopReason::Mechanism,
                 final_state: state,
@@ -874,7 +290,7 @@ impl<'a> Tracer<'a> {
                 imperfection: None,
             };
         }
-        ws.fresh = true;
+        ws.set_factor_fresh(true);
         if state.relative_residual > self.corrector.tolerance {
             // The given geometry is not in balance with its prestress: find
             // the prestressed equilibrium at λ = 0 first.
@@ -889,7 +305,7 @@ impl<'a> Tracer<'a> {
                 term = self.step_in_dead_load(ws, &mut state, &mut rec0, observer);
             }
             let singular_dofs = if term == Termination::Converged {
-                solve::refactor_at(sys, ws, &mut state, &mut rec0)
+                ws.refactor_at(sys, &mut state, &mut rec0)
             } else {
                 None
             };
@@ -901,7 +317,7 @@ impl<'a> Tracer<'a> {
                 let start_failure = self.start_failure(&start_u, &state, termination);
                 add_records(&mut self.wasted, &rec0);
                 restore(&mut state, start_u, a.start_load_factor);
-                return Path {
+                return EquilibriumPath {
                     points: Vec::new(),
                     stop: StopReason::NoStartEquilibrium,
                     final_state: state,
@@ -917,9 +333,9 @@ impl<'a> Tracer<'a> {
                     imperfection: None,
                 };
             }
-            ws.fresh = true;
+            ws.set_factor_fresh(true);
         }
-        let neg0 = ws.h.inertia.negative;
+        let neg0 = ws.negative_pivots();
         points.push(self.make_point(&state, 0, rec0, neg0));
         keeper.offer(0, state.lambda, &state.u, false);
 
@@ -937,7 +353,7 @@ impl<'a> Tracer<'a> {
         // The last state whose pivots were counted (u, λ, negative pivots),
         // kept only under `on-refactor`, where it may lie steps back.
         let mut counted_state: Option<(Vec<f64>, f64, usize)> =
-            (!a.stability_each_step).then(|| (state.u.clone(), state.lambda, ws.h.inertia.negative));
+            (!a.stability_each_step).then(|| (state.u.clone(), state.lambda, ws.negative_pivots()));
         // (K⁻¹f_ref) at the controlled DOF at the last converged state (NaN:
         // not known): du/ds there up to the sign of dλ/ds.
         let mut last_tangent_at_dof = match (a.control, stepper.control_dof) {
@@ -1093,9 +509,9 @@ impl<'a> Tracer<'a> {
                     let check = a.stability_each_step
                         || a.method == crate::model::Method::Newton
                         || count_needed(counted_compliance, load_compliance(sys, ws), &counted_slack, &slack_now);
-                    let singular = check && solve::refactor_at(sys, ws, &mut state, &mut record).is_some();
-                    let neg = ws.h.inertia.negative;
-                    ws.fresh = check && !singular;
+                    let singular = check && ws.refactor_at(sys, &mut state, &mut record).is_some();
+                    let neg = ws.negative_pivots();
+                    ws.set_factor_fresh(check && !singular);
                     let mut point = self.make_point_with(&state, step, record, neg, slack_now.clone());
                     point.pivots_checked = check;
                     let ev = StepEvent {
@@ -1150,16 +566,16 @@ impl<'a> Tracer<'a> {
                                     add_records(&mut self.wasted, &point.record);
                                     restore(&mut state, start_u.clone(), start_lambda);
                                     let mut rec = StepRecord::default();
-                                    solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                    ws.refactor_at(sys, &mut state, &mut rec);
                                     add_records(&mut self.wasted, &rec);
-                                    ws.fresh = true;
+                                    ws.set_factor_fresh(true);
                                     if limit {
                                         break 'path StopReason::LimitPoint;
                                     }
                                     // A jump with no critical point on the
                                     // way, or a walk that failed: cut back.
                                     if !stepper.cut_back() {
-                                        last_failure = Some(Failure {
+                                        last_failure = Some(StepFailure {
                                             step,
                                             lambda_tried,
                                             termination: Termination::Jumped,
@@ -1174,9 +590,9 @@ impl<'a> Tracer<'a> {
                                 // Bifurcations only: B is on the path; back
                                 // to its factor.
                                 let mut rec = StepRecord::default();
-                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                ws.refactor_at(sys, &mut state, &mut rec);
                                 add_records(&mut self.wasted, &rec);
-                                ws.fresh = true;
+                                ws.set_factor_fresh(true);
                             }
                         }
                     }
@@ -1198,7 +614,7 @@ impl<'a> Tracer<'a> {
                         let keep_field = keeper.keeps_critical();
                         let want = keep_field || switcher.wants_field();
                         let (points, _) = self.pinpoint_all(ws, (a_u, a_l, n_before), &mut state, want, None, observer);
-                        ws.fresh = true;
+                        ws.set_factor_fresh(true);
                         for mut c in points {
                             c.step = step;
                             // Branch switching (branch.rs) counts the bifurcations.
@@ -1222,9 +638,9 @@ impl<'a> Tracer<'a> {
                         t.step = step;
                         turning.push(t);
                         let mut rec = StepRecord::default();
-                        solve::refactor_at(sys, ws, &mut state, &mut rec);
+                        ws.refactor_at(sys, &mut state, &mut rec);
                         add_records(&mut self.wasted, &rec);
-                        ws.fresh = true;
+                        ws.set_factor_fresh(true);
                     }
                     last_tangent_at_dof = tangent_at_dof;
                     let pivots_changed = before.is_some_and(|(n, _)| n != neg);
@@ -1253,10 +669,10 @@ impl<'a> Tracer<'a> {
                     if reached && !switcher.is_due() {
                         break 'path StopReason::TargetReached;
                     }
-                    if let (Some(max_d), Some(p)) = (a.max_displacement, a.point) {
-                        if self.displacement_of(&state.u, p).abs() >= max_d {
-                            break 'path StopReason::MaxDisplacement;
-                        }
+                    if let (Some(max_d), Some(p)) = (a.max_displacement, a.point)
+                        && self.displacement_of(&state.u, p).abs() >= max_d
+                    {
+                        break 'path StopReason::MaxDisplacement;
                     }
                     // ---- Branch switching (branch.rs): at the `switch_at`th
                     // bifurcation, leave the primary path along the mode.
@@ -1270,13 +686,13 @@ impl<'a> Tracer<'a> {
                         let Some((left, falls)) = self.leave_along_mode(ws, &mut switcher, xi, control_step, next, observer) else {
                             // Back to the factor of the last converged state.
                             let mut rec = StepRecord::default();
-                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            ws.refactor_at(sys, &mut state, &mut rec);
                             add_records(&mut self.wasted, &rec);
-                            ws.fresh = true;
+                            ws.set_factor_fresh(true);
                             break 'path StopReason::BranchSwitch;
                         };
                         state = left.state;
-                        ws.fresh = left.fresh;
+                        ws.set_factor_fresh(left.fresh);
                         keeper.offer(next, state.lambda, &state.u, false);
                         let ev = StepEvent {
                             step: next,
@@ -1308,7 +724,7 @@ impl<'a> Tracer<'a> {
                         Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
                         _ => Vec::new(),
                     };
-                    let failure = Failure {
+                    let failure = StepFailure {
                         step,
                         lambda_tried: state.lambda,
                         termination: other.clone(),
@@ -1318,9 +734,9 @@ impl<'a> Tracer<'a> {
                     restore(&mut state, start_u, start_lambda);
                     // Back to the last converged state and its tangent.
                     let mut rec = StepRecord::default();
-                    let singular = solve::refactor_at(sys, ws, &mut state, &mut rec).is_some();
+                    let singular = ws.refactor_at(sys, &mut state, &mut rec).is_some();
                     add_records(&mut self.wasted, &rec);
-                    ws.fresh = !singular;
+                    ws.set_factor_fresh(!singular);
                     if singular || !stepper.cut_back() {
                         // Load control that cannot go on: is there a limit
                         // point between here and where it tried to go?
@@ -1339,13 +755,13 @@ impl<'a> Tracer<'a> {
                                 }
                                 restore(&mut state, u0, l0);
                                 let mut rec = StepRecord::default();
-                                solve::refactor_at(sys, ws, &mut state, &mut rec);
+                                ws.refactor_at(sys, &mut state, &mut rec);
                                 add_records(&mut self.wasted, &rec);
                                 break StopReason::LimitPoint;
                             }
                             restore(&mut state, u0, l0);
                             let mut rec = StepRecord::default();
-                            solve::refactor_at(sys, ws, &mut state, &mut rec);
+                            ws.refactor_at(sys, &mut state, &mut rec);
                             add_records(&mut self.wasted, &rec);
                         }
                         last_failure = Some(failure);
@@ -1359,7 +775,7 @@ impl<'a> Tracer<'a> {
         let last = points.last().map(|p| (p.step, p.lambda, state.u.as_slice()));
         let (keep, fields) = keeper.finish(last);
         let switch = switcher.finish();
-        Path {
+        EquilibriumPath {
             points,
             stop,
             final_state: state,
@@ -1384,7 +800,7 @@ impl<'a> Tracer<'a> {
 /// Holand & Søreide 1978, S_p = f·δu₁ / f·δuᵢ with δu = K⁻¹f): positive on a
 /// stable path, it passes through ±∞ at a limit point and changes sign there.
 fn load_compliance(sys: &System, ws: &mut Workspace) -> f64 {
-    if !ws.h.ldlt.is_factored() || sys.f_ref_norm() == 0.0 {
+    if !ws.is_factored() || sys.f_ref_norm() == 0.0 {
         return f64::NAN;
     }
     let du = tangent_direction(sys, ws);
@@ -1409,7 +825,7 @@ fn count_needed(counted: f64, now: f64, counted_slack: &[u32], slack_now: &[u32]
     now.signum() != counted.signum() || now.abs() > COMPLIANCE_GROWTH * counted.abs() || counted_slack != slack_now
 }
 
-/// See [`count_needed`]: the growth of f·K⁻¹f since the last count that asks
+/// See `count_needed`: the growth of f·K⁻¹f since the last count that asks
 /// for a new one (S_p fallen to half).
 pub const COMPLIANCE_GROWTH: f64 = 2.0;
 
@@ -1433,15 +849,11 @@ fn crossing_suspected(sys: &System, c_a: f64, c_b: f64, start_u: &[f64], start_l
     c_a.signum() != c_b.signum() || work < 0.0 || secant > SECANT_RATIO * c_a.abs().max(c_b.abs())
 }
 
-/// See [`crossing_suspected`]: a margin for the curvature of c within a step.
+/// See `crossing_suspected`: a margin for the curvature of c within a step.
 pub const SECANT_RATIO: f64 = 1.5;
 
 /// Arc-length steps allowed when re-walking one load step.
 const PROBE_MAX_STEPS: usize = 400;
-
-/// Steps and successive halvings allowed while stepping in the dead load.
-const DEAD_LOAD_MAX_STEPS: usize = 400;
-const DEAD_LOAD_HALVINGS: usize = 12;
 
 /// A load-control step whose displacement increment exceeds this multiple of
 /// the previous one (scaled by the load increments) is taken as a jump to a
@@ -1454,137 +866,6 @@ fn dot_dist(a: &[f64], b: &[f64]) -> f64 {
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
-
-/// δu_f = K⁻¹·f_ref with the current factor: the tangent direction of the path.
-/// The displacement increment expected for a load increment `inc` under load
-/// control. From the second step on: the last converged increment scaled by
-/// the ratio of the load increments, a secant (first-order extrapolation)
-/// predictor that costs nothing; its error is of the order of the path's
-/// curvature times the step squared, where keeping the last state (no
-/// predictor) errs by the whole increment. On the first step: the tangent
-/// solution K⁻¹·f_ref·inc with the factor of the start state, one solve.
-/// Either way only the corrector's starting point changes, not the state it
-/// converges to.
-fn load_predictor(sys: &System, ws: &mut Workspace, inc: f64, last_u: &[f64], last_lambda: f64) -> Vec<f64> {
-    if last_u.is_empty() || last_lambda == 0.0 {
-        let mut du = tangent_direction(sys, ws);
-        du.iter_mut().for_each(|d| *d *= inc);
-        return du;
-    }
-    let ratio = inc / last_lambda;
-    last_u.iter().map(|d| ratio * d).collect()
-}
-
-fn tangent_direction(sys: &System, ws: &mut Workspace) -> Vec<f64> {
-    let mut du_f = sys.f_ref.clone();
-    ws.h.apply(&mut du_f);
-    du_f
-}
-
-/// Iterations a step should take; the next step length is scaled by the
-/// square root of desired over actual (Crisfield 1981), within bounds.
-pub const DESIRED_ITERATIONS: f64 = 4.0;
-
-/// The size of the next step (a load increment, a displacement increment or
-/// an arc length) and its adaptation.
-struct Stepper {
-    /// Current step size.
-    size: f64,
-    /// Smallest size allowed: the nominal size halved `max_cutbacks` times.
-    min_size: f64,
-    /// Largest size allowed.
-    max_size: f64,
-    adaptive: bool,
-    successes_since_cut: usize,
-    nominal: f64,
-    control_dof: Option<usize>,
-    normal_plane: bool,
-    /// Arc-length: the tangent displacement of the whole way from the start
-    /// to the target, ‖K⁻¹f‖·|target − λ₀| (infinite otherwise). A first
-    /// step longer than that overshoots the target in the predictor and can
-    /// hand the corrector a cylinder that meets the path only behind the
-    /// start (a stiff start with a soft reverse branch, such as stays that
-    /// go slack under uplift); it is retried at this length.
-    first_cap: f64,
-    /// No step has converged yet.
-    on_first: bool,
-    /// The factor of the smallest step, 2^−max_cutbacks.
-    cut: f64,
-}
-
-impl Stepper {
-    fn new(a: &crate::model::Analysis, sys: &System, ws: &mut Workspace) -> Stepper {
-        let control_dof = a.point.and_then(|p| sys.dofs.dof(p.node, p.axis.index()));
-        let mut first_cap = f64::INFINITY;
-        let nominal = match a.control {
-            Control::Load => (a.target - a.start_load_factor) / a.steps.max(1) as f64,
-            Control::Displacement => a.target / a.steps.max(1) as f64,
-            Control::ArcLength => {
-                // No arc given: the displacement of the first load increment
-                // along the tangent. The cap of a failed first step: see
-                // `first_cap`.
-                let du_f = tangent_direction(sys, ws);
-                let tangent = dot(&du_f, &du_f).sqrt();
-                first_cap = (a.target - a.start_load_factor).abs() * tangent;
-                a.arc.unwrap_or((a.target / a.steps.max(1) as f64).abs() * tangent)
-            }
-        };
-        let cut = 0.5f64.powi(a.max_cutbacks as i32);
-        Stepper {
-            size: nominal,
-            first_cap: if first_cap > 0.0 && first_cap.is_finite() { first_cap } else { f64::INFINITY },
-            on_first: true,
-            cut,
-            min_size: nominal.abs() * cut * (1.0 - 1e-12),
-            max_size: if a.control == Control::ArcLength { 2.0 * nominal.abs() } else { nominal.abs() },
-            adaptive: a.control == Control::ArcLength,
-            successes_since_cut: 0,
-            nominal,
-            control_dof,
-            normal_plane: a.arc_variant_normal_plane,
-        }
-    }
-
-    /// The next increment, shortened so as not to step past the target when
-    /// `remaining` is left to go.
-    fn towards(&self, remaining: f64) -> f64 {
-        if self.size.abs() >= remaining.abs() * (1.0 - 1e-12) { remaining } else { self.size }
-    }
-
-    /// Halves the step; false when it would fall below the smallest size.
-    /// A first arc-length step that failed (or converged behind the start)
-    /// and is longer than the tangent displacement of the whole way to the
-    /// target is retried at that length instead, and may be halved from
-    /// there as often as any step.
-    fn cut_back(&mut self) -> bool {
-        self.successes_since_cut = 0;
-        if self.on_first && 0.5 * self.size.abs() > self.first_cap {
-            self.size = self.first_cap * self.size.signum();
-            self.min_size = self.min_size.min(self.first_cap * self.cut * (1.0 - 1e-12));
-            return true;
-        }
-        let next = 0.5 * self.size;
-        if next.abs() < self.min_size {
-            return false;
-        }
-        self.size = next;
-        true
-    }
-
-    fn converged(&mut self, iterations: usize) {
-        self.on_first = false;
-        self.successes_since_cut += 1;
-        if self.adaptive {
-            let ratio = (DESIRED_ITERATIONS / iterations.max(1) as f64).sqrt().clamp(0.5, 2.0);
-            let next = (self.size * ratio).abs().clamp(self.min_size, self.max_size);
-            self.size = next * self.size.signum();
-        } else if self.successes_since_cut >= 2 && self.size.abs() < self.nominal.abs() {
-            // Regrow a halved step after two good steps.
-            self.size = (2.0 * self.size).abs().min(self.nominal.abs()) * self.nominal.signum();
-            self.successes_since_cut = 0;
-        }
-    }
 }
 
 fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {

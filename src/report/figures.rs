@@ -9,7 +9,7 @@
 use super::plot::{self, fieldmap, ColourBy, ShapeInput, ShapeOptions};
 use crate::assembly::System;
 use crate::model::Model;
-use crate::path::{CriticalKind, Path};
+use crate::path::{CriticalKind, EquilibriumPath};
 use crate::report::numbers::sig4;
 use crate::results::{MemberOut, Results};
 
@@ -108,7 +108,7 @@ fn has_plan(model: &Model) -> bool {
 pub fn solve_plots(
     m: &Model,
     system: &System,
-    path: &Path,
+    path: &EquilibriumPath,
     res: &Results,
     members: &[MemberOut],
     opts: &FigureOptions,

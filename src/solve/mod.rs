@@ -29,7 +29,7 @@ pub use inverse::InverseTangent;
 
 use crate::assembly::System;
 use crate::model::Method;
-use crate::observe::{Control, IterEvent, Observer};
+use crate::observe::{Answer, IterEvent, Observer};
 
 /// When the tangent is refactored.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -308,8 +308,8 @@ impl State {
 /// Buffers reused across iterations and steps: nothing is allocated per
 /// iteration (pair slots are allocated once, the slack sets only grow).
 pub struct Workspace {
-    pub k_values: Vec<f64>,
-    pub h: InverseTangent,
+    k_values: Vec<f64>,
+    h: InverseTangent,
     du_r: Vec<f64>,
     du_f: Vec<f64>,
     trial_u: Vec<f64>,
@@ -331,10 +331,66 @@ pub struct Workspace {
     memory_key: u64,
     /// The factor in `h` is of the tangent at the last converged state, so a
     /// new step may start from it without refactoring.
-    pub fresh: bool,
+    fresh: bool,
 }
 
 impl Workspace {
+    /// Evaluates residual and tangent at `state` and factorizes; returns the
+    /// zero-pivot DOFs if the tangent is singular. For the quasi-Newton
+    /// correctors the slack set at K₀ is kept (slack-aware restarts).
+    pub fn refactor_at(&mut self, system: &System, state: &mut State, rec: &mut StepRecord) -> Option<Vec<usize>> {
+            let ws = self;
+        let norms = system.residual_and_tangent(&state.u, state.lambda, &mut state.r, &mut state.reactions, &mut ws.k_values);
+        state.relative_residual = system.relative_residual(norms);
+        rec.residual_evaluations += 1;
+        rec.factorizations += 1;
+        rec.refactored_at.push(rec.iterations);
+        ws.k0_slack_key = norms.slack_key;
+        ws.memory_key = norms.slack_key;
+        if ws.h.method != Method::Newton && norms.slack > 0 {
+            system.slack_members_into(&state.u, &mut ws.k0_slack);
+        } else {
+            ws.k0_slack.clear();
+        }
+        let inertia = ws.h.refactor(&system.pattern, &ws.k_values);
+        inertia.is_singular().then(|| inertia.zero_dofs.clone())
+    }
+
+    /// Negative pivots of the latest factorization: the number of negative
+    /// eigenvalues of that tangent (Sylvester's law of inertia).
+    pub fn negative_pivots(&self) -> usize {
+        self.h.inertia.negative
+    }
+
+    /// Whether the factor is of the tangent at the last converged state, so
+    /// that a new step may start from it without refactoring.
+    pub fn factor_is_fresh(&self) -> bool {
+        self.fresh
+    }
+
+    /// Records whether the factor is of the tangent at the last converged
+    /// state (the path knows, after a refactorization or a restore).
+    pub fn set_factor_fresh(&mut self, fresh: bool) {
+        self.fresh = fresh;
+    }
+
+    /// Whether the factor holds a usable numeric factorization.
+    pub fn is_factored(&self) -> bool {
+        self.h.ldlt.is_factored()
+    }
+
+    /// x ← H·x with the corrector's current inverse tangent.
+    pub fn apply_inverse(&mut self, x: &mut [f64]) {
+        self.h.apply(x);
+    }
+
+    /// The factor, handed out to be overwritten (eigenmodes of a tangent that
+    /// is not the converged state's): it is marked not fresh.
+    pub fn overwrite_factor(&mut self) -> &mut crate::linalg::Ldlt {
+        self.fresh = false;
+        &mut self.h.ldlt
+    }
+
     pub fn new(system: &System, n_nodes: usize, h: InverseTangent) -> Workspace {
         let n = system.n_free();
         Workspace {
@@ -396,26 +452,6 @@ fn trial_residual(system: &System, ws: &mut Workspace, state: &State, alpha: f64
     (system.relative_residual(norms), norms.slack_key)
 }
 
-/// Evaluates residual and tangent at `state` and factorizes; returns the
-/// zero-pivot DOFs if the tangent is singular. For the quasi-Newton
-/// correctors the slack set at K₀ is kept (slack-aware restarts).
-pub fn refactor_at(system: &System, ws: &mut Workspace, state: &mut State, rec: &mut StepRecord) -> Option<Vec<usize>> {
-    let norms = system.residual_and_tangent(&state.u, state.lambda, &mut state.r, &mut state.reactions, &mut ws.k_values);
-    state.relative_residual = system.relative_residual(norms);
-    rec.residual_evaluations += 1;
-    rec.factorizations += 1;
-    rec.refactored_at.push(rec.iterations);
-    ws.k0_slack_key = norms.slack_key;
-    ws.memory_key = norms.slack_key;
-    if ws.h.method != Method::Newton && norms.slack > 0 {
-        system.slack_members_into(&state.u, &mut ws.k0_slack);
-    } else {
-        ws.k0_slack.clear();
-    }
-    let inertia = ws.h.refactor(&system.pattern, &ws.k_values);
-    inertia.is_singular().then(|| inertia.zero_dofs.clone())
-}
-
 /// A quasi-Newton stall that comes within this factor of the residual at
 /// which the previous stall was answered by a refactorization means the
 /// refactorization did not buy a decade of progress: the step escalates to
@@ -437,9 +473,9 @@ const QN_DIVERGENCE: f64 = 1e3;
 /// 1. an iteration *stalls* when ‖r_new‖ > `stall_ratio`·‖r_old‖; the
 ///    first stall refactors K at the current state (`StallRefactor`);
 /// 2. a later stall refactors again only if the residual has fallen by
-///    [`REFRESH_GAIN`] (a decade) since the previous stall-refactor;
+///    `REFRESH_GAIN` (a decade) since the previous stall-refactor;
 ///    otherwise, or when the quasi-Newton iterations *diverge* (residual
-///    [`QN_DIVERGENCE`] times the predictor's, or not finite), use up their
+///    `QN_DIVERGENCE` times the predictor's, or not finite), use up their
 ///    `max_iterations`, or the path constraint has no solution, the step
 ///    goes on with full Newton iterations (`NewtonFallback`, a fresh tangent
 ///    every iteration), from the current state or, if that is worse than
@@ -526,7 +562,7 @@ pub fn drive(
             need_factor = true;
         }
         if need_factor {
-            if let Some(dofs) = refactor_at(system, ws, state, &mut rec) {
+            if let Some(dofs) = ws.refactor_at(system, state, &mut rec) {
                 rec.residual_history.push(state.relative_residual);
                 return (Termination::SingularTangent { dofs }, rec);
             }
@@ -781,7 +817,7 @@ pub fn drive(
             refactored: need_factor || escalate.is_some(),
             line_search_trials: trials,
         };
-        if observer.on_iteration(&ev) == Control::Stop {
+        if observer.on_iteration(&ev) == Answer::Stop {
             rec.residual_history.push(state.relative_residual);
             return (Termination::Stopped, rec);
         }

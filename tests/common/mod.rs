@@ -2,16 +2,16 @@
 #![allow(dead_code)]
 
 use tautline::assembly::System;
-use tautline::linalg::Ldlt;
 use tautline::model::{self, Method, Model};
 use tautline::observe::Silent;
-use tautline::path::{Path, Tracer};
-use tautline::solve::{CorrectorConfig, InverseTangent, StepRecord, Workspace};
+use tautline::path::EquilibriumPath;
+use tautline::solve::StepRecord;
+use tautline::Solver;
 
 pub struct Run {
     pub model: Model,
     pub system: System,
-    pub path: Path,
+    pub path: EquilibriumPath,
     pub wasted: StepRecord,
 }
 
@@ -27,16 +27,9 @@ pub fn model(text: &str) -> Model {
 pub fn trace(m: Model, method: Method) -> Run {
     let mut m = m;
     m.analysis.method = method;
-    let system = System::new(&m).expect("system builds");
-    let a = &m.analysis;
-    let corrector = CorrectorConfig::from_analysis(a);
-    let ldlt = Ldlt::new(&system.pattern, faer::Par::Seq).expect("symbolic analysis");
-    let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, m.n_nodes(), h);
-    let mut tracer = Tracer::new(&system, &m, corrector);
-    let path = tracer.run(&mut ws, &mut Silent);
-    let wasted = tracer.wasted.clone();
-    Run { model: m.clone(), system, path, wasted }
+    let solver = Solver::with_parallelism(&m, faer::Par::Seq).expect("model sets up");
+    let tautline::Run { system, path, wasted } = solver.trace(&mut Silent);
+    Run { model: m, system, path, wasted }
 }
 
 pub fn solve_text(text: &str) -> Run {

@@ -17,19 +17,17 @@
 //! `fields.csv` (`--keep-fields`, default "ends") as `solve` writes them.
 
 use crate::args::{BenchArgs, BenchCase, BenchRunArgs};
-use crate::run::Failure;
+use crate::shared::Failure;
 use std::io::Write;
 use std::path::Path;
 use std::time::Instant;
 use tautline::assembly::System;
 use tautline::generate::{Loading, NetOptions, saddle_net};
-use tautline::linalg::Ldlt;
 use tautline::model::{self, KeepFields, Method};
 use tautline::observe::Silent;
-use tautline::path::Tracer;
 use tautline::report::{self, Staged, fields::NodeLabels};
 use tautline::results;
-use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
+use tautline::{SetupError, Solver};
 
 /// Peak resident memory of this process, bytes (Linux; 0 elsewhere).
 fn peak_memory() -> u64 {
@@ -95,12 +93,13 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         m.analysis.refactor_each_step = false;
         m.analysis.stability_each_step = false;
     }
-    let system = System::new(&m).map_err(|e| Failure::BadInput(e.message))?;
-    let t_sym = Instant::now();
-    let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| Failure::Internal(e.into()))?;
-    let symbolic_s = t_sym.elapsed().as_secs_f64();
+    let mut solver = Solver::new(&m).map_err(|e| match e {
+        SetupError::Member(e) => Failure::BadInput(e.message),
+        SetupError::Factor(e) => Failure::Internal(e.into()),
+    })?;
+    let symbolic_s = solver.symbolic_seconds();
     // One numeric factorization of the initial tangent, timed alone.
-    let mut ldlt = ldlt;
+    let (system, ldlt) = solver.system_and_factor();
     let mut k = system.new_tangent_values();
     let u0 = vec![0.0; system.n_free()];
     let mut r = vec![0.0; system.n_free()];
@@ -130,17 +129,14 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     times.sort_by(f64::total_cmp);
     let substitution_s = times[1];
     ldlt.n_factorizations = 0;
+    let factor_nnz = ldlt.factor_nnz();
     let f0: Vec<f64> = system.member_results(&u0).iter().map(|r| r.force).collect();
 
-    let corrector = CorrectorConfig::from_analysis(&m.analysis);
-    let h = InverseTangent::new(method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, m.n_nodes(), h);
     let t0 = Instant::now();
-    let mut tracer = Tracer::new(&system, &m, corrector);
-    let path = tracer.run(&mut ws, &mut Silent);
+    let run = solver.trace(&mut Silent);
     let seconds = t0.elapsed().as_secs_f64();
+    let (system, path, w) = (&run.system, &run.path, &run.wasted);
     let (iters, facs, evals) = path.totals();
-    let w = &tracer.wasted;
     let f1 = system.member_results(&path.final_state.u);
     let max_change = f0
         .iter()
@@ -151,12 +147,12 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
     // Assembly and residual rates at the final state, where the members are
     // stretched as they are along the path.
     let u1 = &path.final_state.u;
-    let assembly_1 = assembly_time(&system, u1, m.n_nodes(), 1)?;
-    let assembly_2 = assembly_time(&system, u1, m.n_nodes(), 2)?;
+    let assembly_1 = assembly_time(system, u1, m.n_nodes(), 1)?;
+    let assembly_2 = assembly_time(system, u1, m.n_nodes(), 2)?;
     let residual_s = mean_time(|| {
         system.residual(u1, 1.0, &mut r, &mut react);
     });
-    let (json_s, json_bytes, fields_s, fields_bytes) = write_outputs(&m, &system, &path, &tracer.wasted, seconds, &a.u_out)?;
+    let (json_s, json_bytes, fields_s, fields_bytes) = write_outputs(&m, system, path, w, seconds, &a.u_out)?;
     let kept: Vec<String> = path.fields.iter().map(|f| f.step.to_string()).collect();
     let bytes: Vec<u8> = path.final_state.u.iter().flat_map(|v| v.to_le_bytes()).collect();
     std::fs::write(&a.u_out, bytes).map_err(|e| Failure::Internal(e.into()))?;
@@ -168,7 +164,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
          fields_rows={} fields_steps={} slack={} slack_events={}",
         system.n_free(),
         system.pattern.nnz(),
-        ws.h.ldlt.factor_nnz(),
+        factor_nnz,
         path.stop.name(),
         iters + w.iterations,
         facs + w.factorizations,
@@ -180,7 +176,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
         path.fields.len() * m.n_nodes(),
         kept.join(","),
         system.slack_members(&path.final_state.u).len(),
-        results::slack_events(&m, &path).len(),
+        results::slack_events(&m, path).len(),
     );
     Ok(0)
 }
@@ -192,7 +188,7 @@ pub fn bench_run(a: &BenchRunArgs) -> Result<u8, Failure> {
 fn write_outputs(
     m: &model::Model,
     system: &System,
-    path: &tautline::path::Path,
+    path: &tautline::path::EquilibriumPath,
     wasted: &tautline::solve::StepRecord,
     seconds: f64,
     u_out: &Path,

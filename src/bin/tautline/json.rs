@@ -2,7 +2,7 @@
 //! JSON object on stdout, for scripts. The exit code is the same as in text
 //! mode and is repeated in the object.
 
-use crate::run::{Counts, Failure};
+use crate::shared::{Counts, Failure};
 use serde_json::{Value, json};
 use tautline::model::{Diagnostic, Model};
 use tautline::results::Results;

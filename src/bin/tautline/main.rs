@@ -7,6 +7,7 @@ mod json;
 mod progress;
 mod relax;
 mod run;
+mod shared;
 mod threads;
 
 use clap::Parser;
@@ -72,7 +73,7 @@ fn run_cli() -> ExitCode {
             println!("{}", json::failure(&failure, code));
             code
         }
-        Err(run::Failure::BadInput(msg)) => {
+        Err(shared::Failure::BadInput(msg)) => {
             // The same "error: …" start as a model file's problems.
             if msg.starts_with("error:") {
                 eprintln!("{msg}");
@@ -84,7 +85,7 @@ fn run_cli() -> ExitCode {
             }
             exit::BAD_INPUT
         }
-        Err(run::Failure::Model(errors)) => {
+        Err(shared::Failure::Model(errors)) => {
             let msg = errors.to_string();
             eprintln!("{msg}");
             if !msg.contains("nothing was written") {
@@ -92,7 +93,7 @@ fn run_cli() -> ExitCode {
             }
             exit::BAD_INPUT
         }
-        Err(run::Failure::Internal(e)) => {
+        Err(shared::Failure::Internal(e)) => {
             eprintln!("internal error: {e:#}");
             exit::INTERNAL
         }

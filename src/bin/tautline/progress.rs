@@ -6,7 +6,7 @@
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use tautline::model::{Analysis, Control};
-use tautline::observe::{Control as Answer, IterEvent, Observer, StepEvent};
+use tautline::observe::{Answer, IterEvent, Observer, StepEvent};
 
 /// Bar positions per whole run.
 const TICKS: u64 = 1000;

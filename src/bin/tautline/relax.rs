@@ -2,7 +2,7 @@
 //! an independent check of `solve` on the same model.
 
 use crate::exit;
-use crate::run::{Failure, load, prepare_out_dir};
+use crate::shared::{Failure, load, prepare_out_dir};
 use std::path::Path;
 use tautline::assembly::System;
 use tautline::form::relax::{RelaxConfig, RelaxStop, Relaxation};

@@ -2,46 +2,24 @@
 
 use crate::args::{Cli, Command, Format, Generate, Overrides};
 use crate::exit;
+use crate::shared::{Counts, Failure, load, prepare_out_dir};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 use tautline::assembly::System;
-use tautline::linalg::Ldlt;
 use tautline::model::validate::MAX_STEPS;
-use tautline::model::{self, Axis, Control, KeepFields, MemberKind, Method, Model, NodeDir, StrainMeasure};
+use tautline::model::{self, Axis, Control, KeepFields, Method, Model, NodeDir, StrainMeasure};
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
-use tautline::observe::{Control as Answer, IterEvent, Observer, StepEvent};
-use tautline::path::{StopReason, Tracer};
+use tautline::observe::{Answer, IterEvent, Observer, StepEvent};
+use tautline::path::StopReason;
+use tautline::{SetupError, Solver};
 use tautline::results::{self, CAUTION};
-use tautline::solve::{CorrectorConfig, InverseTangent, Workspace};
 use tautline::report;
 
 /// The embedded demo model.
 const DEMO_NAME: &str = "courtyard_net.toml (embedded demo)";
 const DEMO_MODEL: &str = include_str!("../../../models/courtyard_net.toml");
 
-pub enum Failure {
-    /// The input is wrong: exit 2, nothing written.
-    BadInput(String),
-    /// The model file is wrong (every problem found): exit 2, nothing written.
-    Model(model::ModelErrors),
-    Internal(anyhow::Error),
-}
-
-impl Failure {
-    pub fn exit_code(&self) -> u8 {
-        match self {
-            Failure::BadInput(_) | Failure::Model(_) => exit::BAD_INPUT,
-            Failure::Internal(_) => exit::INTERNAL,
-        }
-    }
-}
-
-impl From<anyhow::Error> for Failure {
-    fn from(e: anyhow::Error) -> Self {
-        Failure::Internal(e)
-    }
-}
 
 pub fn run(cli: Cli) -> Result<u8, Failure> {
     let quiet = cli.quiet;
@@ -111,17 +89,6 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
     }
 }
 
-/// Loads a model; in text mode its warnings go to stderr (JSON output
-/// carries them in the summary).
-pub(crate) fn load(path: &Path, format: Format) -> Result<Model, Failure> {
-    let m = model::load(path).map_err(Failure::Model)?;
-    if format == Format::Text {
-        for w in &m.warnings {
-            eprintln!("warning: {w}");
-        }
-    }
-    Ok(m)
-}
 
 /// A command-line value that is not one of `names`, in the style of the
 /// model file's errors: the value, then a help line with the nearest name
@@ -347,38 +314,6 @@ fn force_density_warning(m: &Model) -> Option<String> {
     ))
 }
 
-/// What `check` reports about a model.
-pub struct Counts {
-    pub nodes: usize,
-    pub supported: usize,
-    pub fixed: usize,
-    pub members: usize,
-    pub bars: usize,
-    pub cables: usize,
-    pub catenaries: usize,
-    pub springs: usize,
-    pub loads: usize,
-    pub free_dofs: usize,
-}
-
-impl Counts {
-    pub fn of(m: &Model) -> Counts {
-        let bars = m.members.iter().filter(|x| x.kind == MemberKind::Bar).count();
-        let catenaries = m.members.iter().filter(|x| x.kind == MemberKind::Catenary).count();
-        Counts {
-            nodes: m.n_nodes(),
-            supported: m.nodes.iter().filter(|n| n.fixed.iter().any(|f| *f)).count(),
-            fixed: m.n_fixed(),
-            members: m.n_members(),
-            bars,
-            cables: m.n_members() - bars - catenaries,
-            catenaries,
-            springs: m.springs.len(),
-            loads: m.loads.len(),
-            free_dofs: 3 * m.n_nodes() - m.n_fixed(),
-        }
-    }
-}
 
 fn print_summary(m: &Model) {
     let u = m.units;
@@ -414,39 +349,6 @@ fn print_summary(m: &Model) {
     println!("model is valid");
 }
 
-/// The model file named in an existing `DIR/results.json`, if any.
-fn previous_model(out: &Path) -> Option<String> {
-    let text = std::fs::read_to_string(out.join("results.json")).ok()?;
-    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
-    v.get("model_file")?.as_str().map(str::to_string)
-}
-
-pub(crate) fn prepare_out_dir(out: &Path, model_path: Option<&Path>, this_model: &str, force: bool) -> Result<(), Failure> {
-    if !force {
-        if let Some(prev) = previous_model(out) {
-            if prev != this_model {
-                return Err(Failure::BadInput(format!(
-                    "{}: holds the results of another model ({prev}); choose another -o DIR or pass --force to overwrite them",
-                    out.display()
-                )));
-            }
-        }
-    }
-    if out.exists() && !out.is_dir() {
-        return Err(Failure::BadInput(format!(
-            "{}: the output path exists and is not a folder; choose another -o DIR",
-            out.display()
-        )));
-    }
-    if let Some(mp) = model_path {
-        if mp.canonicalize().ok() == out.canonicalize().ok() {
-            return Err(Failure::BadInput("the output folder may not be the model file".into()));
-        }
-    }
-    std::fs::create_dir_all(out).map_err(|e| {
-        Failure::BadInput(format!("{}: cannot create the output folder: {e}", out.display()))
-    })
-}
 
 /// What `solve` prints and writes besides the standard files.
 #[derive(Clone)]
@@ -482,23 +384,21 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         Some((model, seed)) => (model, Some(seed.clone())),
         None => (m, None),
     };
-    let system = System::new(m).map_err(|e| {
-        Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
+    let solver = Solver::new(m).map_err(|e| match e {
+        SetupError::Member(e) => {
+            Failure::BadInput(format!("member \"{}\": {}; change the prestress or the section", e.member, e.message))
+        }
+        SetupError::Factor(e) => Failure::Internal(e.into()),
     })?;
-    if system.n_free() == 0 {
+    if solver.system().n_free() == 0 {
         return Err(Failure::BadInput("the model has no free degree of freedom".into()));
     }
     prepare_out_dir(out, model_path, &m.files[0], force)?;
     let started = Instant::now();
     let a = &m.analysis;
-    let ldlt = Ldlt::new(&system.pattern, faer::get_global_parallelism()).map_err(|e| Failure::Internal(e.into()))?;
-    let corrector = CorrectorConfig::from_analysis(a);
-    let h = InverseTangent::new(a.method, ldlt, corrector.refactor.max_updates);
-    let mut ws = Workspace::new(&system, m.n_nodes(), h);
-    let mut tracer = Tracer::new(&system, m, corrector);
     let mut interrupt = Interrupt::install();
     let mut progress = crate::progress::Progress::new(a, quiet, &mut interrupt);
-    let mut path = tracer.run(&mut ws, &mut progress);
+    let tautline::Run { system, mut path, wasted } = solver.trace(&mut progress);
     progress.finish();
     path.imperfection = seed;
     // A `switch_mode` larger than the multiplicity of the point met is bad
@@ -512,7 +412,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         )));
     }
     let seconds = started.elapsed().as_secs_f64();
-    let res = results::build(m, &system, &path, &tracer.wasted, seconds);
+    let res = results::build(m, &system, &path, &wasted, seconds);
     let members = results::members(m, &system, &path);
     // Warnings an engineer needs besides the numbers: force densities the
     // run ignored, members over capacity, strains no steel takes.
