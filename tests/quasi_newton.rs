@@ -108,7 +108,7 @@ fn divergence_guard_refactors_a_stale_tangent() {
         let a = &mut m.analysis;
         a.control = tautline::model::Control::Load;
         a.steps = 1;
-        a.target = 0.9 * 3.7894625; // λ: reference load is 1000 kN
+        a.target = 0.9 * tautline::verify::ARCH.limit(false).0 / 1.0e6; // λ: reference load is 1000 kN
         a.max_cutbacks = 0;
         a.max_iterations = 40;
         // Modified Newton contracts here by about 0.7 per iteration: a guard
@@ -126,7 +126,7 @@ fn divergence_guard_refactors_a_stale_tangent() {
     let mut m = tautline::model::load_str(&text, "roof_arch.toml", None).unwrap();
     let a = &mut m.analysis;
     (a.control, a.steps, a.target, a.max_cutbacks, a.max_iterations) =
-        (tautline::model::Control::Load, 1, 0.9 * 3.7894625, 0, 40);
+        (tautline::model::Control::Load, 1, 0.9 * tautline::verify::ARCH.limit(false).0 / 1.0e6, 0, 40);
     a.stall_ratio = 1.0e9;
     a.refactor_after = 1000;
     let rescued = trace(m, Method::ModifiedNewton);

@@ -340,14 +340,43 @@ fn verify_passes_and_cites_a_source_for_every_case() {
     assert_eq!(code, 2, "{stderr}");
 }
 
-/// The library's cases fail when the computed value is off: a case with a
-/// missing value (NaN) never passes.
+/// Every library case passes on this machine (the failure path, a wrong
+/// value and a NaN failing their case, is unit-tested in `src/verify/tests.rs`
+/// and end to end below).
 #[test]
 fn verify_cases_each_pass_in_the_library() {
     for case in tautline::verify::run_all() {
         assert!(case.pass, "{case:?}");
         assert!(case.relative_error <= case.tolerance && case.computed.is_finite());
     }
+}
+
+/// `tautline verify` with one case made wrong (computed × 1.01) or NaN
+/// through `TAUTLINE_VERIFY_FAULT`: exit 4, the case shown as FAIL, one
+/// case fewer passing, and `pass: false` in the JSON. A misspelt spec
+/// fails too.
+#[test]
+fn verify_reports_a_wrong_or_nan_value_with_exit_4() {
+    let n = tautline::verify::CASES.len();
+    let case = "two-bar arch, engineering strain";
+    let run = |spec: &str, format: &str| {
+        let out = Command::new(BIN).args(["verify", "--format", format]).env(tautline::verify::FAULT_VAR, spec).output().expect("run tautline");
+        (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stdout).into_owned())
+    };
+    for fault in ["wrong", "nan"] {
+        let (code, stdout) = run(&format!("{case}={fault}"), "text");
+        assert_eq!(code, 4, "{fault}: {stdout}");
+        assert!(stdout.contains(&format!("{} of {n} cases pass", n - 1)), "{fault}: {stdout}");
+        let row = stdout.lines().find(|l| l.starts_with(case)).expect("the case's row");
+        assert!(row.contains("FAIL") && row.contains(tautline::verify::FAULT_VAR), "{fault}: {row}");
+        let (code, json) = run(&format!("{case}={fault}"), "json");
+        assert_eq!(code, 4);
+        let v: Value = serde_json::from_str(&json).expect("json");
+        let failed: Vec<&str> = v.as_array().unwrap().iter().filter(|c| c["pass"] == false).map(|c| c["name"].as_str().unwrap()).collect();
+        assert_eq!(failed, [case], "{fault}");
+    }
+    let (code, stdout) = run("no such case=wrong", "text");
+    assert_eq!(code, 4, "{stdout}");
 }
 
 /// `--png`: each plot also as a PNG of the SVG's pixel size, decodable and
