@@ -12,3 +12,4 @@ pub mod report;
 pub mod form;
 pub mod verify;
 pub mod screen;
+pub mod csv;
