@@ -166,8 +166,8 @@ fn chain_errors(one: &Run, n: usize, h0: f64, v0: f64) -> [f64; 4] {
     let signed = |a: f64, b: f64| (a - b) / b.abs();
     [
         signed(ux2, ux1),
-        signed(reaction(&chain, "A", 0), reaction(&one, "A", 0)),
-        signed(reaction(&chain, "A", 2), reaction(&one, "A", 2)),
+        signed(reaction(&chain, "A", 0), reaction(one, "A", 0)),
+        signed(reaction(&chain, "A", 2), reaction(one, "A", 2)),
         signed(sag, sag_ref),
     ]
 }

@@ -66,7 +66,7 @@ fn broyden_is_superlinear_modified_newton_linear() {
 /// round-off by iteration 2n, and not yet after one iteration.
 #[test]
 fn broyden_good_terminates_within_2n_on_linear_system() {
-    let a = vec![
+    let a = [
         vec![4.0, 1.0, 0.5, 0.0],
         vec![1.0, 3.0, 0.2, 0.3],
         vec![0.5, 0.2, 5.0, 1.0],

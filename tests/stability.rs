@@ -135,8 +135,7 @@ fn dome_first_critical_load_is_independent_of_arc_and_corrector() {
         let mut m = model(&text);
         m.analysis.max_displacement = Some(2.5);
         let run = trace(m, method);
-        let c = run.path.critical.first().unwrap_or_else(|| panic!("{method:?} arc {arc}: no critical point, {:?}", run.path.stop)).clone();
-        c
+        run.path.critical.first().unwrap_or_else(|| panic!("{method:?} arc {arc}: no critical point, {:?}", run.path.stop)).clone()
     };
     let reference = first(0.05, Method::Newton);
     assert!(reference.lambda > 0.0);
