@@ -82,3 +82,4 @@ pub mod screen;
 pub mod solver;
 
 pub use solver::{Run, SetupError, Solver};
+pub mod csv;

@@ -33,7 +33,10 @@ pub struct Case {
 }
 
 impl Case {
-    fn new(name: &str, source: &str, quantity: &str, unit: &str, reference: f64, computed: Result<f64, String>, tolerance: f64) -> Case {
+    /// Compares a computed value (or the error that kept the run from one)
+    /// with its reference: relative error against the tolerance. A missing
+    /// or NaN value fails.
+    pub fn new(name: &str, source: &str, quantity: &str, unit: &str, reference: f64, computed: Result<f64, String>, tolerance: f64) -> Case {
         let (computed, note) = match computed {
             Ok(v) => (v, None),
             Err(e) => (f64::NAN, Some(e)),
@@ -72,13 +75,62 @@ pub const CASES: &[fn() -> Case] = &[
     snap_back_turning_point,
 ];
 
-/// Runs every case.
+/// The variable that makes one case fail on purpose, to test the failure
+/// path of `tautline verify` end to end: `<case name>=wrong` multiplies its
+/// computed value by 1.01, `<case name>=nan` replaces it with NaN. The case
+/// is marked as injected in its note, so a table made this way says so.
+pub const FAULT_VAR: &str = "TAUTLINE_VERIFY_FAULT";
+
+/// Runs every case (with the fault of [`FAULT_VAR`] applied, if set).
 pub fn run_all() -> Vec<Case> {
-    CASES.iter().map(|case| case()).collect()
+    let mut cases: Vec<Case> = CASES.iter().map(|case| case()).collect();
+    if let Ok(spec) = std::env::var(FAULT_VAR) {
+        inject_fault(&mut cases, &spec);
+    }
+    cases
 }
 
-const SOURCE_ARCH: &str = "Z. P. Bazant, L. Cedolin, Stability of Structures, 1991, sec. 4.4, eq. 4.4.5";
-const SOURCE_ARCH_GREEN: &str = "Z. P. Bazant, L. Cedolin, Stability of Structures, 1991, sec. 4.4 (crown equilibrium; Green-Lagrange limit derived from dP/dz = 0)";
+/// Whether every case passed: the exit status of `tautline verify`.
+pub fn all_pass(cases: &[Case]) -> bool {
+    cases.iter().all(|c| c.pass)
+}
+
+/// Applies a [`FAULT_VAR`] spec to `cases`. A spec naming no case or no
+/// known fault adds a failing case saying so: a mistyped spec never lets a
+/// run pass unnoticed.
+pub fn inject_fault(cases: &mut Vec<Case>, spec: &str) {
+    let (name, fault) = spec.rsplit_once('=').unwrap_or((spec, ""));
+    let value = |c: &Case| match fault {
+        "wrong" => Some(Ok(c.computed * 1.01)),
+        "nan" => Some(Ok(f64::NAN)),
+        _ => None,
+    };
+    let hit = cases.iter().position(|c| c.name == name);
+    match hit.and_then(|i| value(&cases[i]).map(|v| (i, v))) {
+        Some((i, v)) => {
+            let c = &cases[i];
+            let mut faulty = Case::new(&c.name, &c.source, &c.quantity, &c.unit, c.reference, v, c.tolerance);
+            faulty.note = Some(format!("fault injected by {FAULT_VAR}"));
+            cases[i] = faulty;
+        }
+        None => cases.push(Case::new(
+            FAULT_VAR,
+            "-",
+            "fault spec",
+            "-",
+            0.0,
+            Err(format!("'{spec}' names no case or no fault; use <case name>=wrong or <case name>=nan")),
+            0.0,
+        )),
+    }
+}
+
+const SOURCE_ARCH: &str = "Z. P. Bazant, L. Cedolin, Stability of Structures, 1st ed., Oxford University Press, 1991, sec. 4.4, eq. 4.4.5";
+const SOURCE_ARCH_GREEN: &str = "derived: Green-Lagrange crown equilibrium P = EA z (h^2 - z^2)/l0^3, limit where dP/dz = 0; \
+     the arch of Z. P. Bazant, L. Cedolin, Stability of Structures, 1st ed., Oxford University Press, 1991, sec. 4.4";
+
+#[cfg(test)]
+mod tests;
 
 // ---------------------------------------------------------------- closed forms
 
@@ -356,8 +408,8 @@ fn pretensioned_cable_deflection() -> Case {
 
 /// A statically determinate plane truss: A(0,0) pinned, B(3,0), C(6,0) on a
 /// roller, D(3,4); P = 1 N down at B. Joints B and D give BD = P,
-/// AD = DC = −5P/8, joint A gives AB = BC = 3P/8 (R. C. Hibbeler,
-/// Engineering Mechanics: Statics, ch. 6, method of joints). EA = 1e9 N keeps
+/// AD = DC = −5P/8, joint A gives AB = BC = 3P/8 (derived by the method of
+/// joints, worked here; common practice, no source). EA = 1e9 N keeps
 /// strains near 1e-9, so geometric effects stay far below 1e-6.
 pub const DETERMINATE_TRUSS: &str = r#"title = "determinate truss"
 [[section]]
@@ -551,7 +603,7 @@ fn determinate_truss_force() -> Case {
     });
     Case::new(
         "determinate plane truss",
-        "R. C. Hibbeler, Engineering Mechanics: Statics, ch. 6, method of joints",
+        "derived (method of joints at B, D and A: BD = P, AD = DC = -5P/8, AB = BC = 3P/8)",
         "force in diagonal AD (-5P/8)",
         "N",
         -5.0 / 8.0,
@@ -636,6 +688,10 @@ fn snap_back_limit() -> Case {
 /// and pulled by H in x: the solver must find B in place with A's vertical
 /// reaction equal to V. The geometry is computed forward from the published
 /// equations, so no root finder stands between the reference and the check.
+/// It is a round trip: the element solves the same equations backwards, so
+/// the case checks the solver's handling of the element and its reactions,
+/// not Irvine's equations themselves (tests/catenary.rs checks the element
+/// against a separate root finder and a bar chain).
 fn elastic_catenary_support_force() -> Case {
     let (l0, ea, w, hh, v) = (100.0, 2.0e7, 50.0, 2.0e4, 3500.0);
     let (span, rise) = irvine_span_rise(hh, v, l0, ea, w);
@@ -655,7 +711,9 @@ fn elastic_catenary_support_force() -> Case {
     });
     Case::new(
         "elastic catenary stay, one member",
-        "H. M. Irvine, Cable Structures, MIT Press, 1981, ch. 1 (elastic catenary: span and rise from the end forces)",
+        "round trip of the element's own equations: B placed by Irvine's span and rise for chosen end forces, \
+         which the catenary element inverts (H. M. Irvine, Cable Structures, 1st ed., MIT Press, 1981, ch. 1); \
+         checks the solve and the reaction, not the equations",
         "vertical support force at the lower end",
         "N",
         v,

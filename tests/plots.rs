@@ -33,8 +33,7 @@ fn check_well_formed(s: &str) -> Result<usize, String> {
     let mut elements = 0;
     let mut rest = s;
     let check_text = |t: &str| -> Result<(), String> {
-        let mut it = t.match_indices('&');
-        while let Some((i, _)) = it.next() {
+        for (i, _) in t.match_indices('&') {
             let tail = &t[i..];
             if !["&amp;", "&lt;", "&gt;", "&quot;", "&apos;", "&#"].iter().any(|e| tail.starts_with(e)) {
                 return Err(format!("bare '&' in {:?}", &tail[..tail.len().min(20)]));

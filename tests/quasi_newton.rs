@@ -32,21 +32,31 @@ fn residual_ratios(method: Method) -> Vec<f64> {
 /// Broyden's method converges q-superlinearly (C. G. Broyden, J. E. Dennis and
 /// J. J. Moré, "On the local and superlinear convergence of quasi-Newton
 /// methods", IMA J. Appl. Math. 12, 1973): the ratio of successive residuals
-/// (proportional to the errors near a regular solution) falls below 0.1 near
-/// the solution, while modified Newton, with the same first tangent, keeps a
-/// fixed linear rate above 0.05 (the contraction of I − K₀⁻¹K*).
+/// (proportional to the errors near a regular solution) tends to zero. On
+/// the whole ratio sequence, not one final ratio: after the first iteration
+/// each ratio is below half the one before (measured 0.34, 0.024, 0.0082,
+/// 2.0e-4, 1.3e-6), ending below 1e-3; BFGS the same. Modified Newton, with
+/// the same first tangent, converges linearly: after the first iteration
+/// every ratio lies within 5 % of one constant, the contraction of
+/// I − K₀⁻¹K* (measured 0.3076, spread under 4 %), and it takes more
+/// iterations.
 #[test]
 fn broyden_is_superlinear_modified_newton_linear() {
+    let superlinear = |name: &str, r: &[f64]| {
+        assert!(r.len() >= 3, "{name} ratios {r:?}");
+        assert!(r[1..].windows(2).all(|w| w[1] < 0.5 * w[0]), "{name}: ratios do not fall towards zero: {r:?}");
+        assert!(*r.last().unwrap() < 1e-3, "{name} ratios {r:?}");
+    };
     let broyden = residual_ratios(Method::Broyden);
-    let last = *broyden.last().unwrap();
-    assert!(last < 0.1, "Broyden ratios {broyden:?}");
-    let bfgs = residual_ratios(Method::Bfgs);
-    assert!(*bfgs.last().unwrap() < 0.1, "BFGS ratios {bfgs:?}");
+    superlinear("Broyden", &broyden);
+    superlinear("BFGS", &residual_ratios(Method::Bfgs));
     let mn = residual_ratios(Method::ModifiedNewton);
     assert!(mn.len() > broyden.len(), "modified Newton {} vs Broyden {} iterations", mn.len(), broyden.len());
-    // Skip the first ratios (far from the solution) and the very last (round-off).
-    let tail = &mn[2..mn.len() - 1];
-    assert!(tail.iter().all(|r| *r > 0.05 && *r < 1.0), "modified Newton ratios {mn:?}");
+    let mut sorted = mn[1..].to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let c = sorted[sorted.len() / 2];
+    assert!(c > 0.05 && c < 1.0, "modified Newton rate {c}");
+    assert!(mn[1..].iter().all(|r| (r / c - 1.0).abs() < 0.05), "modified Newton ratios not one constant {c}: {mn:?}");
 }
 
 /// On a linear n×n system, Broyden's good method terminates in at most 2n
@@ -56,7 +66,7 @@ fn broyden_is_superlinear_modified_newton_linear() {
 /// round-off by iteration 2n, and not yet after one iteration.
 #[test]
 fn broyden_good_terminates_within_2n_on_linear_system() {
-    let a = vec![
+    let a = [
         vec![4.0, 1.0, 0.5, 0.0],
         vec![1.0, 3.0, 0.2, 0.3],
         vec![0.5, 0.2, 5.0, 1.0],
@@ -108,7 +118,7 @@ fn divergence_guard_refactors_a_stale_tangent() {
         let a = &mut m.analysis;
         a.control = tautline::model::Control::Load;
         a.steps = 1;
-        a.target = 0.9 * 3.7894625; // λ: reference load is 1000 kN
+        a.target = 0.9 * tautline::verify::ARCH.limit(false).0 / 1.0e6; // λ: reference load is 1000 kN
         a.max_cutbacks = 0;
         a.max_iterations = 40;
         // Modified Newton contracts here by about 0.7 per iteration: a guard
@@ -126,7 +136,7 @@ fn divergence_guard_refactors_a_stale_tangent() {
     let mut m = tautline::model::load_str(&text, "roof_arch.toml", None).unwrap();
     let a = &mut m.analysis;
     (a.control, a.steps, a.target, a.max_cutbacks, a.max_iterations) =
-        (tautline::model::Control::Load, 1, 0.9 * 3.7894625, 0, 40);
+        (tautline::model::Control::Load, 1, 0.9 * tautline::verify::ARCH.limit(false).0 / 1.0e6, 0, 40);
     a.stall_ratio = 1.0e9;
     a.refactor_after = 1000;
     let rescued = trace(m, Method::ModifiedNewton);

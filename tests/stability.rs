@@ -29,6 +29,13 @@ fn star_dome() -> tautline::generate::Generated {
 
 const K: f64 = 2.0e6;
 
+/// The arch's limit load factor (1 MN per unit), engineering strain, from
+/// the one closed form in `verify` (Bažant & Cedolin 1991, eq. 4.4.5):
+/// p_lim().
+fn p_lim() -> f64 {
+    tautline::verify::ARCH.limit(false).0 / 1.0e6
+}
+
 /// Crown load of the two-bar arch, engineering strain (Bažant & Cedolin,
 /// *Stability of Structures*, 1991, §4.4; derived from crown equilibrium).
 fn arch_load(w: f64) -> f64 {
@@ -50,23 +57,23 @@ fn arch_load(w: f64) -> f64 {
 /// target λ.
 #[test]
 fn arc_length_traces_snap_back() {
-    let run = solve_text(&spring_arch("arc-length", 1.2 * 3.7894625, 10, "arc = 0.05"));
+    let run = solve_text(&spring_arch("arc-length", 1.2 * p_lim(), 10, "arc = 0.05"));
     assert_eq!(run.path.stop, StopReason::TargetReached, "{:?}", run.path.last_failure);
     let mut v_series = Vec::new();
     for pt in &run.path.points {
         let (v, w) = (-pt.watched[0], -pt.watched[1]);
         let p = pt.lambda * 1.0e6;
-        assert!((p - arch_load(w)).abs() < 1e-8 * 3.79e6, "w = {w}: {p} vs {}", arch_load(w));
+        assert!((p - arch_load(w)).abs() < 1e-8 * p_lim() * 1.0e6, "w = {w}: {p} vs {}", arch_load(w));
         assert!((v - w - p / K).abs() < 1e-8 * (p.abs() / K).max(1e-3), "spring compatibility at w = {w}");
         v_series.push(v);
     }
     let turns = v_series.windows(3).filter(|t| (t[1] - t[0]) * (t[2] - t[1]) < 0.0).count();
     assert!(turns >= 2, "the spring end should move down, back up, and down again: {v_series:?}");
     let last = run.path.points.last().unwrap();
-    assert!((last.lambda - 1.2 * 3.7894625).abs() < 1e-9 && -last.watched[1] > 2.0);
+    assert!((last.lambda - 1.2 * p_lim()).abs() < 1e-9 && -last.watched[1] > 2.0);
     let limits: Vec<f64> = run.path.critical.iter().filter(|c| c.kind == CriticalKind::Limit).map(|c| c.lambda).collect();
     assert_eq!(limits.len(), 2, "{:?}", run.path.critical);
-    assert!(rel_err(limits[0], 3.7894625, 1.0) < 1e-6 && rel_err(limits[1], -3.7894625, 1.0) < 1e-6, "{limits:?}");
+    assert!(rel_err(limits[0], p_lim(), 1.0) < 1e-6 && rel_err(limits[1], -p_lim(), 1.0) < 1e-6, "{limits:?}");
 }
 
 /// Load control cannot pass the limit point of the same system: it stops
@@ -75,12 +82,12 @@ fn arc_length_traces_snap_back() {
 /// last converged load below it and above 90 % of it.
 #[test]
 fn load_control_stops_at_the_snap_back_limit() {
-    let run = solve_text(&spring_arch("load", 1.2 * 3.7894625, 12, ""));
+    let run = solve_text(&spring_arch("load", 1.2 * p_lim(), 12, ""));
     assert_eq!(run.path.stop, StopReason::LimitPoint);
     let limit = run.path.critical.last().unwrap();
-    assert!(limit.kind == CriticalKind::Limit && limit.pinpointed && rel_err(limit.lambda, 3.7894625, 1.0) < 1e-6, "{limit:?}");
+    assert!(limit.kind == CriticalKind::Limit && limit.pinpointed && rel_err(limit.lambda, p_lim(), 1.0) < 1e-6, "{limit:?}");
     let last = run.path.points.last().unwrap().lambda;
-    assert!(last < 3.7894626 && last > 0.9 * 3.7894625, "last converged λ = {last}");
+    assert!(last < p_lim() && last > 0.9 * p_lim(), "last converged λ = {last}");
     let msg = tautline::results::stop_message(&run.model, &run.path);
     assert!(msg.contains("arc-length"), "{msg}");
 }
@@ -128,8 +135,7 @@ fn dome_first_critical_load_is_independent_of_arc_and_corrector() {
         let mut m = model(&text);
         m.analysis.max_displacement = Some(2.5);
         let run = trace(m, method);
-        let c = run.path.critical.first().unwrap_or_else(|| panic!("{method:?} arc {arc}: no critical point, {:?}", run.path.stop)).clone();
-        c
+        run.path.critical.first().unwrap_or_else(|| panic!("{method:?} arc {arc}: no critical point, {:?}", run.path.stop)).clone()
     };
     let reference = first(0.05, Method::Newton);
     assert!(reference.lambda > 0.0);
@@ -383,7 +389,7 @@ fn snap_back_turning_points_are_pinpointed() {
     let z = (l * l - b * b).sqrt();
     let p_turn = 2.0 * EA * (z / l - z / l0) / 1.0e6;
     for method in ALL_METHODS {
-        let mut m = model(&spring_arch("arc-length", 1.2 * 3.7894625, 10, "arc = 0.05"));
+        let mut m = model(&spring_arch("arc-length", 1.2 * p_lim(), 10, "arc = 0.05"));
         m.analysis.method = method;
         let run = trace(m, method);
         assert_eq!(run.path.stop, StopReason::TargetReached, "{method:?}");

@@ -246,7 +246,8 @@ impl Ldlt {
             let dof = self.original_index(j);
             let kjj = k_values[pattern.diag_slot[dof] as usize].abs();
             let scale = if kjj > ZERO_PIVOT_RATIO * max_diag { kjj } else { max_diag };
-            if !(dj.abs() > ZERO_PIVOT_RATIO * scale) {
+            // A NaN pivot counts as zero: only a clearly larger |d| is not.
+            if dj.abs().partial_cmp(&(ZERO_PIVOT_RATIO * scale)) != Some(std::cmp::Ordering::Greater) {
                 inertia.zero_dofs.push(dof);
             } else if dj < 0.0 {
                 inertia.negative += 1;

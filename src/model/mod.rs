@@ -613,8 +613,8 @@ impl Model {
     pub fn total_reference_load(&self) -> [f64; 3] {
         let mut t = [0.0; 3];
         for l in &self.loads {
-            for a in 0..3 {
-                t[a] += l.force[a];
+            for (t, f) in t.iter_mut().zip(l.force) {
+                *t += f;
             }
         }
         t

@@ -276,13 +276,7 @@ pub fn form_csv(model: &Model, form: &FormResult) -> String {
     s
 }
 
-fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
-}
+use crate::csv::field as csv_field;
 
 #[cfg(test)]
 mod tests {

@@ -96,9 +96,7 @@ pub fn path_csv(results: &Results) -> String {
     s
 }
 
-fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n']) { format!("\"{}\"", s.replace('"', "\"\"")) } else { s.to_string() }
-}
+use crate::csv::field as csv_field;
 
 /// `members.csv`: final force, strain, length, utilisation and slack flag.
 pub fn members_csv(members: &[MemberOut], force_unit: &str, length_unit: &str) -> String {

@@ -146,6 +146,8 @@ fn tick_label(v: f64, step: f64) -> String {
 }
 
 /// Draws the frame, grid, ticks and labels of a linear x–y chart.
+// Both axes' scale, ticks and label, as plain values (see `Svg::rect`).
+#[allow(clippy::too_many_arguments)]
 fn axes(svg: &mut Svg, f: Frame, x: &Scale, xt: &[f64], y: &Scale, yt: &[f64], xlabel: &str, ylabel: &str) {
     let xs = if xt.len() > 1 { xt[1] - xt[0] } else { 1.0 };
     let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };

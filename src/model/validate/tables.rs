@@ -634,7 +634,7 @@ mod tests {
 
 
     #[test]
-    fn large_csv_tables_read_quickly() {
+    fn large_csv_tables_read_in_full() {
         let dir = temp_dir();
         let n = 200_000;
         let mut nodes = String::from("id,x,y,z,fix\nA0,0,0,0,xyz\n");
@@ -646,12 +646,10 @@ mod tests {
         std::fs::write(dir.join("n.csv"), nodes).unwrap();
         std::fs::write(dir.join("m.csv"), members).unwrap();
         let text = "nodes_csv = \"n.csv\"\nmembers_csv = \"m.csv\"\n[[section]]\nname = \"s\"\nEA = 1.0\n[[load]]\nnode = \"A1\"\nforce = [0, 0, -1]\n";
-        let start = std::time::Instant::now();
+        // Not timed (no timed tests): reading speed is a `bench` matter.
         let m = load_str(text, "m.toml", Some(&dir)).unwrap_or_else(|e| panic!("{e}"));
-        let took = start.elapsed();
         assert_eq!((m.n_nodes(), m.n_members()), (n, n - 1));
         assert_eq!(m.members[n - 2].ends, [n - 2, n - 1]);
-        assert!(took.as_secs_f64() < 5.0, "took {took:?}");
         std::fs::remove_dir_all(&dir).ok();
     }
 

@@ -158,6 +158,9 @@ impl Svg {
         );
     }
 
+    // A drawing primitive takes its geometry and style as plain values:
+    // a struct for them would be built once per call and read once.
+    #[allow(clippy::too_many_arguments)]
     pub fn rect(&mut self, x: f64, y: f64, w: f64, h: f64, fill: &str, stroke: Option<Stroke>, class: &str) {
         let st = stroke.map(|s| s.attrs().replace(r#" fill="none""#, "")).unwrap_or_else(|| r#"stroke="none""#.into());
         let _ = writeln!(
@@ -215,6 +218,9 @@ impl Svg {
 
     /// A marker centred on (x, y), `r` its half size; hollow markers are
     /// filled with paper colour so they read as open shapes in print.
+    // A drawing primitive takes its geometry and style as plain values:
+    // a struct for them would be built once per call and read once.
+    #[allow(clippy::too_many_arguments)]
     pub fn marker(&mut self, shape: Shape, x: f64, y: f64, r: f64, color: &str, filled: bool, class: &str) {
         let fill = if filled { color } else { PAPER };
         let common = format!(
