@@ -814,13 +814,13 @@ struct StopAfter {
 }
 
 impl tautline::observe::Observer for StopAfter {
-    fn on_iteration(&mut self, _: &tautline::observe::IterEvent) -> tautline::observe::Control {
+    fn on_iteration(&mut self, _: &tautline::observe::IterEvent) -> tautline::observe::Answer {
         self.iterations += 1;
-        if self.iterations >= self.stop_at { tautline::observe::Control::Stop } else { tautline::observe::Control::Continue }
+        if self.iterations >= self.stop_at { tautline::observe::Answer::Stop } else { tautline::observe::Answer::Continue }
     }
-    fn on_step(&mut self, ev: &tautline::observe::StepEvent) -> tautline::observe::Control {
+    fn on_step(&mut self, ev: &tautline::observe::StepEvent) -> tautline::observe::Answer {
         self.steps.push((ev.step, ev.lambda));
-        tautline::observe::Control::Continue
+        tautline::observe::Answer::Continue
     }
 }
 
@@ -836,14 +836,9 @@ fn interrupted_solve_keeps_what_it_found() {
     let text = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("models/roof_arch.toml")).unwrap();
     let trace = |obs: &mut dyn tautline::observe::Observer| {
         let m = tautline::model::load_str(&text, "roof_arch.toml", None).expect("model");
-        let system = tautline::assembly::System::new(&m).expect("system");
-        let corrector = tautline::solve::CorrectorConfig::from_analysis(&m.analysis);
-        let ldlt = tautline::linalg::Ldlt::new(&system.pattern, faer::Par::Seq).expect("symbolic analysis");
-        let h = tautline::solve::InverseTangent::new(m.analysis.method, ldlt, corrector.refactor.max_updates);
-        let mut ws = tautline::solve::Workspace::new(&system, m.n_nodes(), h);
-        let mut tracer = tautline::path::Tracer::new(&system, &m, corrector);
-        let path = tracer.run(&mut ws, obs);
-        let results = tautline::results::build(&m, &system, &path, &tracer.wasted, 0.0);
+        let run = tautline::Solver::with_parallelism(&m, faer::Par::Seq).expect("setup").trace(obs);
+        let results = tautline::results::build(&m, &run.system, &run.path, &run.wasted, 0.0);
+        let path = run.path;
         (path, results)
     };
     let (full, _) = trace(&mut tautline::observe::Silent);
