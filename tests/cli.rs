@@ -934,14 +934,7 @@ fn slack_cables_are_reported_in_summary_and_results() {
     let dir = Scratch::new("slack_events");
     let model = dir.write(
         "slack.toml",
-        "[[section]]\nname = \"r\"\nEA = 1.0e5\n\
-         [[node]]\nid = \"A\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
-         [[node]]\nid = \"C\"\nat = [2.0, 0.0, 0.0]\nfix = \"yz\"\n\
-         [[node]]\nid = \"B\"\nat = [4.0, 0.0, 0.0]\nfix = \"xyz\"\n\
-         [[member]]\nid = \"left\"\nkind = \"cable\"\nends = [\"A\", \"C\"]\nsection = \"r\"\nprestress = 1000.0\n\
-         [[member]]\nid = \"right\"\nkind = \"cable\"\nends = [\"C\", \"B\"]\nsection = \"r\"\nprestress = 1000.0\n\
-         [[load]]\nnode = \"C\"\nforce = [4400.0, 0.0, 0.0]\n\
-         [analysis]\nstrain = \"engineering\"\nsteps = 10\n",
+        &crate::common::slackening_pair(""),
     );
     let out = dir.path("out");
     let r = solve(&model, &out, &[]);

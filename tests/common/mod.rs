@@ -50,3 +50,20 @@ pub const ALL_METHODS: [Method; 5] =
 /// pretension 1e4 N, engineering strain) with a 1000 N midspan load, in 4
 /// load steps at a relative tolerance of 1e-13.
 pub use tautline::verify::PRETENSIONED_CABLE;
+
+/// Two cables A–C–B on a line, prestressed to 1 kN, pulled sideways at C by
+/// 4.4 kN per unit load factor: the left cable goes slack during the path
+/// (invented for the tests). `watch` is the `[analysis]` line that follows
+/// the steps (empty for none).
+pub fn slackening_pair(watch: &str) -> String {
+    format!(
+        "[[section]]\nname = \"r\"\nEA = 1.0e5\n\
+         [[node]]\nid = \"A\"\nat = [0.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+         [[node]]\nid = \"C\"\nat = [2.0, 0.0, 0.0]\nfix = \"yz\"\n\
+         [[node]]\nid = \"B\"\nat = [4.0, 0.0, 0.0]\nfix = \"xyz\"\n\
+         [[member]]\nid = \"left\"\nkind = \"cable\"\nends = [\"A\", \"C\"]\nsection = \"r\"\nprestress = 1000.0\n\
+         [[member]]\nid = \"right\"\nkind = \"cable\"\nends = [\"C\", \"B\"]\nsection = \"r\"\nprestress = 1000.0\n\
+         [[load]]\nnode = \"C\"\nforce = [4400.0, 0.0, 0.0]\n\
+         [analysis]\nstrain = \"engineering\"\nsteps = 10\n{watch}"
+    )
+}
