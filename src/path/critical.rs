@@ -453,6 +453,8 @@ impl<'a> Tracer<'a> {
             let (pu, pl) = (st.u.clone(), st.lambda);
             let du_f = tangent_direction(sys, ws);
             let norm = dot(&du_f, &du_f).sqrt();
+            // f·K⁻¹f at the sub-step's start, for the smoothness test below.
+            let c_start = dot(&du_f, &sys.f_ref);
             let sign = if prev_inc.is_empty() {
                 direction
             } else {
@@ -489,6 +491,55 @@ impl<'a> Tracer<'a> {
                 return None;
             }
             let now = ws.negative_pivots();
+            // A sub-step whose increment turned more than `SUB_STEP_TURN`
+            // away from its tangent predictor has left the path it started
+            // on (the cylinder meets other branches too; a quasi-Newton
+            // corrector from a long predictor past a limit converged on the
+            // far side of a dome's snap, and the bisection between the two
+            // branches then reported critical points that are not there):
+            // walked again with half the arc.
+            // The same when its load increment is not within a factor of 2
+            // of the predictor's: the tangent at the sub-step's start no
+            // longer describes it (past a limit within the sub-step, or on
+            // another branch).
+            let turned_away = {
+                let inc: Vec<f64> = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
+                let cos = dot(&inc, &du_f) * dl.signum() / (dot(&inc, &inc).sqrt() * norm);
+                let ratio = (st.lambda - pl) / dl;
+                !(cos >= SUB_STEP_TURN) || !(SUB_STEP_LOAD_RATIO..=1.0 / SUB_STEP_LOAD_RATIO).contains(&ratio)
+            };
+            if turned_away && arc > arc0 * SMOOTH_ARC_FLOOR {
+                restore(&mut st, pu, pl);
+                let mut rec = StepRecord::default();
+                ws.refactor_at(sys, &mut st, &mut rec);
+                add_records(&mut self.wasted, &rec);
+                arc *= 0.5;
+                continue;
+            }
+            // A sub-step with no change of the pivot count must be smooth
+            // to be believed: an arc longer than the path's features can
+            // jump over a limit and the snap back below it, landing on a
+            // stable state with the same count (a 3-ring dome loaded in one
+            // step to 370 times its limit load did exactly that and the
+            // walk reported no critical point). The test is the one a load
+            // step gets (`crossing_suspected`: Bergan's current stiffness
+            // parameter keeps its sign, the load does positive work, the
+            // secant compliance lies within the end tangents'); a sub-step
+            // that fails it is walked again with half the arc.
+            if now == neg && arc > arc0 * SMOOTH_ARC_FLOOR {
+                let c_end = load_compliance(sys, ws);
+                let start = State { u: pu.clone(), lambda: pl, ..st.clone() };
+                let smooth = (st.lambda - pl) * direction > 0.0
+                    && !crossing_suspected(sys, c_start, c_end, &start.u, start.lambda, &st);
+                if !smooth {
+                    restore(&mut st, pu, pl);
+                    let mut rec = StepRecord::default();
+                    ws.refactor_at(sys, &mut st, &mut rec);
+                    add_records(&mut self.wasted, &rec);
+                    arc *= 0.5;
+                    continue;
+                }
+            }
             // λ fell along the path: a limit point lies in this sub-step or
             // at its start (λ has its extremum there).
             let fell = (st.lambda - pl) * direction < 0.0;
@@ -518,3 +569,4 @@ impl<'a> Tracer<'a> {
         None
     }
 }
+

@@ -538,7 +538,8 @@ impl<'a> Tracer<'a> {
                         {
                             let suspected = jumped
                                 || n_before != neg
-                                || crossing_suspected(sys, last_compliance, compliance, &start_u, start_lambda, &state);
+                                || crossing_suspected(sys, last_compliance, compliance, &start_u, start_lambda, &state)
+                                || stiffness_jumped(last_compliance, compliance);
                             if suspected {
                                 let keep_field = keeper.keeps_critical();
                                 let a_state = (start_u.as_slice(), start_lambda, n_before);
@@ -849,8 +850,41 @@ fn crossing_suspected(sys: &System, c_a: f64, c_b: f64, start_u: &[f64], start_l
     c_a.signum() != c_b.signum() || work < 0.0 || secant > SECANT_RATIO * c_a.abs().max(c_b.abs())
 }
 
+/// A load step over which the current stiffness parameter (c = f·K⁻¹f,
+/// Bergan et al. 1978) changes by more than [`STIFFNESS_JUMP`] either way is
+/// long against the path's own scale: what lies between its ends is not
+/// known from them. A 3-ring dome loaded in one step to 120 times its limit
+/// load snapped onto its inverted, stable branch with the same pivot count,
+/// positive work and a secant compliance close to the start tangent's; only c
+/// (11 times smaller at the end) told. Such a step is walked again by arc
+/// length (`probe`). Softening nets changed c by 1.0–1.9 times per step in
+/// the first steps of the generated heavy-snow nets.
+fn stiffness_jumped(c_a: f64, c_b: f64) -> bool {
+    c_a.is_finite() && c_b.is_finite() && c_a != 0.0 && c_b != 0.0 && {
+        let ratio = (c_b / c_a).abs();
+        !(1.0 / STIFFNESS_JUMP..=STIFFNESS_JUMP).contains(&ratio)
+    }
+}
+
+/// See `stiffness_jumped`.
+pub const STIFFNESS_JUMP: f64 = 4.0;
+
 /// See `crossing_suspected`: a margin for the curvature of c within a step.
 pub const SECANT_RATIO: f64 = 1.5;
+
+/// A walk's sub-step that fails the smoothness test is halved down to this
+/// fraction of the walk's first arc; below it the sub-step is taken as it is
+/// (a limit at the walk's highest load, not bisected, if λ fell).
+pub const SMOOTH_ARC_FLOOR: f64 = 1e-3;
+
+/// The least cosine between a walk's sub-step increment and its tangent
+/// predictor (about 45°): past it the sub-step is taken to have left its
+/// branch (common practice in arc-length step control, no source).
+pub const SUB_STEP_TURN: f64 = 0.7;
+
+/// The least ratio of a walk's sub-step load increment to its predictor's
+/// (and the inverse of the largest): see `Tracer::walk`.
+pub const SUB_STEP_LOAD_RATIO: f64 = 0.5;
 
 /// Arc-length steps allowed when re-walking one load step.
 const PROBE_MAX_STEPS: usize = 400;
@@ -872,3 +906,4 @@ fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {
     state.u = u;
     state.lambda = lambda;
 }
+
