@@ -491,6 +491,13 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
                     "cables were slack at the last converged state ({}): raise their prestress, or model them as bars if they may carry compression",
                     slack.join(", ")
                 ),
+                _ if (f.termination == Termination::Jumped || f.jumped_before)
+                    && model.analysis.control == crate::model::Control::Displacement =>
+                {
+                    "displacement control cannot pass a snap-back, where the controlled displacement itself turns back \
+                     (the path reached here only by a jump): use control = \"arc-length\""
+                        .into()
+                }
                 Termination::SingularTangent { .. } | Termination::Jumped if load_control => {
                     "if the load has passed a limit point, load control cannot follow it: try control = \"arc-length\" (or \"displacement\")".into()
                 }
@@ -515,6 +522,17 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
                         "try a smaller step (more steps or a smaller arc) or more max_iterations".into()
                     }
                 }
+            };
+            // Near a snap-back there is no equilibrium with the controlled
+            // displacement a little further on: every corrector fails there,
+            // whatever the cause it reports.
+            let hint: String = if model.analysis.control == crate::model::Control::Displacement && !hint.contains("arc-length") {
+                format!(
+                    "{hint}; if the controlled displacement turns back here (a snap-back), displacement control cannot pass it: \
+                     use control = \"arc-length\""
+                )
+            } else {
+                hint
             };
             format!(
                 "step {} did not converge after {} halvings: {cause} while going to load factor {:.6} \

@@ -548,3 +548,44 @@ fn long_load_steps_do_not_jump_a_dome_limit() {
         }
     }
 }
+
+/// The arch with a spring in series (`spring_arch`) loaded in ONE load step
+/// to five times its limit load: the stiff spring hides the snap in every
+/// end-point test (the compliance along the load and the secant change by
+/// less than 10 %, and the chord's tangent stays positive along it), so only
+/// the first step's mid-chord pivot count (`Tracer::mid_chord_unstable`)
+/// sees the unstable states the snap passes. Before it every corrector
+/// reported "target reached, stable" at λ = 18.9 with no critical point.
+/// Every corrector must stop at the limit, pinpointed within 1e-6 of
+/// P_lim = 3789.4625 kN (Bažant & Cedolin 1991, eq. 4.4.5).
+#[test]
+fn one_load_step_past_the_limit_of_an_arch_with_a_spring() {
+    for method in ALL_METHODS {
+        let run = trace(model(&spring_arch("load", 5.0 * p_lim(), 1, "")), method);
+        assert_eq!(run.path.stop, StopReason::LimitPoint, "{method:?}: {:?}", run.path.critical);
+        let c = run.path.critical.last().unwrap();
+        assert!(c.kind == CriticalKind::Limit && c.pinpointed, "{method:?}: {c:?}");
+        assert!(rel_err(c.lambda, p_lim(), 1.0) < 1e-6, "{method:?}: {} vs {}", c.lambda, p_lim());
+    }
+}
+
+/// The same arch under displacement control of the spring's end: the
+/// controlled displacement itself turns back (snap-back), which displacement
+/// control cannot follow. A step that lands past the turning points by a
+/// jump (its increment over `JUMP_RATIO` times the last) is cut back, so the
+/// run stops short of the target with the limit it passed reported at
+/// P_lim (closed form as above) and a message that names the snap-back and
+/// arc-length control. Before, Newton reported "target reached" with no
+/// critical point at all.
+#[test]
+fn displacement_control_does_not_jump_a_snap_back() {
+    for method in ALL_METHODS {
+        let run = trace(model(&spring_arch("displacement", -3.0, 20, "")), method);
+        assert_eq!(run.path.stop, StopReason::NoConvergence, "{method:?}");
+        let limits: Vec<f64> = run.path.critical.iter().filter(|c| c.kind == CriticalKind::Limit).map(|c| c.lambda).collect();
+        assert_eq!(limits.len(), 1, "{method:?}: {:?}", run.path.critical);
+        assert!(rel_err(limits[0], p_lim(), 1.0) < 1e-6, "{method:?}: {limits:?}");
+        let msg = tautline::results::stop_message(&run.model, &run.path);
+        assert!(msg.contains("snap-back") && msg.contains("arc-length"), "{msg}");
+    }
+}

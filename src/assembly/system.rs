@@ -591,6 +591,20 @@ impl System {
     }
 
     /// Product y = K·x with the symmetric upper-triangle values `k_values`.
+    /// x·K·x for the tangent values `k_values` on the upper-triangle pattern.
+    pub fn quadratic_form(&self, k_values: &[f64], x: &[f64]) -> f64 {
+        let p = &self.pattern;
+        let mut sum = 0.0;
+        for c in 0..p.n {
+            for s in p.column(c) {
+                let r = p.row_idx[s] as usize;
+                let v = k_values[s] * x[r] * x[c];
+                sum += if r != c { 2.0 * v } else { v };
+            }
+        }
+        sum
+    }
+
     pub fn tangent_times(&self, k_values: &[f64], x: &[f64], y: &mut [f64]) {
         y.fill(0.0);
         let p = &self.pattern;

@@ -570,3 +570,4 @@ impl<'a> Tracer<'a> {
     }
 }
 
+

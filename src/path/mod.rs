@@ -148,6 +148,10 @@ pub struct StepFailure {
     pub relative_residual: f64,
     /// Node directions with zero pivots, when the tangent was singular.
     pub zero_pivot_dirs: Vec<NodeDir>,
+    /// An earlier, longer attempt at this step converged only by a jump to
+    /// a distant part of the path (the cause may be a snap the control
+    /// cannot follow, whatever stopped the last, shortest attempt).
+    pub jumped_before: bool,
 }
 
 impl EquilibriumPath {
@@ -263,6 +267,8 @@ impl<'a> Tracer<'a> {
         let mut points = Vec::new();
         let mut mechanism = None;
         let mut last_failure = None;
+        // Whether an attempt at the current step was rejected as a jump.
+        let mut step_jumped = false;
         let mut n_cutbacks = 0;
         let mut keeper = Keeper::new(a.keep_fields.resolve(sys.n_free()));
 
@@ -467,9 +473,22 @@ impl<'a> Tracer<'a> {
                 // only at second order along the secondary branch near the
                 // point, and a displacement step can land on the mirror
                 // branch: an increment turned back is cut back there too.
-                (Termination::Converged, Control::Displacement) if switcher.has_switched() && !last_increment.is_empty() => {
-                    let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
-                    if turned { Termination::Jumped } else { term }
+                // Displacement control cannot pass a snap-back (the
+                // controlled displacement turning back): the corrector then
+                // lands on a distant part of the path, past the load's limit
+                // and the turning points, with the pivot count of the start.
+                // A step whose increment exceeds `JUMP_RATIO` times the last
+                // one (scaled by the controlled increments) is cut back, as
+                // under load control; an arch with a spring in series
+                // reported "target reached" and no critical point this way.
+                (Termination::Converged, Control::Displacement) if !last_increment.is_empty() => {
+                    let turned = switcher.has_switched()
+                        && state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
+                    let dof = stepper.control_dof.expect("validated: the controlled point is free");
+                    let ratio = ((state.u[dof] - start_u[dof]) / last_increment[dof]).abs();
+                    let before = dot(&last_increment, &last_increment).sqrt();
+                    let jump = dot_dist(&state.u, &start_u) > JUMP_RATIO * before * ratio.max(1e-3);
+                    if turned || jump { Termination::Jumped } else { term }
                 }
                 // The first arc-length step must head for the target: a
                 // corrector that converged behind the start (the cylinder
@@ -485,8 +504,12 @@ impl<'a> Tracer<'a> {
                 }
                 _ => term,
             };
+            if term == Termination::Jumped {
+                step_jumped = true;
+            }
             match term {
                 Termination::Converged => {
+                    step_jumped = false;
                     let mut record = record;
                     let iterations = record.iterations;
                     // Arc-length: λ first reaching the target ends the path on
@@ -539,7 +562,9 @@ impl<'a> Tracer<'a> {
                             let suspected = jumped
                                 || n_before != neg
                                 || crossing_suspected(sys, last_compliance, compliance, &start_u, start_lambda, &state)
-                                || stiffness_jumped(last_compliance, compliance);
+                                || stiffness_jumped(last_compliance, compliance)
+                                || chord_softens(sys, ws, &start_u, start_lambda, &state)
+                                || (last_increment.is_empty() && self.mid_chord_unstable(ws, &start_u, start_lambda, n_before, &mut state));
                             if suspected {
                                 let keep_field = keeper.keeps_critical();
                                 let a_state = (start_u.as_slice(), start_lambda, n_before);
@@ -582,6 +607,7 @@ impl<'a> Tracer<'a> {
                                             termination: Termination::Jumped,
                                             relative_residual: 0.0,
                                             zero_pivot_dirs: Vec::new(),
+                                            jumped_before: true,
                                         });
                                         break 'path StopReason::NoConvergence;
                                     }
@@ -731,6 +757,7 @@ impl<'a> Tracer<'a> {
                         termination: other.clone(),
                         relative_residual: state.relative_residual,
                         zero_pivot_dirs,
+                        jumped_before: step_jumped,
                     };
                     restore(&mut state, start_u, start_lambda);
                     // Back to the last converged state and its tangent.
@@ -866,6 +893,57 @@ fn stiffness_jumped(c_a: f64, c_b: f64) -> bool {
     }
 }
 
+/// Whether the tangent loses its stiffness along a load step's chord
+/// d = u_B − u_A somewhere between the ends: d·K(u_A + t·d)·d ≤ 0 at
+/// t = ¼, ½ or ¾ (three tangent assemblies, no factorization). Between two
+/// stable states joined by a smooth stable path the chord stays near the path
+/// and the tangent along it stiff; a snap-through from a stable state to a
+/// stable one on another branch crosses the unstable states in between (the
+/// flattened arch with its bars in compression), where the tangent along the
+/// snap is negative. An arch with a soft spring in series loaded in one step
+/// to five times its limit snapped that way with every other test quiet: the
+/// spring's compliance hid the snap in f·K⁻¹f and in the secant.
+fn chord_softens(sys: &System, ws: &mut Workspace, start_u: &[f64], start_lambda: f64, b: &State) -> bool {
+    let d: Vec<f64> = b.u.iter().zip(start_u).map(|(x, y)| x - y).collect();
+    if d.iter().all(|&x| x == 0.0) {
+        // No chord (a step of zero length, e.g. a start already at the target).
+        return false;
+    }
+    let mut u = vec![0.0; d.len()];
+    [0.25, 0.5, 0.75].iter().any(|&t| {
+        for ((ui, a), di) in u.iter_mut().zip(start_u).zip(&d) {
+            *ui = a + t * di;
+        }
+        let lambda = start_lambda + t * (b.lambda - start_lambda);
+        !(ws.stiffness_along(sys, &u, lambda, &d) > 0.0)
+    })
+}
+
+impl Tracer<'_> {
+    /// The first load step has no previous increment to judge a jump by, so
+    /// its chord is examined once more: whether the tangent at the chord's
+    /// midpoint has another pivot count than the step's start (one extra
+    /// factorization there and one back at B). A snap-through between two
+    /// stable states passes the unstable states in between; an arch with a
+    /// stiff spring in series, loaded in one step to five times its limit,
+    /// kept the tangent along the chord positive (the spring's stiffness
+    /// outweighs the flattened arch's negative one) and was caught only here.
+    fn mid_chord_unstable(&mut self, ws: &mut Workspace, start_u: &[f64], start_lambda: f64, n_start: usize, b: &mut State) -> bool {
+        let sys = self.system;
+        let mut mid = b.clone();
+        for ((m, a), u) in mid.u.iter_mut().zip(start_u).zip(&b.u) {
+            *m = 0.5 * (a + u);
+        }
+        mid.lambda = 0.5 * (start_lambda + b.lambda);
+        let mut rec = StepRecord::default();
+        let singular = ws.refactor_at(sys, &mut mid, &mut rec).is_some();
+        let differs = singular || ws.negative_pivots() != n_start;
+        ws.refactor_at(sys, b, &mut rec);
+        add_records(&mut self.wasted, &rec);
+        differs
+    }
+}
+
 /// See `stiffness_jumped`.
 pub const STIFFNESS_JUMP: f64 = 4.0;
 
@@ -906,4 +984,5 @@ fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {
     state.u = u;
     state.lambda = lambda;
 }
+
 

@@ -115,7 +115,8 @@ impl Stepper {
             return true;
         }
         let next = 0.5 * self.size;
-        if next.abs() < self.min_size {
+        // A step of zero length cannot be halved into anything new.
+        if next.abs() < self.min_size || next == 0.0 {
             return false;
         }
         self.size = next;

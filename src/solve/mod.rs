@@ -356,6 +356,14 @@ impl Workspace {
         inertia.is_singular().then(|| inertia.zero_dofs.clone())
     }
 
+    /// d·K(u)·d: the stiffness of the tangent at `u` along `d`, assembled
+    /// without a factorization. It overwrites the tangent values of the last
+    /// factorization (the factor does not need them) and the trial buffers.
+    pub fn stiffness_along(&mut self, system: &System, u: &[f64], lambda: f64, d: &[f64]) -> f64 {
+        system.residual_and_tangent(u, lambda, &mut self.trial_r, &mut self.trial_reactions, &mut self.k_values);
+        system.quadratic_form(&self.k_values, d)
+    }
+
     /// Negative pivots of the latest factorization: the number of negative
     /// eigenvalues of that tangent (Sylvester's law of inertia).
     pub fn negative_pivots(&self) -> usize {
