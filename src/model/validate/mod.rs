@@ -15,6 +15,7 @@ mod form;
 mod loads;
 mod members;
 mod nodes;
+mod overrides;
 mod refs;
 mod springs;
 pub mod suggest;
@@ -24,6 +25,7 @@ mod tests;
 mod units;
 
 pub use loads::{LoadCase, load_case};
+pub use overrides::{Overrides, bad_value};
 
 use std::path::Path;
 
