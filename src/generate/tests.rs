@@ -3,11 +3,8 @@
 //! each generator's own.
 
 use super::*;
-
 use std::collections::HashMap;
-
 use std::path::PathBuf;
-
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 fn parse(text: &str) -> toml::Table {

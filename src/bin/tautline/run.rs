@@ -301,60 +301,13 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         warnings.extend(tautline::screen::result_warnings(m, &util, &strain));
     }
 
-    let mut staged = report::Staged::default();
-    let write = |staged: &mut report::Staged, name: &str, text: String| {
-        staged
-            .add(out, name, text.as_bytes())
-            .map_err(|e| Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(name).display())))
-    };
-    write(&mut staged, "results.json", report::results_json(&res))?;
-    write(&mut staged, "path.csv", report::path_csv(&res))?;
-    write(&mut staged, "members.csv", report::members_csv(&members, m.units.force.name(), m.units.length.name()))?;
-    let labels = report::fields::NodeLabels::of(m);
-    let stream = |staged: &mut report::Staged, name: &str, f: &dyn Fn(&mut std::io::BufWriter<std::fs::File>) -> std::io::Result<()>| {
-        staged
-            .add_with(out, name, f)
-            .map_err(|e| Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(name).display())))
-    };
-    stream(&mut staged, results::FIELDS_FILE, &|w| report::fields::fields_csv(w, m, &system.dofs, &labels, &path.fields))?;
-    stream(&mut staged, results::CRITICAL_FIELDS_FILE, &|w| {
-        report::fields::critical_fields_csv(w, m, &system.dofs, &labels, &path.critical)
-    })?;
-    stream(&mut staged, results::CRITICAL_MODES_FILE, &|w| {
-        report::fields::critical_modes_csv(w, &system.dofs, &labels, &path.critical)
-    })?;
-    // Plots: a plot that cannot be drawn is reported and left out; the
-    // numbers above are written regardless.
-    let (plots, mut plot_warnings) = report::figures::solve_plots(m, &system, &path, &res, &members, &figures);
-    let mut drawn = Vec::new();
-    plot_warnings.splice(0..0, warnings);
-    for p in plots {
-        let name = p.file.clone().unwrap_or_else(|| "a report figure".into());
-        match p.svg {
-            Ok(text) => {
-                if let Some(file) = &p.file {
-                    if png {
-                        let png_name = file.replace(".svg", ".png");
-                        match report::png::svg_to_png(&text) {
-                            Ok(bytes) => staged.add(out, &png_name, &bytes).map_err(|e| {
-                                Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(&png_name).display()))
-                            })?,
-                            Err(e) => plot_warnings.push(format!("{png_name} not drawn: {e}")),
-                        }
-                    }
-                    write(&mut staged, file, text.clone())?;
-                }
-                drawn.push((p.caption, text));
-            }
-            Err(e) => plot_warnings.push(format!("{name} not drawn: {e}")),
-        }
-    }
-    let figures: Vec<report::html::Figure> =
-        drawn.iter().map(|(caption, svg): &(String, String)| report::html::Figure { caption, svg }).collect();
-    write(&mut staged, "report.html", report::html::report_html(m, &res, &members, &figures))?;
-    let written: Vec<PathBuf> = staged
-        .commit()
-        .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
+    let fields = results::Fields::new(m, &system, &path);
+    let run = report::RunOutput { results: &res, members: &members, fields: &fields };
+    let options = report::WriteOptions { png, figures };
+    let report::Written { files: written, warnings: drawn_warnings } =
+        report::write_run(out, m, &run, &options).map_err(|e| Failure::Internal(e.into()))?;
+    let mut plot_warnings = warnings;
+    plot_warnings.extend(drawn_warnings);
 
     let code = match path.stop {
         // A switch asked for and never met: the path is right, but the
