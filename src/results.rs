@@ -9,6 +9,7 @@ use crate::path::{EquilibriumPath, StopReason};
 use serde::Serialize;
 
 mod fields;
+pub mod sag;
 mod stop;
 
 pub use fields::{
