@@ -600,7 +600,7 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
     let mut staged = report::Staged::default();
     let io = |e: std::io::Error| Failure::Internal(anyhow::anyhow!("writing into {}: {e}", out.display()));
     staged.add(out, "formed.toml", model::write::to_toml(&formed).as_bytes()).map_err(io)?;
-    staged.add(out, "form.csv", model::write::form_csv(&m, &found).as_bytes()).map_err(io)?;
+    staged.add(out, "form.csv", tautline::form::form_csv(&m, &found).as_bytes()).map_err(io)?;
     if let Some(text) = &log_csv {
         staged.add(out, "form_log.csv", text.as_bytes()).map_err(io)?;
     }
