@@ -1,7 +1,7 @@
 //! The lattice dome: a shallow triangulated dome of bars on a spherical cap.
 
 use super::draft::{Draft, Kind};
-use super::write::num;
+use super::text::num;
 use super::{Generated, Loading, check_stem, digits, finite, node_count, positive, tributary_areas};
 
 /// The dome's default load: see README ("generate") for why.

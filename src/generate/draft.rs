@@ -3,7 +3,7 @@
 
 use std::fmt::{self, Write as _};
 
-use super::write::num;
+use super::text::num;
 
 /// Many short labels in one buffer.
 pub(super) struct Labels {

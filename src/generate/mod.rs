@@ -12,11 +12,12 @@ mod draft;
 mod net;
 #[cfg(test)]
 mod tests;
+mod text;
 mod write;
 
 pub use dome::{DOME_DEFAULT_CROWN_LOAD, DOME_DEFAULT_LOAD, DomeOptions, lattice_dome};
 pub use net::{NetEdge, NetOptions, saddle_net};
-use write::num;
+use text::num;
 
 /// Largest number of nodes a generator will produce.
 pub const MAX_GENERATED_NODES: usize = 4_000_000;

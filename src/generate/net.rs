@@ -2,7 +2,7 @@
 //! prestressed to equilibrium.
 
 use super::draft::{Draft, Kind};
-use super::write::num;
+use super::text::num;
 use super::{Generated, Loading, check_stem, digits, finite, node_count, positive, tributary_areas};
 
 /// How the boundary of a saddle net is held.

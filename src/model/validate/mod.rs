@@ -12,6 +12,7 @@ mod context;
 mod csv;
 mod csv_given;
 mod form;
+mod load_file;
 mod loads;
 mod members;
 mod nodes;
@@ -24,7 +25,7 @@ mod tables;
 mod tests;
 mod units;
 
-pub use loads::{LoadCase, load_case};
+pub use load_file::{LoadCase, load_case};
 pub use overrides::{Overrides, bad_value};
 
 use std::path::Path;
