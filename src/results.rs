@@ -9,7 +9,7 @@ use crate::path::{EquilibriumPath, StopReason};
 use serde::Serialize;
 
 mod fields;
-pub mod sag;
+pub(crate) mod sag;
 mod stop;
 
 pub use fields::{

@@ -52,7 +52,7 @@ impl Default for DomeOptions {
 /// Bars join the crown to ring 1, each ring node to the same sector of the
 /// next ring (radial) and to the next sector of the next ring (diagonal), and
 /// neighbours within a ring (hoop). The bars are unstressed in the generated
-/// geometry. `stem` is as in [`saddle_net`].
+/// geometry. `stem` is as in [`saddle_net`](super::saddle_net).
 pub fn lattice_dome(o: &DomeOptions, stem: &str) -> Result<Generated, String> {
     check_stem(stem)?;
     let (rings, sectors) = (o.rings, o.sectors);

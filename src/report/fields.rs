@@ -97,7 +97,7 @@ pub const CRITICAL_MODES_HEADER: &str = "critical,load_factor,node,ux,uy,uz";
 /// node. Each mode has unit Euclidean norm over the free DOFs (a shape, not a
 /// length: written as it is, whatever the model's length unit); supported
 /// directions are 0.
-pub fn critical_modes_csv<'s>(
+pub(crate) fn critical_modes_csv<'s>(
     w: &mut impl Write,
     dofs: &impl Dofs,
     labels: &NodeLabels,

@@ -13,7 +13,7 @@ use crate::results::{CriticalState, Fields, MemberOut, Results};
 
 /// Plan maps drawn at most for the critical states (and again for their
 /// modes); the rest are in `critical_fields.csv` and `critical_modes.csv`.
-pub const MAX_CRITICAL_MAPS: usize = 6;
+pub(crate) const MAX_CRITICAL_MAPS: usize = 6;
 
 /// Bytes of vector shape drawings a report may hold (the shapes past it
 /// are drawn as raster panels), so several shapes of a model just under the
@@ -65,14 +65,14 @@ impl Default for FigureOptions {
 
 /// One figure: the file it is also written to (None: report only), its
 /// caption, and its SVG or why it could not be drawn.
-pub struct Plot {
+pub(crate) struct Plot {
     pub file: Option<String>,
     pub caption: String,
     pub svg: Result<String, String>,
 }
 
 /// "dead load + 1.000 × reference load" at load factor `lambda`.
-pub fn load_case(fields: &Fields, lambda: f64) -> String {
+pub(crate) fn load_case(fields: &Fields, lambda: f64) -> String {
     format!("{}{} × reference load", if fields.has_dead_load() { "dead load + " } else { "" }, sig4(lambda))
 }
 
@@ -82,7 +82,7 @@ fn node_values(model: &Model, fields: &Fields, u: &[f64], axis: usize) -> Vec<f6
 
 /// The colouring in force: by utilisation only when asked, or by default
 /// when every member has a capacity.
-pub fn resolved_colour(members: &[MemberOut], asked: Option<ColourBy>) -> ColourBy {
+pub(crate) fn resolved_colour(members: &[MemberOut], asked: Option<ColourBy>) -> ColourBy {
     asked.unwrap_or(if !members.is_empty() && members.iter().all(|m| m.utilisation.is_some()) {
         ColourBy::Utilisation
     } else {
@@ -102,7 +102,7 @@ fn has_plan(model: &Model) -> bool {
 
 /// Every figure of a run, in report order, and warnings for what was asked
 /// and cannot be drawn.
-pub fn solve_plots(
+pub(crate) fn solve_plots(
     m: &Model,
     fields: &Fields,
     res: &Results,

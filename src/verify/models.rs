@@ -168,7 +168,7 @@ tolerance = 1e-12
 /// mid-height by a lateral spring k = 1e5 N/m, loaded at the top by 1e5 N per
 /// unit load factor; engineering strain, T.z controlled or watched, T.z and
 /// M.x watched. `analysis` adds the rest of the `[analysis]` table. It
-/// bifurcates at [`braced_strut_critical_load`].
+/// bifurcates at [`braced_strut_critical_load`](super::braced_strut_critical_load).
 pub fn braced_strut(ea: f64, analysis: &str) -> String {
     format!(
         r#"title = "braced strut"

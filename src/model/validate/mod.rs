@@ -19,7 +19,7 @@ mod nodes;
 mod overrides;
 mod refs;
 mod springs;
-pub mod suggest;
+pub(crate) mod suggest;
 mod tables;
 #[cfg(test)]
 mod tests;
