@@ -1,5 +1,12 @@
 //! A `Draft` written as a model file: TOML, with the node, member and load
 //! tables in CSV files above a size.
+//!
+//! This is not `model::write::to_toml`: that writes a validated `Model`
+//! whole (every node and member inline, every `[analysis]` setting), while a
+//! generated file keeps large tables in CSV, sets only the analysis keys the
+//! generator chose, carries its options as comments, and must stay quick at
+//! millions of nodes (ids in shared buffers, the number text cache). Routing
+//! the generators through `to_toml` would change every generated file.
 
 use std::fmt::Write as _;
 
