@@ -305,7 +305,10 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     let run = report::RunOutput { results: &res, members: &members, fields: &fields };
     let options = report::WriteOptions { png, figures };
     let report::Written { files: written, warnings: drawn_warnings } =
-        report::write_run(out, m, &run, &options).map_err(|e| Failure::Internal(e.into()))?;
+        report::write_run(out, m, &run, &options)
+            // The message alone: its io error is already in it, and `{:#}`
+            // would print the source again.
+            .map_err(|e| Failure::Internal(anyhow::anyhow!("{e}")))?;
     let mut plot_warnings = warnings;
     plot_warnings.extend(drawn_warnings);
 
