@@ -516,3 +516,4 @@ fn errors_in_separate_entries_are_all_reported() {
 
 mod analysis;
 mod items;
+mod overrides;
