@@ -4,7 +4,8 @@ use crate::common::{model, rel_err};
 use tautline::assembly::System;
 use tautline::form::{FormError, force_density, formed_model};
 use tautline::generate::{NetOptions, saddle_net};
-use tautline::model::write::{form_csv, to_toml};
+use tautline::form::form_csv;
+use tautline::model::write::to_toml;
 use tautline::model::{self, RestSpec};
 
 /// A chain of `n` segments of plan length `h` between supports at z = 0, a

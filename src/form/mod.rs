@@ -10,7 +10,10 @@
 //! free (node, axis) unknowns is assembled and factored once.
 
 pub mod relax;
+mod table;
 pub mod targets;
+
+pub use table::form_csv;
 
 use crate::assembly::Pattern;
 use crate::element::Bar;

@@ -1,12 +1,12 @@
 //! The validated structural model: what every later stage reads.
 //!
-//! A model file is read into [`file::ModelFile`] (a serde mirror that keeps the
+//! A model file is read into `file::ModelFile` (a serde mirror that keeps the
 //! user's labels and the places they were written), then [`validate`] turns it
 //! into a [`Model`]: ids resolved to dense indices, units converted to SI
 //! (N, m) and every problem collected before failing. A `Model` is immutable.
 
 pub mod diagnostics;
-pub mod file;
+pub(crate) mod file;
 pub mod units;
 pub mod validate;
 pub mod write;

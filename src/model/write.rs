@@ -1,12 +1,13 @@
 //! A model written back as a model file: the TOML format the loader reads,
-//! every node and member inline, values in the model's own units.
+//! every node and member inline, values in the model's own units. (A
+//! form-finding result's member table is `form::form_csv`.)
 
 use super::{Axis, Control, FormSettings, FormTarget, Model, RestSpec, StrainMeasure};
-use crate::form::FormResult;
 use std::fmt::Write;
 
-/// A number that reads back to the same f64.
-fn num(v: f64) -> String {
+/// A number that reads back to the same f64 (`nan` and `inf` as TOML
+/// writes them).
+pub(crate) fn num(v: f64) -> String {
     if v.is_nan() {
         "nan".into()
     } else if v.is_infinite() {
@@ -255,28 +256,6 @@ pub fn to_toml(model: &Model) -> String {
     s
 }
 
-/// Member table of a form-finding result, in the model's units:
-/// `id,force_<F>,length_<L>,force_density_<F>/<L>`.
-pub fn form_csv(model: &Model, form: &FormResult) -> String {
-    let u = model.units;
-    let (f, l) = (u.force.name(), u.length.name());
-    let mut s = format!("id,force_{f},length_{l},force_density_{f}/{l}\n");
-    for (m, member) in model.members.iter().enumerate() {
-        let cell =
-            |v: Option<&f64>, out: &dyn Fn(f64) -> f64| v.map_or(String::new(), |x| num(out(*x)));
-        let _ = writeln!(
-            s,
-            "{},{},{},{}",
-            csv_field(&member.label),
-            cell(form.forces.get(m), &|x| u.force_out(x)),
-            cell(form.lengths.get(m), &|x| u.length_out(x)),
-            cell(form.force_densities.get(m), &|x| u.force_per_length_out(x)),
-        );
-    }
-    s
-}
-
-use crate::csv::field as csv_field;
 
 #[cfg(test)]
 mod tests {

@@ -6,10 +6,8 @@
 //! instead of built as one string, and the node labels are escaped once.
 
 use super::{csv_field, num};
-use crate::assembly::DofMap;
 use crate::model::Model;
-use crate::path::Critical;
-use crate::path::fields::Field;
+use crate::results::{CriticalState, Dofs, State};
 use std::io::{self, Write};
 
 /// Header of `fields.csv`.
@@ -31,7 +29,7 @@ impl NodeLabels {
 /// length units (0 in supported directions). Each row is formatted into one
 /// reused line and written with one call: formatting straight into the
 /// buffered file costs a call per piece.
-fn rows(w: &mut impl Write, prefix: &str, labels: &NodeLabels, dofs: &DofMap, u: &[f64], to_si: f64) -> io::Result<()> {
+fn rows(w: &mut impl Write, prefix: &str, labels: &NodeLabels, dofs: &impl Dofs, u: &[f64], to_si: f64) -> io::Result<()> {
     use std::fmt::Write as _;
     let mut line = String::with_capacity(128);
     for (node, label) in labels.0.iter().enumerate() {
@@ -53,28 +51,36 @@ fn rows(w: &mut impl Write, prefix: &str, labels: &NodeLabels, dofs: &DofMap, u:
 }
 
 /// `fields.csv`: the kept steps in ascending order.
-pub fn fields_csv(w: &mut impl Write, model: &Model, dofs: &DofMap, labels: &NodeLabels, fields: &[Field]) -> io::Result<()> {
+pub fn fields_csv<'s>(
+    w: &mut impl Write,
+    model: &Model,
+    dofs: &impl Dofs,
+    labels: &NodeLabels,
+    kept: impl IntoIterator<Item = impl Into<State<'s>>>,
+) -> io::Result<()> {
     writeln!(w, "{FIELDS_HEADER}")?;
     let to_si = model.units.length.to_si();
-    for f in fields {
+    for f in kept {
+        let f: State = f.into();
         let prefix = format!("{},{},", f.step, num(f.lambda));
-        rows(w, &prefix, labels, dofs, &f.u, to_si)?;
+        rows(w, &prefix, labels, dofs, f.u, to_si)?;
     }
     Ok(())
 }
 
 /// `critical_fields.csv`: the pinpointed critical states that kept a field.
-pub fn critical_fields_csv(
+pub fn critical_fields_csv<'s>(
     w: &mut impl Write,
     model: &Model,
-    dofs: &DofMap,
+    dofs: &impl Dofs,
     labels: &NodeLabels,
-    critical: &[Critical],
+    critical: impl IntoIterator<Item = impl Into<CriticalState<'s>>>,
 ) -> io::Result<()> {
     writeln!(w, "{CRITICAL_FIELDS_HEADER}")?;
     let to_si = model.units.length.to_si();
-    for (i, c) in critical.iter().enumerate() {
-        if let Some(u) = &c.field {
+    for (i, c) in critical.into_iter().enumerate() {
+        let c: CriticalState = c.into();
+        if let Some(u) = c.field {
             let prefix = format!("{i},{},{},", c.step, num(c.lambda));
             rows(w, &prefix, labels, dofs, u, to_si)?;
         }
@@ -91,11 +97,17 @@ pub const CRITICAL_MODES_HEADER: &str = "critical,load_factor,node,ux,uy,uz";
 /// node. Each mode has unit Euclidean norm over the free DOFs (a shape, not a
 /// length: written as it is, whatever the model's length unit); supported
 /// directions are 0.
-pub fn critical_modes_csv(w: &mut impl Write, dofs: &DofMap, labels: &NodeLabels, critical: &[Critical]) -> io::Result<()> {
+pub(crate) fn critical_modes_csv<'s>(
+    w: &mut impl Write,
+    dofs: &impl Dofs,
+    labels: &NodeLabels,
+    critical: impl IntoIterator<Item = impl Into<CriticalState<'s>>>,
+) -> io::Result<()> {
     writeln!(w, "{CRITICAL_MODES_HEADER}")?;
-    for (i, c) in critical.iter().enumerate() {
+    for (i, c) in critical.into_iter().enumerate() {
+        let c: CriticalState = c.into();
         let prefix = format!("{i},{},", num(c.lambda));
-        for phi in &c.modes {
+        for phi in c.modes {
             rows(w, &prefix, labels, dofs, phi, 1.0)?;
         }
     }

@@ -7,15 +7,13 @@
 //! figure's caption names the load case and the step.
 
 use super::plot::{self, fieldmap, ColourBy, ShapeInput, ShapeOptions};
-use crate::assembly::System;
 use crate::model::Model;
-use crate::path::{CriticalKind, EquilibriumPath};
 use crate::report::numbers::sig4;
-use crate::results::{MemberOut, Results};
+use crate::results::{CriticalState, Fields, MemberOut, Results};
 
 /// Plan maps drawn at most for the critical states (and again for their
 /// modes); the rest are in `critical_fields.csv` and `critical_modes.csv`.
-pub const MAX_CRITICAL_MAPS: usize = 6;
+pub(crate) const MAX_CRITICAL_MAPS: usize = 6;
 
 /// Bytes of vector shape drawings a report may hold (the shapes past it
 /// are drawn as raster panels), so several shapes of a model just under the
@@ -67,25 +65,24 @@ impl Default for FigureOptions {
 
 /// One figure: the file it is also written to (None: report only), its
 /// caption, and its SVG or why it could not be drawn.
-pub struct Plot {
+pub(crate) struct Plot {
     pub file: Option<String>,
     pub caption: String,
     pub svg: Result<String, String>,
 }
 
 /// "dead load + 1.000 × reference load" at load factor `lambda`.
-pub fn load_case(system: &System, lambda: f64) -> String {
-    let dead = system.applied_total(0.0).iter().any(|v| *v != 0.0);
-    format!("{}{} × reference load", if dead { "dead load + " } else { "" }, sig4(lambda))
+pub(crate) fn load_case(fields: &Fields, lambda: f64) -> String {
+    format!("{}{} × reference load", if fields.has_dead_load() { "dead load + " } else { "" }, sig4(lambda))
 }
 
-fn node_values(model: &Model, system: &System, u: &[f64], axis: usize) -> Vec<f64> {
-    (0..model.n_nodes()).map(|n| system.dofs.displacement(u, n, axis)).collect()
+fn node_values(model: &Model, fields: &Fields, u: &[f64], axis: usize) -> Vec<f64> {
+    (0..model.n_nodes()).map(|n| fields.displacement(u, n, axis)).collect()
 }
 
 /// The colouring in force: by utilisation only when asked, or by default
 /// when every member has a capacity.
-pub fn resolved_colour(members: &[MemberOut], asked: Option<ColourBy>) -> ColourBy {
+pub(crate) fn resolved_colour(members: &[MemberOut], asked: Option<ColourBy>) -> ColourBy {
     asked.unwrap_or(if !members.is_empty() && members.iter().all(|m| m.utilisation.is_some()) {
         ColourBy::Utilisation
     } else {
@@ -105,10 +102,9 @@ fn has_plan(model: &Model) -> bool {
 
 /// Every figure of a run, in report order, and warnings for what was asked
 /// and cannot be drawn.
-pub fn solve_plots(
+pub(crate) fn solve_plots(
     m: &Model,
-    system: &System,
-    path: &EquilibriumPath,
+    fields: &Fields,
     res: &Results,
     members: &[MemberOut],
     opts: &FigureOptions,
@@ -116,8 +112,10 @@ pub fn solve_plots(
     let mut plots = Vec::new();
     let mut warnings = Vec::new();
     let len_unit = m.units.length.name();
-    let last_step = path.points.last().map_or(0, |p| p.step);
-    let last_lambda = path.final_state.lambda;
+    let end = fields.end();
+    let (last_step, last_lambda) = (end.step, end.lambda);
+    let kept: Vec<_> = fields.kept().collect();
+    let critical: Vec<CriticalState> = fields.critical().collect();
     let colour_by = resolved_colour(members, opts.colour_by);
     if colour_by == ColourBy::Utilisation && members.iter().all(|x| x.utilisation.is_none()) {
         warnings.push("colouring by utilisation: no member has a capacity (tension_capacity, compression_capacity); coloured by force".into());
@@ -127,20 +125,12 @@ pub fn solve_plots(
     let vector_bytes = std::cell::Cell::new(0usize);
     // The shape at a state u (free DOFs), with its member forces.
     let shape_of = |drawn: &[f64], u: &[f64], colour: ColourBy, subtitle: String| -> Result<String, String> {
-        let disp: Vec<[f64; 3]> = (0..m.n_nodes()).map(|n| std::array::from_fn(|a| system.dofs.displacement(drawn, n, a))).collect();
-        let st = system.member_results(u);
+        let disp: Vec<[f64; 3]> = (0..m.n_nodes()).map(|n| std::array::from_fn(|a| fields.displacement(drawn, n, a))).collect();
+        let st = fields.members_at(u);
         let forces: Vec<f64> = st.iter().map(|r| r.force).collect();
         let slack: Vec<bool> = st.iter().map(|r| r.slack).collect();
         // Utilisation of this state (the members' capacities over its forces).
-        let util: Vec<Option<f64>> = m
-            .members
-            .iter()
-            .zip(&st)
-            .map(|(mb, r)| {
-                let sec = &m.sections[mb.section];
-                if r.force >= 0.0 { sec.tension_capacity.map(|c| r.force / c) } else { sec.compression_capacity.map(|c| -r.force / c) }
-            })
-            .collect();
+        let util: Vec<Option<f64>> = st.iter().map(|r| r.utilisation).collect();
         let input = ShapeInput { model: m, displacements: &disp, forces: &forces, slack: &slack, utilisation: Some(&util) };
         // Vector shapes share a budget: one that would take the report's
         // vector drawings past it is drawn as raster panels instead.
@@ -158,46 +148,46 @@ pub fn solve_plots(
         file: Some("path.svg".into()),
         caption: format!(
             "Load path: load factor λ against the watched displacements (load case: {}){}{}",
-            load_case(system, 1.0).replace("1.000 × ", "λ × "),
+            load_case(fields, 1.0).replace("1.000 × ", "λ × "),
             if res.critical_points.is_empty() { "" } else { "; numbered rings are the critical points of the table below" },
             if res.slack_events.is_empty() { "" } else { "; triangles mark the steps at which cables went slack" }
         ),
         svg: plot::path_svg(res),
     });
     let by = if colour_by == ColourBy::Utilisation { "utilisation (force ÷ capacity; over capacity heavy black)" } else { "axial force" };
-    let case = load_case(system, last_lambda);
+    let case = load_case(fields, last_lambda);
     plots.push(Plot {
         file: Some("shape.svg".into()),
         caption: format!("Deformed shape at step {last_step}, the last converged state ({case}), members coloured by {by}"),
-        svg: shape_at(&path.final_state.u, colour_by, format!("step {last_step}, {case}")),
+        svg: shape_at(end.u, colour_by, format!("step {last_step}, {case}")),
     });
     if colour_by == ColourBy::Utilisation {
         plots.push(Plot {
             file: Some("forces.svg".into()),
             caption: format!("Deformed shape at step {last_step} ({case}), members coloured by axial force"),
-            svg: shape_at(&path.final_state.u, ColourBy::Force, format!("step {last_step}, {case}")),
+            svg: shape_at(end.u, ColourBy::Force, format!("step {last_step}, {case}")),
         });
     }
     for at in &opts.shape_at {
         match *at {
-            ShapeAt::Step(s) => match path.fields.iter().find(|f| f.step == s) {
+            ShapeAt::Step(s) => match kept.iter().find(|f| f.step == s) {
                 Some(fl) => {
-                    let case = load_case(system, fl.lambda);
+                    let case = load_case(fields, fl.lambda);
                     plots.push(Plot {
                         file: Some(format!("shape_step{s}.svg")),
                         caption: format!("Deformed shape at step {s} ({case}), members coloured by {by}"),
-                        svg: shape_at(&fl.u, colour_by, format!("step {s}, {case}")),
+                        svg: shape_at(fl.u, colour_by, format!("step {s}, {case}")),
                     });
                 }
                 None => warnings.push(format!(
                     "shape_step{s}.svg not drawn: the field of step {s} was not kept (kept: {}); add --keep-fields {s} (or all)",
-                    if path.fields.is_empty() { "none".to_string() } else { path.fields.iter().map(|f| f.step.to_string()).collect::<Vec<_>>().join(", ") }
+                    if kept.is_empty() { "none".to_string() } else { kept.iter().map(|f| f.step.to_string()).collect::<Vec<_>>().join(", ") }
                 )),
             },
-            ShapeAt::Critical(k) => match path.critical.get(k - 1).and_then(|c| c.field.as_ref().map(|u| (c, u))) {
+            ShapeAt::Critical(k) => match critical.get(k - 1).and_then(|c| c.field.map(|u| (c, u))) {
                 Some((c, u)) => {
-                    let case = load_case(system, c.lambda);
-                    let kind = if c.kind == CriticalKind::Limit { "limit" } else { "bifurcation" };
+                    let case = load_case(fields, c.lambda);
+                    let kind = c.kind_name();
                     plots.push(Plot {
                         file: Some(format!("shape_critical{k}.svg")),
                         caption: format!("Deformed shape at critical point {k} ({kind}, {case}), members coloured by {by}"),
@@ -206,7 +196,7 @@ pub fn solve_plots(
                 }
                 None => warnings.push(format!(
                     "shape_critical{k}.svg not drawn: the run kept the state of {} critical point(s) (keep_fields \"all\" or \"ends\" keeps them), not of number {k}",
-                    path.critical.iter().filter(|c| c.field.is_some()).count()
+                    critical.iter().filter(|c| c.field.is_some()).count()
                 )),
             },
         }
@@ -215,18 +205,18 @@ pub fn solve_plots(
         let map = |values: Vec<f64>, subtitle: String, quantity: &str, unit: &str| {
             fieldmap::plan_map_svg(&fieldmap::MapInput { model: m, values: &values, subtitle, quantity: quantity.into(), unit: unit.into() })
         };
-        let uz: Vec<f64> = node_values(m, system, &path.final_state.u, 2).into_iter().map(|v| m.units.length_out(v)).collect();
+        let uz: Vec<f64> = node_values(m, fields, end.u, 2).into_iter().map(|v| m.units.length_out(v)).collect();
         plots.push(Plot {
             file: Some("displacement.svg".into()),
             caption: format!("Vertical displacement uz in plan at step {last_step}, the last converged state ({case})"),
             svg: map(uz, format!("vertical displacement at step {last_step}, {case}"), "uz, upward positive", len_unit),
         });
-        let kept: Vec<(usize, &crate::path::Critical)> = path.critical.iter().enumerate().filter(|(_, c)| c.field.is_some()).collect();
+        let kept: Vec<(usize, &CriticalState)> = critical.iter().enumerate().filter(|(_, c)| c.field.is_some()).collect();
         for (i, c) in kept.iter().take(MAX_CRITICAL_MAPS) {
-            let u = c.field.as_deref().unwrap_or(&[]);
-            let kind = if c.kind == CriticalKind::Limit { "limit" } else { "bifurcation" };
-            let case = load_case(system, c.lambda);
-            let uz: Vec<f64> = node_values(m, system, u, 2).into_iter().map(|v| m.units.length_out(v)).collect();
+            let u = c.field.unwrap_or(&[]);
+            let kind = c.kind_name();
+            let case = load_case(fields, c.lambda);
+            let uz: Vec<f64> = node_values(m, fields, u, 2).into_iter().map(|v| m.units.length_out(v)).collect();
             plots.push(Plot {
                 file: None,
                 caption: format!("Vertical displacement uz in plan at critical point {} ({kind}, {case}, first step past it: {})", i + 1, c.step),
@@ -240,10 +230,10 @@ pub fn solve_plots(
                 crate::results::CRITICAL_FIELDS_FILE
             ));
         }
-        let with_modes: Vec<(usize, &crate::path::Critical)> = path.critical.iter().enumerate().filter(|(_, c)| !c.modes.is_empty()).collect();
+        let with_modes: Vec<(usize, &CriticalState)> = critical.iter().enumerate().filter(|(_, c)| !c.modes.is_empty()).collect();
         for (i, c) in with_modes.iter().take(MAX_CRITICAL_MAPS) {
-            let kind = if c.kind == CriticalKind::Limit { "limit" } else { "bifurcation" };
-            let phi = node_values(m, system, &c.modes[0], 2);
+            let kind = c.kind_name();
+            let phi = node_values(m, fields, &c.modes[0], 2);
             plots.push(Plot {
                 file: None,
                 caption: format!(
@@ -258,32 +248,32 @@ pub fn solve_plots(
         }
     }
     if let Some(k) = opts.plot_mode {
-        match path.critical.get(k - 1).filter(|c| !c.modes.is_empty()) {
+        match critical.get(k - 1).filter(|c| !c.modes.is_empty()) {
             Some(c) => {
                 // The mode (unit norm, a shape) drawn on the structure at the
                 // critical state, scaled so its largest node movement is a
                 // tenth of the structure's largest extent.
-                let at = c.field.as_deref().unwrap_or(&path.final_state.u);
+                let at = c.field.unwrap_or(end.u);
                 let phi = &c.modes[0];
                 let span = plot::model_extent(m);
                 let big = (0..m.n_nodes())
-                    .map(|n| (0..3).map(|a| system.dofs.displacement(phi, n, a).powi(2)).sum::<f64>().sqrt())
+                    .map(|n| (0..3).map(|a| fields.displacement(phi, n, a).powi(2)).sum::<f64>().sqrt())
                     .fold(0.0, f64::max);
                 let scale = if big > 0.0 { 0.1 * span / big } else { 0.0 };
                 let shown: Vec<f64> = at.iter().zip(phi).map(|(u, p)| u + scale * p).collect();
-                let kind = if c.kind == CriticalKind::Limit { "limit" } else { "bifurcation" };
+                let kind = c.kind_name();
                 plots.push(Plot {
                     file: Some("mode.svg".into()),
                     caption: format!("Critical point {k} ({kind} at load factor {:.6}): its first mode, largest movement drawn at a tenth of the structure's extent", c.lambda),
                     svg: shape_of(&shown, at, ColourBy::Force, format!("critical point {k} ({kind}) plus its first mode")),
                 });
             }
-            None => warnings.push(format!("mode.svg not drawn: the run found {} critical point(s) with modes, not {k}", path.critical.len())),
+            None => warnings.push(format!("mode.svg not drawn: the run found {} critical point(s) with modes, not {k}", critical.len())),
         }
     }
     plots.push(Plot {
         file: Some("convergence.svg".into()),
-        caption: format!("Convergence: relative residual of every iteration of every step (load case: {})", load_case(system, 1.0).replace("1.000 × ", "λ × ")),
+        caption: format!("Convergence: relative residual of every iteration of every step (load case: {})", load_case(fields, 1.0).replace("1.000 × ", "λ × ")),
         svg: plot::convergence_svg(res),
     });
     (plots, warnings)

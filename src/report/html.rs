@@ -13,12 +13,12 @@ use std::fmt::Write as _;
 /// Rows shown in each of the largest-tension and largest-compression tables.
 pub const TOP_MEMBERS: usize = 20;
 /// Rows shown at most in the utilisation and slack tables.
-pub const LISTED_MEMBERS: usize = 200;
+pub(crate) const LISTED_MEMBERS: usize = 200;
 /// Rows shown at most in the reactions and steps tables.
-pub const LISTED_ROWS: usize = 500;
+pub(crate) const LISTED_ROWS: usize = 500;
 
 /// A plot to embed: its caption and its SVG text.
-pub struct Figure<'a> {
+pub(crate) struct Figure<'a> {
     pub caption: &'a str,
     pub svg: &'a str,
 }
@@ -52,7 +52,7 @@ dl.kv dd { margin: 0; }
 "#;
 
 /// Escapes text for HTML content and attribute values.
-pub fn esc(s: &str) -> String {
+pub(crate) fn esc(s: &str) -> String {
     let mut o = String::with_capacity(s.len());
     for c in s.chars() {
         match c {
@@ -68,7 +68,7 @@ pub fn esc(s: &str) -> String {
 }
 
 /// The whole page.
-pub fn report_html(model: &Model, results: &Results, members: &[MemberOut], figures: &[Figure]) -> String {
+pub(crate) fn report_html(model: &Model, results: &Results, members: &[MemberOut], figures: &[Figure]) -> String {
     let mut h = String::new();
     let title = if results.title.is_empty() { "tautline report".to_string() } else { results.title.clone() };
     let _ = write!(
@@ -307,7 +307,7 @@ fn member_tables(h: &mut String, r: &Results, members: &[MemberOut]) {
 }
 
 /// One row per supported (or sprung) node: its reaction components.
-pub struct NodeReactions {
+pub(crate) struct NodeReactions {
     pub node: String,
     /// Rx, Ry, Rz (None: the direction is free and has no spring).
     pub r: [Option<f64>; 3],
@@ -316,7 +316,7 @@ pub struct NodeReactions {
 }
 
 /// The reactions of `results.json` gathered by node, in first-seen order.
-pub fn reactions_by_node(r: &Results) -> Vec<NodeReactions> {
+pub(crate) fn reactions_by_node(r: &Results) -> Vec<NodeReactions> {
     let mut rows: Vec<NodeReactions> = Vec::new();
     let mut index: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
     for x in &r.reactions {

@@ -8,6 +8,9 @@ pub mod numbers;
 pub mod html;
 pub mod plot;
 pub mod png;
+mod run;
+
+pub use run::{RunOutput, WriteError, WriteOptions, Written, write_run};
 
 use crate::results::{MemberOut, Results};
 use std::fmt::Write as _;

@@ -8,7 +8,7 @@ pub fn sig4(v: f64) -> String {
 }
 
 /// `v` at `digits` significant figures (at least 1), as [`sig4`].
-pub fn sig(v: f64, digits: usize) -> String {
+pub(crate) fn sig(v: f64, digits: usize) -> String {
     if v == 0.0 {
         return "0".into();
     }
@@ -32,19 +32,12 @@ pub fn sig(v: f64, digits: usize) -> String {
 
 /// At most 4 significant figures, trailing zeros of the decimals dropped
 /// (`0.01`, `-0.025`, `12.5`): for round values such as colour band edges.
-pub fn sig4_short(v: f64) -> String {
+pub(crate) fn sig4_short(v: f64) -> String {
     let s = sig4(v);
     if s.contains('e') || !s.contains('.') {
         return s;
     }
     s.trim_end_matches('0').trim_end_matches('.').to_string()
-}
-
-/// A signed value at 4 significant figures with an explicit `+` on
-/// positive values (legend ends of a force scale).
-pub fn sig4_signed(v: f64) -> String {
-    let s = sig4(v);
-    if v > 0.0 { format!("+{s}") } else { s }
 }
 
 #[cfg(test)]
@@ -62,7 +55,6 @@ mod tests {
         assert_eq!(sig4(0.0), "0");
         assert_eq!(sig4(1.0), "1.000");
         assert_eq!(sig4(f64::NAN), "NaN");
-        assert_eq!(sig4_signed(3.0), "+3.000");
         assert_eq!(sig4_short(-0.01), "-0.01");
         assert_eq!(sig4_short(12.5), "12.5");
         assert_eq!(sig4_short(200.0), "200");

@@ -8,9 +8,9 @@
 //! `pt stable` / `pt unstable` (path points), `crit` (critical points),
 //! `it` / `refactor` (convergence iterations), `step-boundary`, `member`.
 
-pub mod colour;
-pub mod fieldmap;
-pub mod raster;
+pub(crate) mod colour;
+pub(crate) mod fieldmap;
+pub(crate) mod raster;
 pub mod shape;
 mod svg;
 

@@ -47,11 +47,7 @@ pub fn relax(
     let mut csv = format!("node,ux_{ln},uy_{ln},uz_{ln}\n");
     for (k, node) in m.nodes.iter().enumerate() {
         let d: [f64; 3] = std::array::from_fn(|ax| units.length_out(system.dofs.displacement(&u, k, ax)));
-        let label = if node.label.contains([',', '"']) {
-            format!("\"{}\"", node.label.replace('"', "\"\""))
-        } else {
-            node.label.clone()
-        };
+        let label = tautline::csv::field(&node.label);
         csv += &format!("{label},{:e},{:e},{:e}\n", d[0], d[1], d[2]);
     }
     let mut staged = report::Staged::default();

@@ -6,8 +6,7 @@ use crate::shared::{Counts, Failure, load, prepare_out_dir};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 use tautline::assembly::System;
-use tautline::model::validate::MAX_STEPS;
-use tautline::model::{self, Axis, Control, KeepFields, Method, Model, NodeDir, StrainMeasure};
+use tautline::model::{self, Model};
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
 use tautline::observe::{Answer, IterEvent, Observer, StepEvent};
@@ -90,149 +89,28 @@ pub fn run(cli: Cli) -> Result<u8, Failure> {
 }
 
 
-/// A command-line value that is not one of `names`, in the style of the
-/// model file's errors: the value, then a help line with the nearest name
-/// ("did you mean") and the full list.
-pub(crate) fn bad_value(flag: &str, value: &str, names: &[&str]) -> String {
-    format!("{flag} {value}: not a valid value\n  help: {}", model::validate::suggest::choice_help(value, names))
-}
-
-fn parse_node_dir(m: &Model, s: &str) -> Result<NodeDir, String> {
-    let (node, dir) = s
-        .rsplit_once('.')
-        .ok_or_else(|| format!("--watch {s}: expected NODE.DIR, e.g. A2.z"))?;
-    let node = m.node_index(node).ok_or_else(|| format!("--watch {s}: no node \"{node}\" in the model"))?;
-    let mut chars = dir.chars();
-    let axis = match (chars.next().and_then(Axis::from_letter), chars.next()) {
-        (Some(a), None) => a,
-        _ => return Err(format!("--watch {s}: direction must be x, y or z")),
-    };
-    Ok(NodeDir { node, axis })
-}
-
-/// `--keep-fields`: a policy name, or step numbers separated by commas.
-fn parse_keep_fields(s: &str) -> Result<KeepFields, String> {
-    if let Some(k) = KeepFields::parse(s) {
-        return Ok(k);
-    }
-    let names = KeepFields::NAMES.join(", ");
-    if !s.starts_with(|c: char| c.is_ascii_digit()) {
-        return Err(format!("--keep-fields {s}: expected one of {names}, or step numbers such as 0,5,10"));
-    }
-    s.split(',')
-        .map(|p| match p.trim().parse::<usize>() {
-            Ok(n) if n <= MAX_STEPS => Ok(n),
-            _ => Err(format!("--keep-fields {s}: {p:?} is not a step number from 0 to {MAX_STEPS}; write e.g. 0,5,10")),
-        })
-        .collect::<Result<Vec<_>, _>>()
-        .map(KeepFields::steps)
-}
-
-/// Applies the command-line overrides of `[analysis]`, checking each like the
-/// model file's own value.
+/// The command-line overrides of `[analysis]`, passed through to the
+/// library's validation (`model::validate::Overrides`), which checks them.
 fn apply_overrides(m: &mut Model, o: &Overrides) -> Result<(), String> {
-    let len_in = m.units.length.to_si();
-    let a = &mut m.analysis;
-    if let Some(s) = &o.method {
-        a.method = Method::parse(s).ok_or_else(|| bad_value("--method", s, &Method::NAMES))?;
+    let o = model::validate::Overrides {
+        method: o.method.clone(),
+        control: o.control.clone(),
+        steps: o.steps,
+        target: o.target,
+        arc: o.arc,
+        strain: o.strain.clone(),
+        tolerance: o.tolerance,
+        max_steps: o.max_steps,
+        keep_fields: o.keep_fields.clone(),
+        watch: o.watch.clone(),
+        switch_at: o.switch_at,
+    };
+    let mut notes = Vec::new();
+    let applied = o.apply(m, &mut notes);
+    for n in &notes {
+        eprintln!("note: {n}");
     }
-    // `--control displacement` on a model written for another control: its
-    // `target` is a load factor and its point may only be a watched one, so
-    // both must be said on the command line (or the point in the model).
-    let mut switched_to_displacement = false;
-    if let Some(s) = &o.control {
-        let c = Control::parse(s).ok_or_else(|| bad_value("--control", s, &Control::NAMES))?;
-        switched_to_displacement = c == Control::Displacement && a.control != Control::Displacement;
-        a.control = c;
-    }
-    if let Some(s) = &o.strain {
-        a.strain = match s.as_str() {
-            "green" => StrainMeasure::Green,
-            "engineering" => StrainMeasure::Engineering,
-            _ => return Err(bad_value("--strain", s, &["green", "engineering"])),
-        };
-    }
-    if let Some(n) = o.steps {
-        if n == 0 || n > MAX_STEPS {
-            return Err(format!("--steps {n}: must be from 1 to {MAX_STEPS}"));
-        }
-        a.steps = n;
-    }
-    if let Some(n) = o.max_steps {
-        if n == 0 || n > MAX_STEPS {
-            return Err(format!("--max-steps {n}: must be from 1 to {MAX_STEPS}"));
-        }
-        a.max_steps = n;
-    }
-    if let Some(t) = o.tolerance {
-        if !(t > 0.0 && t <= 0.1) {
-            return Err(format!("--tolerance {t}: must be in (0, 0.1]"));
-        }
-        a.tolerance = t;
-    }
-    if let Some(t) = o.target {
-        if !t.is_finite() || t == 0.0 {
-            return Err(format!("--target {t}: must be a finite, non-zero number"));
-        }
-        a.target = if a.control == Control::Displacement { t * len_in } else { t };
-    }
-    if let Some(arc) = o.arc {
-        if !(arc > 0.0 && arc.is_finite()) {
-            return Err(format!("--arc {arc}: must be positive"));
-        }
-        a.arc = Some(arc * len_in);
-    }
-    if let Some(s) = &o.keep_fields {
-        a.keep_fields = parse_keep_fields(s)?;
-    }
-    if let Some(n) = o.switch_at {
-        if n == 0 || n > MAX_STEPS {
-            return Err(format!("--switch-at {n}: must be from 1 to {MAX_STEPS} (the Nth bifurcation met along the path, counting from 1)"));
-        }
-        if !a.pinpoint {
-            return Err(format!("--switch-at {n}: the model sets pinpoint = false; branch switching needs the bifurcation pinpointed, remove that line"));
-        }
-        a.branch.switch_at = Some(n);
-    }
-    if !o.watch.is_empty() {
-        let watch = o.watch.iter().map(|w| parse_node_dir(m, w)).collect::<Result<Vec<_>, _>>()?;
-        if m.analysis.point.is_none() {
-            m.analysis.point = watch.first().copied();
-        }
-        m.analysis.watch = watch;
-    }
-    if switched_to_displacement {
-        let ln = m.units.length.name();
-        if o.target.is_none() {
-            return Err(format!(
-                "--control displacement needs --target: the controlled displacement in {ln} (the model's target = {} is a load factor, not a displacement)",
-                m.analysis.target
-            ));
-        }
-        if !m.analysis.point_given {
-            if o.watch.is_empty() {
-                return Err(
-                    "--control displacement needs the controlled point: set node and dir in [analysis], or pass --watch NODE.DIR (the first --watch is controlled)"
-                        .into(),
-                );
-            }
-            m.analysis.point = m.analysis.watch.first().copied();
-            if let Some(p) = m.analysis.point {
-                eprintln!("note: --control displacement controls {} (the first --watch)", m.node_dir_label(p));
-            }
-        }
-    }
-    let a = &m.analysis;
-    if a.control == Control::Displacement {
-        match a.point {
-            None => return Err("displacement control needs a controlled point: set node and dir in [analysis]".into()),
-            Some(p) if m.nodes[p.node].fixed[p.axis.index()] => {
-                return Err(format!("the controlled point {} is supported; choose a free direction", m.node_dir_label(p)));
-            }
-            _ => {}
-        }
-    }
-    Ok(())
+    applied
 }
 
 /// `check`'s screening beyond validation: force densities `solve` ignores,
@@ -423,60 +301,16 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         warnings.extend(tautline::screen::result_warnings(m, &util, &strain));
     }
 
-    let mut staged = report::Staged::default();
-    let write = |staged: &mut report::Staged, name: &str, text: String| {
-        staged
-            .add(out, name, text.as_bytes())
-            .map_err(|e| Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(name).display())))
-    };
-    write(&mut staged, "results.json", report::results_json(&res))?;
-    write(&mut staged, "path.csv", report::path_csv(&res))?;
-    write(&mut staged, "members.csv", report::members_csv(&members, m.units.force.name(), m.units.length.name()))?;
-    let labels = report::fields::NodeLabels::of(m);
-    let stream = |staged: &mut report::Staged, name: &str, f: &dyn Fn(&mut std::io::BufWriter<std::fs::File>) -> std::io::Result<()>| {
-        staged
-            .add_with(out, name, f)
-            .map_err(|e| Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(name).display())))
-    };
-    stream(&mut staged, results::FIELDS_FILE, &|w| report::fields::fields_csv(w, m, &system.dofs, &labels, &path.fields))?;
-    stream(&mut staged, results::CRITICAL_FIELDS_FILE, &|w| {
-        report::fields::critical_fields_csv(w, m, &system.dofs, &labels, &path.critical)
-    })?;
-    stream(&mut staged, results::CRITICAL_MODES_FILE, &|w| {
-        report::fields::critical_modes_csv(w, &system.dofs, &labels, &path.critical)
-    })?;
-    // Plots: a plot that cannot be drawn is reported and left out; the
-    // numbers above are written regardless.
-    let (plots, mut plot_warnings) = report::figures::solve_plots(m, &system, &path, &res, &members, &figures);
-    let mut drawn = Vec::new();
-    plot_warnings.splice(0..0, warnings);
-    for p in plots {
-        let name = p.file.clone().unwrap_or_else(|| "a report figure".into());
-        match p.svg {
-            Ok(text) => {
-                if let Some(file) = &p.file {
-                    if png {
-                        let png_name = file.replace(".svg", ".png");
-                        match report::png::svg_to_png(&text) {
-                            Ok(bytes) => staged.add(out, &png_name, &bytes).map_err(|e| {
-                                Failure::Internal(anyhow::anyhow!("writing {}: {e}", out.join(&png_name).display()))
-                            })?,
-                            Err(e) => plot_warnings.push(format!("{png_name} not drawn: {e}")),
-                        }
-                    }
-                    write(&mut staged, file, text.clone())?;
-                }
-                drawn.push((p.caption, text));
-            }
-            Err(e) => plot_warnings.push(format!("{name} not drawn: {e}")),
-        }
-    }
-    let figures: Vec<report::html::Figure> =
-        drawn.iter().map(|(caption, svg): &(String, String)| report::html::Figure { caption, svg }).collect();
-    write(&mut staged, "report.html", report::html::report_html(m, &res, &members, &figures))?;
-    let written: Vec<PathBuf> = staged
-        .commit()
-        .map_err(|e| Failure::Internal(anyhow::anyhow!("renaming output files into {}: {e}", out.display())))?;
+    let fields = results::Fields::new(m, &system, &path);
+    let run = report::RunOutput { results: &res, members: &members, fields: &fields };
+    let options = report::WriteOptions { png, figures };
+    let report::Written { files: written, warnings: drawn_warnings } =
+        report::write_run(out, m, &run, &options)
+            // The message alone: its io error is already in it, and `{:#}`
+            // would print the source again.
+            .map_err(|e| Failure::Internal(anyhow::anyhow!("{e}")))?;
+    let mut plot_warnings = warnings;
+    plot_warnings.extend(drawn_warnings);
 
     let code = match path.stop {
         // A switch asked for and never met: the path is right, but the
@@ -606,7 +440,7 @@ fn print_run_summary(m: &Model, r: &results::Results) {
 /// `verify`: the built-in textbook cases as a table (or JSON); exit 4 if any fails.
 fn verify(format: &str) -> Result<u8, Failure> {
     if format != "text" && format != "json" {
-        return Err(Failure::BadInput(bad_value("--format", format, &["text", "json"])));
+        return Err(Failure::BadInput(model::validate::bad_value("--format", format, &["text", "json"])));
     }
     let cases = tautline::verify::run_all();
     if format == "json" {
@@ -705,7 +539,7 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
     use tautline::model::{FormMethod, FormSettings};
     let mut m = load(model_path, Format::Text)?;
     if let Some(s) = method {
-        let chosen = FormMethod::parse(s).ok_or_else(|| Failure::BadInput(bad_value("--method", s, &FormMethod::NAMES)))?;
+        let chosen = FormMethod::parse(s).ok_or_else(|| Failure::BadInput(model::validate::bad_value("--method", s, &FormMethod::NAMES)))?;
         if chosen != m.form.method && m.form.max_iterations == FormSettings::default_max_iterations(m.form.method) {
             m.form.max_iterations = FormSettings::default_max_iterations(chosen);
         }
@@ -769,7 +603,7 @@ fn form(model_path: &Path, out: &Path, method: Option<&str>) -> Result<u8, Failu
     let mut staged = report::Staged::default();
     let io = |e: std::io::Error| Failure::Internal(anyhow::anyhow!("writing into {}: {e}", out.display()));
     staged.add(out, "formed.toml", model::write::to_toml(&formed).as_bytes()).map_err(io)?;
-    staged.add(out, "form.csv", model::write::form_csv(&m, &found).as_bytes()).map_err(io)?;
+    staged.add(out, "form.csv", tautline::form::form_csv(&m, &found).as_bytes()).map_err(io)?;
     if let Some(text) = &log_csv {
         staged.add(out, "form_log.csv", text.as_bytes()).map_err(io)?;
     }
@@ -817,8 +651,7 @@ fn print_target_log(m: &Model, log: &[tautline::form::targets::TargetIteration])
 fn target_log_csv(m: &Model, log: &[tautline::form::targets::TargetIteration]) -> String {
     let mut s = String::from("iteration,max_error,member\n");
     for t in log {
-        let label = &m.members[t.worst_member].label;
-        let label = if label.contains([',', '"']) { format!("\"{}\"", label.replace('"', "\"\"")) } else { label.clone() };
+        let label = tautline::csv::field(&m.members[t.worst_member].label);
         s += &format!("{},{:e},{}\n", t.iteration, t.max_error, label);
     }
     s

@@ -5,10 +5,12 @@
 //! row would only repeat the header's problem.
 
 use super::csv::{Cell, CsvReader};
-use super::{
-    Ctx, Item, MAX_CSV_BYTES, MAX_ITEMS, MAX_MEMBERS, MAX_NODES, RawLoad, RawMember, RawNode, Refs,
-    Src, Tables, Toml, add_load, add_member, add_node, suggest, to_u32, utf8_text,
-};
+use super::context::{Ctx, Item, Src, Toml, to_u32};
+use super::loads::{RawLoad, add_load};
+use super::members::{RawMember, add_member};
+use super::nodes::{RawNode, add_node};
+use super::refs::Refs;
+use super::{MAX_CSV_BYTES, MAX_ITEMS, MAX_MEMBERS, MAX_NODES, Tables, suggest, utf8_text};
 use crate::model::file::lower_first;
 use crate::model::{Member, NodalLoad, Node};
 use toml::Spanned;
@@ -545,7 +547,6 @@ mod tests {
         expect(&ds, "m.toml", 1, "nodes_csv", "no table named");
     }
 
-
     #[test]
     fn a_table_that_is_not_utf8_names_its_line() {
         let dir = temp_dir();
@@ -557,14 +558,12 @@ mod tests {
         assert_eq!(d.column, Some(5));
     }
 
-
     #[test]
     fn csv_without_a_folder_is_an_error() {
         let text = format!("nodes_csv = \"n.csv\"\n{BASE}");
         let ds = errors(&text);
         expect(&ds, "m.toml", 1, "nodes_csv", "not read from a file");
     }
-
 
     #[test]
     fn csv_header_problems_name_the_file_and_line_1() {
@@ -588,7 +587,6 @@ mod tests {
         assert_eq!(ds.len(), 4, "{ds:?}");
         std::fs::remove_dir_all(&dir).ok();
     }
-
 
     #[test]
     fn csv_row_problems_name_the_file_and_line() {
@@ -631,7 +629,6 @@ mod tests {
         );
         std::fs::remove_dir_all(&dir).ok();
     }
-
 
     #[test]
     fn large_csv_tables_read_in_full() {

@@ -93,11 +93,6 @@ impl ColourScale {
         }
     }
 
-    /// Whether the scale has a negative half (or is all negative).
-    pub fn has_negative(&self) -> bool {
-        self.range().0 < 0.0
-    }
-
     fn continuous(&self, v: f64) -> [u8; 3] {
         match self.ramp {
             Ramp::Sequential { lo, hi, end } => {

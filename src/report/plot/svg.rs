@@ -290,9 +290,4 @@ impl Svg {
             esc(data_uri)
         );
     }
-
-    /// Bytes written so far.
-    pub fn len(&self) -> usize {
-        self.buf.len()
-    }
 }
