@@ -12,6 +12,8 @@
 //! D, by Sylvester's law of inertia the number of negative eigenvalues of K):
 //! it is how limit points and bifurcations are seen.
 
+pub(crate) mod vector;
+
 use crate::assembly::Pattern;
 use faer::Par;
 use faer::dyn_stack::{MemBuffer, MemStack};

@@ -1,5 +1,6 @@
 //! Path constraints that close the corrector system for δλ.
 
+use crate::linalg::vector::dot;
 use crate::solve::Constraint;
 
 /// Displacement control: the controlled DOF keeps the value the predictor gave
@@ -17,9 +18,6 @@ impl Constraint for PrescribedDisplacement {
     }
 }
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
 
 /// Crisfield's cylindrical arc length: the step's displacement increment keeps
 /// the length Δl, ‖Δu + δu_r + δλ·δu_f‖ = Δl, a quadratic in δλ,
@@ -46,7 +44,7 @@ impl Constraint for Cylindrical {
         let b = 2.0 * dot(du_f, &w);
         let c = dot(&w, &w) - self.arc * self.arc;
         let disc = b * b - 4.0 * a * c;
-        if !(a > 0.0) || disc.is_nan() {
+        if a.is_nan() || a <= 0.0 || disc.is_nan() {
             return None;
         }
         if disc < 0.0 {

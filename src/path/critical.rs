@@ -204,12 +204,11 @@ impl<'a> Tracer<'a> {
         let (ua, la, na) = a_state;
         let (mut ua, mut la) = (ua.to_vec(), la);
         let (mut ub, mut lb, mut nb) = (b.u.clone(), b.lambda, ws.negative_pivots());
-        let dist = |x: &[f64], y: &[f64]| x.iter().zip(y).map(|(p, q)| (p - q) * (p - q)).sum::<f64>().sqrt();
-        let full = dist(&ua, &ub);
+        let full = distance(&ua, &ub);
         let mut bisections = 0;
         let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dist(&ua, &ub) > BISECTION_TARGET * full {
-            let half = 0.5 * dist(&ua, &ub);
+        while bisections < MAX_BISECTIONS && distance(&ua, &ub) > BISECTION_TARGET * full {
+            let half = 0.5 * distance(&ua, &ub);
             // Predictor halfway along the chord, corrected on the cylinder of
             // radius `half` around A.
             for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
@@ -255,7 +254,7 @@ impl<'a> Tracer<'a> {
                 nb = ws.negative_pivots();
             }
         }
-        let bracket = dist(&ua, &ub);
+        let bracket = distance(&ua, &ub);
         let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
         let pinpointed = bracket <= tolerance;
         // Modes: the eigenvectors of K nearest zero at B, one per pivot that
@@ -360,10 +359,10 @@ impl<'a> Tracer<'a> {
         let (ua, la, va) = a_state;
         let (mut ua, mut la) = (ua.to_vec(), la);
         let (mut ub, mut lb) = (b.u.clone(), b.lambda);
-        let full = dot_dist(&ua, &ub);
+        let full = distance(&ua, &ub);
         let mut bisections = 0;
         let mut st = b.clone();
-        while bisections < MAX_BISECTIONS && dot_dist(&ua, &ub) > BISECTION_TARGET * full {
+        while bisections < MAX_BISECTIONS && distance(&ua, &ub) > BISECTION_TARGET * full {
             for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
                 *u = 0.5 * (a + b);
             }
@@ -392,7 +391,7 @@ impl<'a> Tracer<'a> {
                 lb = st.lambda;
             }
         }
-        let bracket = dot_dist(&ua, &ub);
+        let bracket = distance(&ua, &ub);
         let tolerance = PINPOINT_TOLERANCE * full.max(dot(&ub, &ub).sqrt());
         let mid: Vec<f64> = ua.iter().zip(&ub).map(|(p, q)| 0.5 * (p + q)).collect();
         Turning {
@@ -415,7 +414,7 @@ impl<'a> Tracer<'a> {
     /// Some(list): the critical points met (empty: none, B is on the path);
     /// None: the walk failed (the caller cuts the step back).
     pub(super) fn probe(&mut self, ws: &mut Workspace, a_state: (&[f64], f64, usize), b: &State, keep_field: bool, observer: &mut dyn Observer) -> Option<Vec<Critical>> {
-        let chord = dot_dist(&b.u, a_state.0);
+        let chord = distance(&b.u, a_state.0);
         self.walk(ws, a_state, b.lambda, chord, b, keep_field, observer)
     }
 
@@ -506,7 +505,7 @@ impl<'a> Tracer<'a> {
                 let inc: Vec<f64> = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
                 let cos = dot(&inc, &du_f) * dl.signum() / (dot(&inc, &inc).sqrt() * norm);
                 let ratio = (st.lambda - pl) / dl;
-                !(cos >= SUB_STEP_TURN) || !(SUB_STEP_LOAD_RATIO..=1.0 / SUB_STEP_LOAD_RATIO).contains(&ratio)
+                cos.is_nan() || cos < SUB_STEP_TURN || !(SUB_STEP_LOAD_RATIO..=1.0 / SUB_STEP_LOAD_RATIO).contains(&ratio)
             };
             if turned_away && arc > arc0 * SMOOTH_ARC_FLOOR {
                 restore(&mut st, pu, pl);

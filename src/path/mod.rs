@@ -18,6 +18,7 @@ pub mod modes;
 mod start;
 mod stepper;
 
+use crate::linalg::vector::{distance, dot};
 use crate::assembly::System;
 use crate::model::{Control, KeepFields, Model, NodeDir};
 use crate::observe::{Answer, Observer, StepEvent};
@@ -456,7 +457,7 @@ impl<'a> Tracer<'a> {
             let mut jumped = false;
             let term = match (&term, a.control) {
                 (Termination::Converged, Control::Load) if !last_increment.is_empty() => {
-                    let now = dot_dist(&state.u, &start_u);
+                    let now = distance(&state.u, &start_u);
                     let before = dot(&last_increment, &last_increment).sqrt();
                     let load_ratio = ((state.lambda - start_lambda) / last_load_increment).abs();
                     jumped = now > JUMP_RATIO * before * load_ratio.max(1e-3);
@@ -487,7 +488,7 @@ impl<'a> Tracer<'a> {
                     let dof = stepper.control_dof.expect("validated: the controlled point is free");
                     let ratio = ((state.u[dof] - start_u[dof]) / last_increment[dof]).abs();
                     let before = dot(&last_increment, &last_increment).sqrt();
-                    let jump = dot_dist(&state.u, &start_u) > JUMP_RATIO * before * ratio.max(1e-3);
+                    let jump = distance(&state.u, &start_u) > JUMP_RATIO * before * ratio.max(1e-3);
                     if turned || jump { Termination::Jumped } else { term }
                 }
                 // The first arc-length step must head for the target: a
@@ -704,7 +705,7 @@ impl<'a> Tracer<'a> {
                     // ---- Branch switching (branch.rs): at the `switch_at`th
                     // bifurcation, leave the primary path along the mode.
                     if switcher.is_due() {
-                        let xi = if a.control == Control::ArcLength { stepper.size.abs() } else { dot_dist(&state.u, &start_u) };
+                        let xi = if a.control == Control::ArcLength { stepper.size.abs() } else { distance(&state.u, &start_u) };
                         let next = points.len();
                         let control_step = match a.control {
                             Control::Displacement => stepper.control_dof.map(|d| (d, stepper.size)),
@@ -915,7 +916,8 @@ fn chord_softens(sys: &System, ws: &mut Workspace, start_u: &[f64], start_lambda
             *ui = a + t * di;
         }
         let lambda = start_lambda + t * (b.lambda - start_lambda);
-        !(ws.stiffness_along(sys, &u, lambda, &d) > 0.0)
+        let k = ws.stiffness_along(sys, &u, lambda, &d);
+        k.is_nan() || k <= 0.0
     })
 }
 
@@ -972,13 +974,7 @@ const PROBE_MAX_STEPS: usize = 400;
 /// distant branch and cut back.
 pub const JUMP_RATIO: f64 = 4.0;
 
-fn dot_dist(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum::<f64>().sqrt()
-}
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
 
 fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {
     state.u = u;

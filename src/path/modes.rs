@@ -12,6 +12,7 @@
 //! accepted only when its residual ‖Kφ − μφ‖ is below [`MODE_RESIDUAL`]
 //! times the largest diagonal entry of K.
 
+use crate::linalg::vector::dot;
 use crate::assembly::System;
 use crate::linalg::Ldlt;
 use nalgebra::{DMatrix, SymmetricEigen};
@@ -38,9 +39,6 @@ pub struct LowModes {
     pub scale: f64,
 }
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
 
 fn norm(a: &[f64]) -> f64 {
     dot(a, a).sqrt()

@@ -40,13 +40,11 @@
 //! J. Nocedal and S. J. Wright, *Numerical Optimization* (2006), §7.2 (two-loop
 //! recursion).
 
+use crate::linalg::vector::dot;
 use crate::assembly::Pattern;
 use crate::linalg::{Inertia, Ldlt};
 use crate::model::Method;
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
 
 fn axpy(c: f64, x: &[f64], y: &mut [f64]) {
     for (yi, xi) in y.iter_mut().zip(x) {

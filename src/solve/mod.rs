@@ -27,6 +27,7 @@ pub mod inverse;
 
 pub use inverse::InverseTangent;
 
+use crate::linalg::vector::dot;
 use crate::assembly::System;
 use crate::model::Method;
 use crate::observe::{Answer, IterEvent, Observer};
@@ -424,9 +425,6 @@ impl Workspace {
 }
 
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
 
 /// Number of members in exactly one of two ascending index lists.
 fn symmetric_difference(a: &[u32], b: &[u32]) -> usize {

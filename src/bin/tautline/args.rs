@@ -18,6 +18,9 @@ pub struct Cli {
     pub command: Command,
 }
 
+// One value per process, parsed once: the size of its largest variant
+// (`solve`'s options) costs nothing worth boxing for.
+#[allow(clippy::large_enum_variant)]
 #[derive(Subcommand, Debug)]
 pub enum Command {
     /// Read and validate a model; print its summary or every problem found
