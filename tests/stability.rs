@@ -545,6 +545,14 @@ fn long_load_steps_do_not_jump_a_dome_limit() {
             assert!(rel_err(c.lambda, first.lambda, 1.0) < 1e-6, "{tag}: {} vs {}", c.lambda, first.lambda);
             assert!(run.path.critical.iter().all(|c| c.lambda > 0.0 && c.lambda <= first.lambda * (1.0 + 1e-9)), "{tag}");
             assert!(run.path.points.iter().all(|p| p.lambda < first.lambda), "{tag}");
+            // The re-walk's states below the limit are kept as path points:
+            // the curve reaches close to the limit even from one step, and
+            // every kept point is an equilibrium state.
+            let last = run.path.points.last().unwrap().lambda;
+            assert!(last > 0.9 * first.lambda, "{tag}: last converged λ = {last}, limit {}", first.lambda);
+            let tol = run.model.analysis.tolerance;
+            assert!(run.path.points.iter().all(|p| p.relative_residual <= tol), "{tag}");
+            assert!(run.path.points.windows(2).all(|w| w[1].lambda > w[0].lambda), "{tag}: λ must rise along the kept points");
         }
     }
 }
@@ -566,6 +574,8 @@ fn one_load_step_past_the_limit_of_an_arch_with_a_spring() {
         let c = run.path.critical.last().unwrap();
         assert!(c.kind == CriticalKind::Limit && c.pinpointed, "{method:?}: {c:?}");
         assert!(rel_err(c.lambda, p_lim(), 1.0) < 1e-6, "{method:?}: {} vs {}", c.lambda, p_lim());
+        let last = run.path.points.last().unwrap().lambda;
+        assert!(last > 0.9 * p_lim() && last < p_lim(), "{method:?}: last converged λ = {last}");
     }
 }
 

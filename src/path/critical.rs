@@ -442,6 +442,7 @@ impl<'a> Tracer<'a> {
             return None;
         }
         let mut arc = arc0;
+        self.walked.clear();
         let mut found = Vec::new();
         let mut prev_inc: Vec<f64> = Vec::new();
         let mut neg = na;
@@ -561,6 +562,11 @@ impl<'a> Tracer<'a> {
                 c.lambda = if direction > 0.0 { pl.max(st.lambda) } else { pl.min(st.lambda) };
                 found.push(c);
                 return Some(found);
+            }
+            // On the path, below any limit (λ still rising, no limit met):
+            // a state the run may keep.
+            if (st.lambda - pl) * direction > 0.0 && !found.iter().any(|c: &Critical| c.kind == CriticalKind::Limit) {
+                self.walked.push((st.u.clone(), st.lambda, now, r));
             }
             prev_inc = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
             arc = (arc * 1.5).min(4.0 * arc0);

@@ -195,6 +195,19 @@ pub struct Tracer<'a> {
     pub corrector: CorrectorConfig,
     /// Extra work done in failed attempts, so totals stay honest.
     pub wasted: StepRecord,
+    /// The states on the path that the latest arc-length re-walk of a load
+    /// step (`walk`) converged to and kept, in order, before any limit point:
+    /// (u, λ, negative pivots, the sub-step's record). When the walk ends
+    /// the run at a limit they become path points (`keep_walked`).
+    walked: Vec<(Vec<f64>, f64, usize, StepRecord)>,
+}
+
+/// Takes work counted as wasted back out (it is kept on a path point).
+fn take_records(from: &mut StepRecord, rec: &StepRecord) {
+    from.iterations = from.iterations.saturating_sub(rec.iterations);
+    from.factorizations = from.factorizations.saturating_sub(rec.factorizations);
+    from.residual_evaluations = from.residual_evaluations.saturating_sub(rec.residual_evaluations);
+    from.line_search_trials = from.line_search_trials.saturating_sub(rec.line_search_trials);
 }
 
 fn add_records(into: &mut StepRecord, from: &StepRecord) {
@@ -206,7 +219,7 @@ fn add_records(into: &mut StepRecord, from: &StepRecord) {
 
 impl<'a> Tracer<'a> {
     pub fn new(system: &'a System, model: &'a Model, corrector: CorrectorConfig) -> Self {
-        Tracer { system, model, corrector, wasted: StepRecord::default() }
+        Tracer { system, model, corrector, wasted: StepRecord::default(), walked: Vec::new() }
     }
 
     fn displacement_of(&self, u: &[f64], nd: NodeDir) -> f64 {
@@ -215,6 +228,35 @@ impl<'a> Tracer<'a> {
 
     fn make_point(&self, state: &State, step: usize, record: StepRecord, negative_pivots: usize) -> PathPoint {
         self.make_point_with(state, step, record, negative_pivots, self.system.slack_members(&state.u))
+    }
+
+    /// A load-control run that stops at a limit its re-walk found keeps the
+    /// walk's states below the limit as path points (the load-deflection
+    /// curve up to the limit, even when the limit lay inside the first
+    /// step), and ends on the last of them with its factor.
+    /// Only states strictly between the walk's start and the limit's load
+    /// factor are kept (the last sub-steps before a limit can end within
+    /// the pinpointing bracket, a rounding above the limit's λ).
+    fn keep_walked(&mut self, ws: &mut Workspace, state: &mut State, points: &mut Vec<PathPoint>, keeper: &mut fields::Keeper, limit: f64) {
+        let walked = std::mem::take(&mut self.walked);
+        let from = state.lambda;
+        let direction = (limit - from).signum();
+        for (u, lambda, neg, rec) in walked {
+            if !((lambda - from) * direction > 0.0 && (limit - lambda) * direction > 0.0) {
+                continue;
+            }
+            let step = points.len();
+            restore(state, u, lambda);
+            let norms = self.system.residual(&state.u, state.lambda, &mut state.r, &mut state.reactions);
+            state.relative_residual = self.system.relative_residual(norms);
+            take_records(&mut self.wasted, &rec);
+            keeper.offer(step, state.lambda, &state.u, false);
+            points.push(self.make_point(state, step, rec, neg));
+        }
+        let mut rec = StepRecord::default();
+        ws.refactor_at(self.system, state, &mut rec);
+        add_records(&mut self.wasted, &rec);
+        ws.set_factor_fresh(true);
     }
 
     /// [`Tracer::make_point`] with the state's slack members already known.
@@ -600,6 +642,8 @@ impl<'a> Tracer<'a> {
                                     add_records(&mut self.wasted, &rec);
                                     ws.set_factor_fresh(true);
                                     if limit {
+                                        let at = critical.iter().rev().find(|c| c.kind == CriticalKind::Limit).map_or(state.lambda, |c| c.lambda);
+                                        self.keep_walked(ws, &mut state, &mut points, &mut keeper, at);
                                         break 'path StopReason::LimitPoint;
                                     }
                                     // A jump with no critical point on the
@@ -789,6 +833,8 @@ impl<'a> Tracer<'a> {
                                 let mut rec = StepRecord::default();
                                 ws.refactor_at(sys, &mut state, &mut rec);
                                 add_records(&mut self.wasted, &rec);
+                                let at = critical.iter().rev().find(|c| c.kind == CriticalKind::Limit).map_or(state.lambda, |c| c.lambda);
+                                self.keep_walked(ws, &mut state, &mut points, &mut keeper, at);
                                 break StopReason::LimitPoint;
                             }
                             restore(&mut state, u0, l0);
