@@ -508,14 +508,6 @@ impl<'a> Tracer<'a> {
                 let ratio = (st.lambda - pl) / dl;
                 cos.is_nan() || cos < SUB_STEP_TURN || !(SUB_STEP_LOAD_RATIO..=1.0 / SUB_STEP_LOAD_RATIO).contains(&ratio)
             };
-            if turned_away && arc > arc0 * SMOOTH_ARC_FLOOR {
-                restore(&mut st, pu, pl);
-                let mut rec = StepRecord::default();
-                ws.refactor_at(sys, &mut st, &mut rec);
-                add_records(&mut self.wasted, &rec);
-                arc *= 0.5;
-                continue;
-            }
             // A sub-step with no change of the pivot count must be smooth
             // to be believed: an arc longer than the path's features can
             // jump over a limit and the snap back below it, landing on a
@@ -524,21 +516,19 @@ impl<'a> Tracer<'a> {
             // walk reported no critical point). The test is the one a load
             // step gets (`crossing_suspected`: Bergan's current stiffness
             // parameter keeps its sign, the load does positive work, the
-            // secant compliance lies within the end tangents'); a sub-step
-            // that fails it is walked again with half the arc.
-            if now == neg && arc > arc0 * SMOOTH_ARC_FLOOR {
-                let c_end = load_compliance(sys, ws);
-                let start = State { u: pu.clone(), lambda: pl, ..st.clone() };
-                let smooth = (st.lambda - pl) * direction > 0.0
-                    && !crossing_suspected(sys, c_start, c_end, &start.u, start.lambda, &st);
-                if !smooth {
-                    restore(&mut st, pu, pl);
-                    let mut rec = StepRecord::default();
-                    ws.refactor_at(sys, &mut st, &mut rec);
-                    add_records(&mut self.wasted, &rec);
-                    arc *= 0.5;
-                    continue;
-                }
+            // secant compliance lies within the end tangents').
+            let rough = now == neg
+                && ((st.lambda - pl) * direction <= 0.0
+                    || crossing_suspected(sys, c_start, load_compliance(sys, ws), &pu, pl, &st));
+            // Either way the sub-step is walked again with half the arc,
+            // down to `SMOOTH_ARC_FLOOR` of the first.
+            if (turned_away || rough) && arc > arc0 * SMOOTH_ARC_FLOOR {
+                restore(&mut st, pu, pl);
+                let mut rec = StepRecord::default();
+                ws.refactor_at(sys, &mut st, &mut rec);
+                add_records(&mut self.wasted, &rec);
+                arc *= 0.5;
+                continue;
             }
             // λ fell along the path: a limit point lies in this sub-step or
             // at its start (λ has its extremum there).
