@@ -590,7 +590,6 @@ impl System {
         self.springs.iter().map(|s| (s.dof, -s.k * u[s.dof])).collect()
     }
 
-    /// Product y = K·x with the symmetric upper-triangle values `k_values`.
     /// x·K·x for the tangent values `k_values` on the upper-triangle pattern.
     pub fn quadratic_form(&self, k_values: &[f64], x: &[f64]) -> f64 {
         let p = &self.pattern;
@@ -605,6 +604,7 @@ impl System {
         sum
     }
 
+    /// Product y = K·x with the symmetric upper-triangle values `k_values`.
     pub fn tangent_times(&self, k_values: &[f64], x: &[f64], y: &mut [f64]) {
         y.fill(0.0);
         let p = &self.pattern;

@@ -564,5 +564,3 @@ impl<'a> Tracer<'a> {
         None
     }
 }
-
-

@@ -31,8 +31,8 @@ pub(super) fn crossing_suspected(sys: &System, c_a: f64, c_b: f64, start_u: &[f6
 /// A load step over which the current stiffness parameter (c = f·K⁻¹f,
 /// Bergan et al. 1978) changes by more than [`STIFFNESS_JUMP`] either way is
 /// long against the path's own scale: what lies between its ends is not
-/// known from them. A 3-ring dome loaded in one step to 120 times its limit
-/// load snapped onto its inverted, stable branch with the same pivot count,
+/// known from them. A 3-ring dome loaded in steps of about 120 times its
+/// limit load snapped onto its inverted, stable branch with the same pivot count,
 /// positive work and a secant compliance close to the start tangent's; only c
 /// (11 times smaller at the end) told. Such a step is walked again by arc
 /// length (`probe`). Softening nets changed c by 1.0–1.9 times per step in
@@ -115,4 +115,3 @@ pub const SUB_STEP_TURN: f64 = 0.7;
 /// The least ratio of a walk's sub-step load increment to its predictor's
 /// (and the inverse of the largest): see `Tracer::walk`.
 pub const SUB_STEP_LOAD_RATIO: f64 = 0.5;
-

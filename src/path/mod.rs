@@ -916,10 +916,7 @@ const PROBE_MAX_STEPS: usize = 400;
 pub const JUMP_RATIO: f64 = 4.0;
 
 
-
 fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {
     state.u = u;
     state.lambda = lambda;
 }
-
-
