@@ -556,6 +556,14 @@ impl<'a> Tracer<'a> {
             // On the path, below any limit (λ still rising, no limit met):
             // a state the run may keep.
             if (st.lambda - pl) * direction > 0.0 && !found.iter().any(|c: &Critical| c.kind == CriticalKind::Limit) {
+                if self.walked.len() >= WALK_KEPT {
+                    // Thin out: keep every second state, the newest among them.
+                    let mut i = 0;
+                    self.walked.retain(|_| {
+                        i += 1;
+                        i % 2 == 0
+                    });
+                }
                 self.walked.push((st.u.clone(), st.lambda, now, r));
             }
             prev_inc = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();

@@ -198,9 +198,15 @@ pub struct Tracer<'a> {
     /// The states on the path that the latest arc-length re-walk of a load
     /// step (`walk`) converged to and kept, in order, before any limit point:
     /// (u, λ, negative pivots, the sub-step's record). When the walk ends
-    /// the run at a limit they become path points (`keep_walked`).
+    /// the run at a limit they become path points (`keep_walked`). At most
+    /// `WALK_KEPT` states (n numbers each): past that every other one is
+    /// dropped, so a long walk on a million-DOF model holds tens of vectors,
+    /// not hundreds.
     walked: Vec<(Vec<f64>, f64, usize, StepRecord)>,
 }
+
+/// See `Tracer::walked`.
+const WALK_KEPT: usize = 32;
 
 /// Takes work counted as wasted back out (it is kept on a path point).
 fn take_records(from: &mut StepRecord, rec: &StepRecord) {
@@ -247,8 +253,9 @@ impl<'a> Tracer<'a> {
             }
             let step = points.len();
             restore(state, u, lambda);
-            let norms = self.system.residual(&state.u, state.lambda, &mut state.r, &mut state.reactions);
-            state.relative_residual = self.system.relative_residual(norms);
+            // The sub-step's converged residual; r and the reactions are
+            // assembled once, at the last state, by the refactorization below.
+            state.relative_residual = rec.residual_history.last().copied().unwrap_or(f64::NAN);
             take_records(&mut self.wasted, &rec);
             keeper.offer(step, state.lambda, &state.u, false);
             points.push(self.make_point(state, step, rec, neg));
@@ -626,6 +633,10 @@ impl<'a> Tracer<'a> {
                                     }
                                 }
                                 let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
+                                if !limit {
+                                    // Only a limit keeps the walk's states.
+                                    self.walked.clear();
+                                }
                                 let clear = outcome.as_ref().is_some_and(|v| v.is_empty());
                                 let retreat = limit || outcome.is_none() || (clear && jumped);
                                 let lambda_tried = state.lambda;
@@ -824,6 +835,9 @@ impl<'a> Tracer<'a> {
                             let l0 = state.lambda;
                             let outcome = self.walk(ws, (&u0, l0, n_here), failure.lambda_tried, 0.0, &state, keep_field, observer);
                             let limit = outcome.iter().flatten().any(|c| c.kind == CriticalKind::Limit);
+                            if !limit {
+                                self.walked.clear();
+                            }
                             if limit {
                                 for mut c in outcome.into_iter().flatten() {
                                     c.step = step;
