@@ -599,3 +599,43 @@ fn displacement_control_does_not_jump_a_snap_back() {
         assert!(msg.contains("snap-back") && msg.contains("arc-length"), "{msg}");
     }
 }
+
+/// A first arc far longer than the path's features: a 6-ring × 18-sector
+/// dome (crown load 1 kN) traced by arc length to 2000 times its reference
+/// load in ten steps takes as its first arc the tangent displacement of
+/// λ = 200, some 400 times the limit load's. Before the first step was
+/// checked against its predictor (`left_branch`), that step converged at
+/// λ = 10 with 11 negative pivots and the bisection reported critical points
+/// at negative load factors. Now the step is cut back, and when no halving
+/// gives a step on the predictor's branch the run stops at the start with a
+/// message asking for a shorter arc, claiming no critical point. With a
+/// short arc the first critical point is the limit that load control
+/// (stepped far past it) finds: the same value by two controls, this
+/// project's own consistency check, no literature value.
+#[test]
+fn an_overlong_first_arc_is_not_believed() {
+    use tautline::generate::{DomeOptions, Loading, lattice_dome};
+    let g = lattice_dome(
+        &DomeOptions { rings: 6, sectors: 18, load: Loading::PerNode(0.0), crown_load: 1000.0, ..DomeOptions::default() },
+        "dome",
+    )
+    .expect("dome");
+    let text = g.toml.replace("target = 1.0", "target = 2000.0");
+    for method in [Method::Newton, Method::Bfgs] {
+        let long = trace(model(&text.replace("control = \"load\"", "control = \"arc-length\"")), method);
+        assert_eq!(long.path.stop, StopReason::NoConvergence, "{method:?}");
+        assert!(long.path.critical.is_empty(), "{method:?}: {:?}", long.path.critical);
+        let msg = tautline::results::stop_message(&long.model, &long.path);
+        assert!(msg.contains("shorter `arc`"), "{msg}");
+    }
+    let load = trace(model(&text.replace("steps = 10", "steps = 2")), Method::Newton);
+    assert_eq!(load.path.stop, StopReason::LimitPoint);
+    let limit = load.path.critical.last().unwrap().lambda;
+    let short = text
+        .replace("control = \"load\"", "control = \"arc-length\"")
+        .replace("[analysis]", "[analysis]\narc = 0.01\nmax_steps = 400\nmax_displacement = 0.2");
+    let arc = trace(model(&short), Method::Newton);
+    let first = arc.path.critical.first().expect("the short arcs meet the limit");
+    assert!(first.kind == CriticalKind::Limit && first.pinpointed, "{first:?}");
+    assert!(rel_err(first.lambda, limit, 1.0) < 1e-6, "{} vs {}", first.lambda, limit);
+}

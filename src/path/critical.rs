@@ -502,12 +502,7 @@ impl<'a> Tracer<'a> {
             // of the predictor's: the tangent at the sub-step's start no
             // longer describes it (past a limit within the sub-step, or on
             // another branch).
-            let turned_away = {
-                let inc: Vec<f64> = st.u.iter().zip(&pu).map(|(u, p)| u - p).collect();
-                let cos = dot(&inc, &du_f) * dl.signum() / (dot(&inc, &inc).sqrt() * norm);
-                let ratio = (st.lambda - pl) / dl;
-                cos.is_nan() || cos < SUB_STEP_TURN || !(SUB_STEP_LOAD_RATIO..=1.0 / SUB_STEP_LOAD_RATIO).contains(&ratio)
-            };
+            let turned_away = left_branch(&pu, pl, &st, &du_f, dl);
             // A sub-step with no change of the pivot count must be smooth
             // to be believed: an arc longer than the path's features can
             // jump over a limit and the snap back below it, landing on a

@@ -96,6 +96,20 @@ impl Tracer<'_> {
     }
 }
 
+/// Whether an arc-length (sub-)step from (u_a, λ_a) to `b` has left the
+/// branch its tangent predictor δλ·(K⁻¹f) (`du_f`, `dl`) pointed along: its
+/// increment turned more than `SUB_STEP_TURN` (about 45°) away from the
+/// predictor, or its load increment is not within `SUB_STEP_LOAD_RATIO`
+/// (a factor of 2) of the predictor's. The cylinder of an arc meets other
+/// branches too; an arc longer than the path's features can converge on
+/// one of them (past a limit within the step, or across a snap).
+pub(super) fn left_branch(u_a: &[f64], lambda_a: f64, b: &State, du_f: &[f64], dl: f64) -> bool {
+    let inc: Vec<f64> = b.u.iter().zip(u_a).map(|(u, p)| u - p).collect();
+    let cos = dot(&inc, du_f) * dl.signum() / (dot(&inc, &inc).sqrt() * dot(du_f, du_f).sqrt());
+    let ratio = (b.lambda - lambda_a) / dl;
+    cos.is_nan() || cos < SUB_STEP_TURN || !(SUB_STEP_LOAD_RATIO..=1.0 / SUB_STEP_LOAD_RATIO).contains(&ratio)
+}
+
 /// See `stiffness_jumped`.
 pub const STIFFNESS_JUMP: f64 = 4.0;
 

@@ -156,6 +156,9 @@ pub struct StepFailure {
     /// a distant part of the path (the cause may be a snap the control
     /// cannot follow, whatever stopped the last, shortest attempt).
     pub jumped_before: bool,
+    /// An attempt at this (first arc-length) step converged off the branch
+    /// its tangent predictor pointed along (`crossing::left_branch`).
+    pub left_branch: bool,
 }
 
 impl EquilibriumPath {
@@ -322,6 +325,8 @@ impl<'a> Tracer<'a> {
         let mut last_failure = None;
         // Whether an attempt at the current step was rejected as a jump.
         let mut step_jumped = false;
+        // Whether an attempt at the current step left its predictor's branch.
+        let mut step_left_branch = false;
         let mut n_cutbacks = 0;
         let mut keeper = Keeper::new(a.keep_fields.resolve(sys.n_free()));
 
@@ -420,6 +425,9 @@ impl<'a> Tracer<'a> {
             _ => f64::NAN,
         };
         let mut turning: Vec<Turning> = Vec::new();
+        // The tangent predictor (K⁻¹f, δλ) of the current step, kept only
+        // for the first arc-length step (see the jump tests below).
+        let mut first_predictor: Option<(Vec<f64>, f64)> = None;
         let stop = 'path: loop {
             let step = points.len();
             if step > a.max_steps {
@@ -491,6 +499,7 @@ impl<'a> Tracer<'a> {
                             *u += dl * d;
                         }
                         state.lambda += dl;
+                        first_predictor = last_increment.is_empty().then(|| (du_f.clone(), dl));
                         let arc = stepper.size;
                         let (t, r) = if stepper.normal_plane {
                             solve::drive(sys, ws, &mut state, &start_u, start_lambda, &NormalPlane, &self.corrector, step, observer)
@@ -551,6 +560,20 @@ impl<'a> Tracer<'a> {
                 {
                     Termination::Jumped
                 }
+                // The first arc is the tool's guess (the tangent displacement
+                // of one load increment), not one the path has shaped: a first
+                // step that left the branch of its predictor (`left_branch`,
+                // the test of the load-step re-walk's sub-steps) is cut back.
+                // A 6-ring dome traced to 4000 times its limit load in ten
+                // arcs jumped from λ = 0 to λ = 10 with 11 negative pivots in
+                // its first step, and the bisection then reported critical
+                // points at negative load factors.
+                (Termination::Converged, Control::ArcLength)
+                    if first_predictor.as_ref().is_some_and(|(du_f, dl)| left_branch(&start_u, start_lambda, &state, du_f, *dl)) =>
+                {
+                    step_left_branch = true;
+                    Termination::Jumped
+                }
                 (Termination::Converged, Control::ArcLength) if !last_increment.is_empty() => {
                     let turned = state.u.iter().zip(&start_u).zip(&last_increment).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
                     if turned { Termination::Jumped } else { term }
@@ -563,6 +586,7 @@ impl<'a> Tracer<'a> {
             match term {
                 Termination::Converged => {
                     step_jumped = false;
+                    step_left_branch = false;
                     let mut record = record;
                     let iterations = record.iterations;
                     // Arc-length: λ first reaching the target ends the path on
@@ -667,6 +691,7 @@ impl<'a> Tracer<'a> {
                                             relative_residual: 0.0,
                                             zero_pivot_dirs: Vec::new(),
                                             jumped_before: true,
+                                            left_branch: false,
                                         });
                                         break 'path StopReason::NoConvergence;
                                     }
@@ -817,6 +842,7 @@ impl<'a> Tracer<'a> {
                         relative_residual: state.relative_residual,
                         zero_pivot_dirs,
                         jumped_before: step_jumped,
+                        left_branch: step_left_branch,
                     };
                     restore(&mut state, start_u, start_lambda);
                     // Back to the last converged state and its tangent.

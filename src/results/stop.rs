@@ -95,9 +95,20 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
                 Termination::MaxIterations => "the corrector ran out of iterations".into(),
                 Termination::Diverged => "the iterations diverged".into(),
                 Termination::ConstraintFailed => "the path constraint had no solution".into(),
-                Termination::Jumped if f.step == 1 && model.analysis.control == crate::model::Control::ArcLength => {
+                Termination::Jumped
+                    if f.step == 1
+                        && model.analysis.control == crate::model::Control::ArcLength
+                        && !f.left_branch =>
+                {
                     "the first step converged only behind the start, away from the target, at every arc length tried \
-                     (the path from the start state heads away from the target for this load direction)"
+                     (the path from the start state heads away from the target for this load direction, or it turns \
+                     back at a limit point closer to the start than the shortest arc tried: give a shorter `arc`)"
+                        .into()
+                }
+                Termination::Jumped if f.step == 1 && model.analysis.control == crate::model::Control::ArcLength => {
+                    "the first step converged behind the start or off the branch its tangent pointed along at every arc length tried (the first arc, \
+                     the tangent displacement of one load increment, is far longer than this path's features): \
+                     give a shorter `arc` or more `steps`"
                         .into()
                 }
                 Termination::Jumped => "the step jumped to a distant part of the path (the structure snaps through here) or turned back on it".into(),
