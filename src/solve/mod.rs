@@ -545,6 +545,9 @@ pub fn drive(
     // Set when the quasi-Newton iterations give up: the failure to report
     // if the Newton fallback is switched off.
     let mut escalate: Option<Termination> = None;
+    // Iterations done when the quasi-Newton corrector refactored at the
+    // step's best state (see the fallback's start below).
+    let mut factored_at_best: Option<usize> = None;
     loop {
         if let Some(term) = escalate.take() {
             if !config.newton_fallback {
@@ -556,7 +559,13 @@ pub fn drive(
             stage_start = rec.iterations;
             pending = None;
             rec.event(Ev::NewtonFallback);
-            if state.relative_residual.is_nan() || state.relative_residual > best_residual {
+            // The first iteration from a stall-refactor made at the best
+            // state was already the fallback's first iteration (a fresh
+            // tangent and the same line search): starting again from that
+            // state would repeat it, factorization and all, to the same
+            // result. The fallback goes on from where it landed.
+            let repeats = state.relative_residual.is_finite() && factored_at_best.is_some_and(|i| i + 1 == rec.iterations);
+            if !repeats && (state.relative_residual.is_nan() || state.relative_residual > best_residual) {
                 state.u.copy_from_slice(&ws.pred_u);
                 state.lambda = pred_lambda;
                 for ((d, u), u0) in delta_u.iter_mut().zip(&state.u).zip(step_start_u) {
@@ -575,6 +584,10 @@ pub fn drive(
             need_factor = false;
             pending = None;
             du_f_valid = false;
+            // At the predictor (the first factorization, `best_residual` not
+            // set yet) or at the lowest residual so far.
+            let at_best = best_residual.is_nan() || state.relative_residual == best_residual;
+            factored_at_best = (!newton && at_best).then_some(rec.iterations);
         }
         if pred_residual.is_nan() {
             pred_residual = state.relative_residual;
