@@ -675,7 +675,9 @@ pub fn drive(
         // and the full step from the tangent there can overshoot by orders
         // of magnitude; the energy line search of the quasi-Newton settings
         // keeps that one step in bounds.
-        let line_search = if newton && !fallback_first {
+        // A Newton run takes its own settings (`line_search` of
+        // `[analysis]`, off unless set).
+        let line_search = if newton && quasi && !fallback_first {
             CorrectorConfig::for_method(Method::Newton, 0.0, 0).line_search
         } else {
             config.line_search
