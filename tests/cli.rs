@@ -1049,3 +1049,32 @@ fn limit_stops_load_control_and_an_unstable_end_is_flagged() {
     assert!(!r.stdout.contains("unstable"), "{r}");
     assert_eq!(json(&sc.path("low/results.json"))["stable_at_end"], true);
 }
+
+/// The run summary says when a quasi-Newton run was finished by Newton
+/// iterations in most steps (4 in 5 or more), pointing to `--method newton`:
+/// a 61 × 61 net at 1600 N per node in 10 steps (9 of them finished by
+/// Newton; Newton alone the faster there, README "Hard paths"). No note for
+/// Newton itself, nor for BFGS on the same net at the default 600 N/m²,
+/// where its iterations finish every step.
+#[test]
+fn the_summary_points_to_newton_when_newton_finished_the_steps() {
+    let sc = Scratch::new("newton-note");
+    let hard = sc.path("hard.toml");
+    let r = tautline(&["generate", "net", "--nx", "61", "--ny", "61", "--node-load", "1600", "-o", s(&hard)]);
+    assert_eq!(r.code, 0, "{r}");
+    let easy = sc.path("easy.toml");
+    let r = tautline(&["generate", "net", "--nx", "61", "--ny", "61", "-o", s(&easy)]);
+    assert_eq!(r.code, 0, "{r}");
+    let note = "steps were finished by Newton iterations";
+    let r = solve(&hard, &sc.path("bfgs"), &["--method", "bfgs", "--steps", "10", "--tolerance", "1e-8"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(r.stdout.contains(note) && r.stdout.contains("`--method newton`"), "{r}");
+    let res = json(&sc.path("bfgs").join("results.json"));
+    assert!(res["totals"]["newton_fallback_steps"].as_u64().unwrap() >= 8, "{}", res["totals"]);
+    let r = solve(&hard, &sc.path("newton"), &["--method", "newton", "--steps", "10", "--tolerance", "1e-8"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(!r.stdout.contains(note), "{r}");
+    let r = solve(&easy, &sc.path("easy"), &["--method", "bfgs"]);
+    assert_eq!(r.code, 0, "{r}");
+    assert!(!r.stdout.contains(note), "{r}");
+}

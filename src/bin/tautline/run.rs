@@ -422,6 +422,9 @@ fn print_run_summary(m: &Model, r: &results::Results) {
         "totals: {} iterations, {} factorizations, {} residual evaluations, {} cut-backs, {:.3} s",
         r.totals.iterations, r.totals.factorizations, r.totals.residual_evaluations, r.totals.cutbacks, r.totals.seconds
     );
+    if let Some(note) = newton_finished_note(r) {
+        println!("{note}");
+    }
     if r.steps.is_empty() {
         // No converged state: the written state is the given geometry, whose
         // imbalance says nothing about equilibrium.
@@ -435,6 +438,26 @@ fn print_run_summary(m: &Model, r: &results::Results) {
         (false, _) => "stopped before the target",
     };
     println!("{status}: {}", r.stop_message);
+}
+
+/// A quasi-Newton run most of whose steps were finished by the Newton
+/// fallback paid for both correctors: on the slack nets measured (README,
+/// "Hard paths") Newton alone took less time there, so the summary says so.
+/// Only from 2 such steps, and at least 4 in 5 of the converged ones: on an
+/// 81 × 81 net at 1600 N per node, 6 of 10 steps finished by Newton and
+/// BFGS was still the faster (1.8 s against 2.3 s, 2026-12-03); on a 61 × 61
+/// net at 1600 N, 9 of 10 and Newton the faster (0.75 s against 0.90 s).
+fn newton_finished_note(r: &results::Results) -> Option<String> {
+    let steps = r.steps.len().saturating_sub(1);
+    let by_newton = r.totals.newton_fallback_steps;
+    (r.analysis.method != "newton" && by_newton >= 2 && 5 * by_newton >= 4 * steps).then(|| {
+        format!(
+            "note: {by_newton} of {steps} steps were finished by Newton iterations after the {} iterations stalled \
+             (cables at the tension-only kink, or a tangent that changes sharply); on such paths `--method newton` \
+             was the faster in the measurements of the README (\"Hard paths\"): try it",
+            r.analysis.method
+        )
+    })
 }
 
 /// `verify`: the built-in textbook cases as a table (or JSON); exit 4 if any fails.
