@@ -123,54 +123,67 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
                 .unwrap_or_default();
             let after_switch = matches!(path.switch, Some(SwitchOutcome::Switched(_)))
                 && model.analysis.control == crate::model::Control::Displacement;
-            let hint = match &f.termination {
+            // Each hint says whether it already advises arc-length control,
+            // so the snap-back advice below is not given twice.
+            let (hint, advises_arc_length): (String, bool) = match &f.termination {
                 // Near a symmetric bifurcation the controlled displacement
                 // moves only at second order along the secondary branch.
-                Termination::Jumped if after_switch => {
+                Termination::Jumped if after_switch => (
                     "after the branch switch, displacement control could not move on along the secondary branch \
                      (near the bifurcation the controlled displacement changes only slowly along it): use control = \"arc-length\""
-                        .into()
-                }
-                Termination::SingularTangent { .. } if !slack.is_empty() => format!(
-                    "cables were slack at the last converged state ({}): raise their prestress, or model them as bars if they may carry compression",
-                    slack.join(", ")
+                        .into(),
+                    true,
+                ),
+                Termination::SingularTangent { .. } if !slack.is_empty() => (
+                    format!(
+                        "cables were slack at the last converged state ({}): raise their prestress, or model them as bars if they may carry compression",
+                        slack.join(", ")
+                    ),
+                    false,
                 ),
                 _ if (f.termination == Termination::Jumped || f.jumped_before)
                     && model.analysis.control == crate::model::Control::Displacement =>
                 {
-                    "displacement control cannot pass a snap-back, where the controlled displacement itself turns back \
-                     (the path reached here only by a jump): use control = \"arc-length\""
-                        .into()
+                    (
+                        "displacement control cannot pass a snap-back, where the controlled displacement itself turns back \
+                         (the path reached here only by a jump): use control = \"arc-length\""
+                            .into(),
+                        true,
+                    )
                 }
-                Termination::SingularTangent { .. } | Termination::Jumped if load_control => {
-                    "if the load has passed a limit point, load control cannot follow it: try control = \"arc-length\" (or \"displacement\")".into()
-                }
-                Termination::SingularTangent { .. } => {
-                    "if this is a limit or bifurcation point, a smaller arc crosses it; otherwise add a support or bracing member".into()
-                }
-                Termination::MaxIterations => format!(
-                    "raise max_iterations (now {}) or take smaller steps (more steps{})",
-                    model.analysis.max_iterations,
-                    if load_control { "" } else { " or a smaller arc" }
+                Termination::SingularTangent { .. } | Termination::Jumped if load_control => (
+                    "if the load has passed a limit point, load control cannot follow it: try control = \"arc-length\" (or \"displacement\")".into(),
+                    true,
                 ),
-                Termination::Diverged => {
-                    "take smaller steps (a quasi-Newton corrector has already finished the step with Newton iterations before giving up)".into()
-                }
-                Termination::ConstraintFailed | Termination::Jumped => {
-                    "try a smaller arc, or arc_variant = \"normal-plane\"".into()
-                }
+                Termination::SingularTangent { .. } => (
+                    "if this is a limit or bifurcation point, a smaller arc crosses it; otherwise add a support or bracing member".into(),
+                    false,
+                ),
+                Termination::MaxIterations => (
+                    format!(
+                        "raise max_iterations (now {}) or take smaller steps (more steps{})",
+                        model.analysis.max_iterations,
+                        if load_control { "" } else { " or a smaller arc" }
+                    ),
+                    false,
+                ),
+                Termination::Diverged => (
+                    "take smaller steps (a quasi-Newton corrector has already finished the step with Newton iterations before giving up)".into(),
+                    false,
+                ),
+                Termination::ConstraintFailed | Termination::Jumped => ("try a smaller arc, or arc_variant = \"normal-plane\"".into(), false),
                 Termination::Converged | Termination::Stopped => {
                     if load_control {
-                        "try more steps or control = \"arc-length\"".into()
+                        ("try more steps or control = \"arc-length\"".into(), true)
                     } else {
-                        "try a smaller step (more steps or a smaller arc) or more max_iterations".into()
+                        ("try a smaller step (more steps or a smaller arc) or more max_iterations".into(), false)
                     }
                 }
             };
             // Near a snap-back there is no equilibrium with the controlled
             // displacement a little further on: every corrector fails there,
             // whatever the cause it reports.
-            let hint: String = if model.analysis.control == crate::model::Control::Displacement && !hint.contains("arc-length") {
+            let hint: String = if model.analysis.control == crate::model::Control::Displacement && !advises_arc_length {
                 format!(
                     "{hint}; if the controlled displacement turns back here (a snap-back), displacement control cannot pass it: \
                      use control = \"arc-length\""
