@@ -140,6 +140,13 @@ pub struct EquilibriumPath {
     /// The imperfection seeded before the run (set by the caller of
     /// [`branch::seed`]).
     pub imperfection: Option<branch::Seed>,
+    /// Members in tension in the given geometry that hold none of it (slack,
+    /// or at most `LOST_PRESTRESS` of it) at the start equilibrium found:
+    /// nothing holds their prestress, and the path starts with them at
+    /// their rest length, on the edge of going slack. Whether the corrector
+    /// then finds a state with such a member just taut or just slack is a
+    /// matter of round-off: the tangent has a kink there.
+    pub lost_at_start: Vec<u32>,
 }
 
 /// A step that failed for good.
@@ -352,9 +359,11 @@ impl<'a> Tracer<'a> {
                 start_failure: None,
                 switch: None,
                 imperfection: None,
+                lost_at_start: Vec::new(),
             };
         }
         ws.set_factor_fresh(true);
+        let mut lost_at_start = Vec::new();
         if state.relative_residual > self.corrector.tolerance {
             // The given geometry is not in balance with its prestress: find
             // the prestressed equilibrium at λ = 0 first.
@@ -395,9 +404,11 @@ impl<'a> Tracer<'a> {
                     start_failure: Some(start_failure),
                     switch: None,
                     imperfection: None,
+                    lost_at_start: Vec::new(),
                 };
             }
             ws.set_factor_fresh(true);
+            lost_at_start = self.lost_prestress(&start_u, &state.u);
         }
         let neg0 = ws.negative_pivots();
         points.push(self.make_point(&state, 0, rec0, neg0));
@@ -907,6 +918,7 @@ impl<'a> Tracer<'a> {
             start_failure: None,
             switch,
             imperfection: None,
+            lost_at_start,
         }
     }
 }

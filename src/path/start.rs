@@ -80,6 +80,21 @@ impl<'a> Tracer<'a> {
         Termination::MaxIterations
     }
 
+    /// The members in tension at `given_u` (the given geometry) that are
+    /// slack at `reached_u`, or keep at most `LOST_PRESTRESS` of that tension.
+    pub(super) fn lost_prestress(&self, given_u: &[f64], reached_u: &[f64]) -> Vec<u32> {
+        let sys = self.system;
+        let given = sys.member_results(given_u);
+        let now = sys.member_results(reached_u);
+        given
+            .iter()
+            .zip(&now)
+            .enumerate()
+            .filter(|(_, (g, n))| g.force > 0.0 && (n.slack || n.force <= LOST_PRESTRESS * g.force))
+            .map(|(m, _)| m as u32)
+            .collect()
+    }
+
     /// What is known when the start has no equilibrium: the given
     /// geometry's imbalance (at `given_u`, the start displacements), the
     /// members in tension there that are slack at `reached` (the last state
@@ -97,15 +112,7 @@ impl<'a> Tracer<'a> {
             per_node.iter().enumerate().filter(|(_, f)| **f > 0.0).map(|(n, f)| (n, f.sqrt())).collect();
         out_of_balance.sort_by(|a, b| b.1.total_cmp(&a.1));
         out_of_balance.truncate(5);
-        let given = sys.member_results(given_u);
-        let now = sys.member_results(&reached.u);
-        let lost_prestress = given
-            .iter()
-            .zip(&now)
-            .enumerate()
-            .filter(|(_, (g, n))| g.force > 0.0 && (n.slack || n.force <= LOST_PRESTRESS * g.force))
-            .map(|(m, _)| m as u32)
-            .collect();
+        let lost_prestress = self.lost_prestress(given_u, &reached.u);
         let free_dirs = match &termination {
             Termination::SingularTangent { dofs } => dofs.iter().take(8).map(|d| sys.dofs.owner(*d)).collect(),
             _ => Vec::new(),
