@@ -15,7 +15,7 @@ mod stop;
 pub use fields::{
     CRITICAL_FIELDS_FILE, CRITICAL_MODES_FILE, CriticalState, Dofs, FIELDS_FILE, Fields, FieldsOut, MemberState, State, fields_out,
 };
-pub use stop::{moving_away, stop_message};
+pub use stop::{lost_at_start_warning, moving_away, stop_message};
 
 /// The one-line caution every output carries (see SAFETY.md).
 pub const CAUTION: &str = "tautline screens and informs; it checks no design code. \

@@ -259,6 +259,8 @@ target = 1.0
             None => {
                 went_on += 1;
                 assert!(!run.path.points.is_empty(), "{method:?}");
+                let w = tautline::results::lost_at_start_warning(&run.model, &run.path).expect("a warning");
+                assert!(w.contains("\"tie\"") && w.contains("rest length"), "{w}");
                 run.path.lost_at_start.iter().map(label).collect()
             }
         };
@@ -268,4 +270,5 @@ target = 1.0
     let g = tautline::generate::saddle_net(&tautline::generate::NetOptions { nx: 9, ny: 9, ..Default::default() }, "net").expect("net");
     let net = trace(model(&g.toml), tautline::model::Method::Bfgs);
     assert!(net.path.lost_at_start.is_empty() && net.path.start_failure.is_none());
+    assert!(tautline::results::lost_at_start_warning(&net.model, &net.path).is_none());
 }

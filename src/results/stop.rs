@@ -205,6 +205,37 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
     }
 }
 
+/// The first `max` of `ids`, comma-separated, and how many more there are.
+fn names(ids: &mut dyn Iterator<Item = String>, max: usize) -> String {
+    let all: Vec<String> = ids.collect();
+    let more = all.len().saturating_sub(max);
+    let mut s = all.into_iter().take(max).collect::<Vec<_>>().join(", ");
+    if more > 0 {
+        s.push_str(&format!(" and {more} more"));
+    }
+    s
+}
+
+/// The warning for a start equilibrium that was found but left members
+/// given a prestress at their rest length (`EquilibriumPath::lost_at_start`):
+/// nothing holds that prestress, and the state is on the kink of the
+/// members' law. None when no member lost its prestress.
+pub fn lost_at_start_warning(model: &Model, path: &EquilibriumPath) -> Option<String> {
+    let lost = &path.lost_at_start;
+    if lost.is_empty() {
+        return None;
+    }
+    let mut ids = lost.iter().map(|&m| format!("{:?}", model.members[m as usize].label));
+    Some(format!(
+        "{} member(s) lost the tension given to them on the way to the start equilibrium ({}): nothing in the structure \
+         holds that prestress, so the path starts with them at their rest length, on the edge of going slack, and the \
+         stiffness there depends on which way they are pushed; give the structure what holds the prestress (form finding: \
+         tautline form, or the supports or members it needs), or give these members rest lengths instead of a prestress",
+        lost.len(),
+        names(&mut ids, 5)
+    ))
+}
+
 /// Why the prestressed start has no equilibrium, in the model's words:
 /// the members that cannot hold their tension, what is then free to move,
 /// where the given geometry is out of balance, and what to do.
@@ -214,15 +245,6 @@ fn start_failure_message(model: &Model, path: &EquilibriumPath) -> String {
         return format!("no equilibrium was found at the start load factor {lambda:.6}");
     };
     let units = &model.units;
-    let names = |ids: &mut dyn Iterator<Item = String>, max: usize| {
-        let all: Vec<String> = ids.collect();
-        let more = all.len().saturating_sub(max);
-        let mut s = all.into_iter().take(max).collect::<Vec<_>>().join(", ");
-        if more > 0 {
-            s.push_str(&format!(" and {more} more"));
-        }
-        s
-    };
     let how = match &f.termination {
         Termination::SingularTangent { .. } => "the corrector came to rest on a singular tangent",
         Termination::MaxIterations => "the corrector ran out of iterations",

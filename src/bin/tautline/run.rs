@@ -300,7 +300,7 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
         let strain: Vec<f64> = members.iter().map(|x| x.strain).collect();
         warnings.extend(tautline::screen::result_warnings(m, &util, &strain));
     }
-    if let Some(w) = lost_at_start_warning(m, &path.lost_at_start) {
+    if let Some(w) = results::lost_at_start_warning(m, &path) {
         warnings.push(w);
     }
 
@@ -441,25 +441,6 @@ fn print_run_summary(m: &Model, r: &results::Results) {
         (false, _) => "stopped before the target",
     };
     println!("{status}: {}", r.stop_message);
-}
-
-/// Members whose given prestress nothing holds: the start equilibrium left
-/// them at their rest length, where a cable's stiffness jumps, so the state
-/// the path starts from is on the edge of one going slack (`path::EquilibriumPath::lost_at_start`).
-fn lost_at_start_warning(m: &Model, lost: &[u32]) -> Option<String> {
-    if lost.is_empty() {
-        return None;
-    }
-    let names: Vec<String> = lost.iter().take(5).map(|&i| format!("{:?}", m.members[i as usize].label)).collect();
-    let more = if lost.len() > 5 { format!(" and {} more", lost.len() - 5) } else { String::new() };
-    Some(format!(
-        "{} member(s) lost the tension given to them on the way to the start equilibrium ({}{more}): nothing in the structure \
-         holds that prestress, so the path starts with them at their rest length, on the edge of going slack, and the \
-         stiffness there depends on which way they are pushed; give the structure what holds the prestress (form finding: \
-         tautline form, or the supports or members it needs), or give these members rest lengths instead of a prestress",
-        lost.len(),
-        names.join(", ")
-    ))
 }
 
 /// A quasi-Newton run most of whose steps were finished by the Newton
