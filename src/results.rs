@@ -15,7 +15,7 @@ mod stop;
 pub use fields::{
     CRITICAL_FIELDS_FILE, CRITICAL_MODES_FILE, CriticalState, Dofs, FIELDS_FILE, Fields, FieldsOut, MemberState, State, fields_out,
 };
-pub use stop::{lost_at_start_warning, moving_away, stop_message};
+pub use stop::{lost_at_start_warning, moving_away, stop_message, unstable_chord_warning};
 
 /// The one-line caution every output carries (see SAFETY.md).
 pub const CAUTION: &str = "tautline screens and informs; it checks no design code. \
@@ -139,6 +139,10 @@ pub struct StepOut {
     /// False when the pivot count was carried over from an earlier
     /// factorization (`stability_check = "on-refactor"`).
     pub pivots_checked: bool,
+    /// Arc-length: the step joins two stable states across states whose
+    /// tangent is not positive along its chord, even at the smallest arc
+    /// (see `unstable_chord_warning`); false otherwise.
+    pub unstable_chord: bool,
     /// Displacement of the controlled point, model length units.
     pub point: f64,
     /// Displacements of the watched DOFs, in `watch` order, model length units.
@@ -400,6 +404,7 @@ pub fn build(model: &Model, system: &System, path: &EquilibriumPath, wasted: &cr
             residual: p.relative_residual,
             negative_pivots: p.negative_pivots,
             pivots_checked: p.pivots_checked,
+            unstable_chord: p.unstable_chord,
             point: len(p.point),
             watched: p.watched.iter().map(|v| len(*v)).collect(),
             residual_history: p.record.residual_history.clone(),

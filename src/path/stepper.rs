@@ -114,13 +114,21 @@ impl Stepper {
             self.min_size = self.min_size.min(self.first_cap * self.cut * (1.0 - 1e-12));
             return true;
         }
-        let next = 0.5 * self.size;
         // A step of zero length cannot be halved into anything new.
-        if next.abs() < self.min_size || next == 0.0 {
+        if !self.can_cut_back() {
             return false;
         }
-        self.size = next;
+        self.size *= 0.5;
         true
+    }
+
+    /// Whether [`Self::cut_back`] would give a new step size.
+    pub(super) fn can_cut_back(&self) -> bool {
+        if self.on_first && 0.5 * self.size.abs() > self.first_cap {
+            return true;
+        }
+        let next = 0.5 * self.size;
+        next.abs() >= self.min_size && next != 0.0
     }
 
     pub(super) fn converged(&mut self, iterations: usize) {

@@ -236,6 +236,24 @@ pub fn lost_at_start_warning(model: &Model, path: &EquilibriumPath) -> Option<St
     ))
 }
 
+/// The warning for arc-length steps kept although their chord, between two
+/// stable states, passed through states whose tangent is not positive along
+/// it even at the smallest arc (`PathPoint::unstable_chord`). None when no
+/// step was kept so.
+pub fn unstable_chord_warning(path: &EquilibriumPath) -> Option<String> {
+    let steps: Vec<&crate::path::PathPoint> = path.points.iter().filter(|p| p.unstable_chord).collect();
+    let first = steps.first()?;
+    let mut ids = steps.iter().map(|p| p.step.to_string());
+    Some(format!(
+        "arc-length step(s) {} (the first ending at load factor {:.6}) join two stable states, but the tangent along the \
+         step's chord is not positive somewhere between them even at the smallest arc allowed: the path may pass through \
+         an unstable stretch there (limit points, bifurcations, a snap) that was not traced and whose critical points are \
+         not reported; trace it with a shorter `arc` or a larger `max_cutbacks`",
+        names(&mut ids, 8),
+        first.lambda
+    ))
+}
+
 /// Why the prestressed start has no equilibrium, in the model's words:
 /// the members that cannot hold their tension, what is then free to move,
 /// where the given geometry is out of balance, and what to do.

@@ -303,6 +303,9 @@ fn solve(m: &Model, out: &Path, model_path: Option<&Path>, force: bool, outputs:
     if let Some(w) = results::lost_at_start_warning(m, &path) {
         warnings.push(w);
     }
+    if let Some(w) = results::unstable_chord_warning(&path) {
+        warnings.push(w);
+    }
 
     let fields = results::Fields::new(m, &system, &path);
     let run = report::RunOutput { results: &res, members: &members, fields: &fields };
