@@ -1,6 +1,8 @@
 //! Sparse symmetric LDLᵀ factorization of the tangent: the only place that
-//! talks to faer. The symbolic analysis (AMD ordering, elimination tree,
+//! talks to faer. The symbolic analysis (ordering, elimination tree,
 //! supernodes) runs once per pattern; each refactorization is numeric only.
+//! The ordering is faer's AMD or the nested dissection of [`ordering`],
+//! whichever gives the factor fewer entries.
 //!
 //! Indices go to faer as u32, as the pattern stores them (faer's symbolic
 //! and numeric LDLᵀ are generic over the index type): no usize copy of the
@@ -12,6 +14,7 @@
 //! D, by Sylvester's law of inertia the number of negative eigenvalues of K):
 //! it is how limit points and bifurcations are seen.
 
+pub(crate) mod ordering;
 pub(crate) mod vector;
 
 use crate::assembly::Pattern;
@@ -25,6 +28,7 @@ use faer::sparse::linalg::cholesky::{
 use faer::sparse::linalg::cholesky::simplicial::SimplicialLdltRef;
 use faer::sparse::linalg::cholesky::supernodal::SupernodalLdltRef;
 use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
+use faer::perm::PermRef;
 use faer::{Conj, MatMut, Side, Spec};
 
 /// A pivot is taken as zero when |d| falls below this fraction of the
@@ -86,20 +90,32 @@ fn symbolic_view(p: &Pattern) -> SymbolicSparseColMatRef<'_, u32> {
 impl Ldlt {
     /// Symbolic analysis of the pattern (once per structure).
     pub fn new(pattern: &Pattern, par: Par) -> Result<Ldlt, LinalgError> {
-        let symbolic = factorize_symbolic_cholesky(
-            symbolic_view(pattern),
-            Side::Upper,
-            SymmetricOrdering::Amd,
-            CholeskySymbolicParams::default(),
-        )
-        .map_err(|e| match e {
-            faer::sparse::FaerError::IndexOverflow => LinalgError::Analysis(
-                "the factor of this tangent needs more entries than 32-bit indices hold; \
-                 the model is too large for tautline's factorization"
-                    .into(),
-            ),
-            e => LinalgError::Analysis(format!("{e:?}")),
-        })?;
+        let analyse = |ordering: SymmetricOrdering<'_, u32>| {
+            factorize_symbolic_cholesky(symbolic_view(pattern), Side::Upper, ordering, CholeskySymbolicParams::default())
+                .map_err(|e| match e {
+                    faer::sparse::FaerError::IndexOverflow => LinalgError::Analysis(
+                        "the factor of this tangent needs more entries than 32-bit indices hold; \
+                         the model is too large for tautline's factorization"
+                            .into(),
+                    ),
+                    e => LinalgError::Analysis(format!("{e:?}")),
+                })
+        };
+        let amd = analyse(SymmetricOrdering::Amd);
+        let dissected = {
+            let order = ordering::nested_dissection(pattern);
+            analyse(SymmetricOrdering::Custom(PermRef::new_checked(&order.fwd, &order.inv, pattern.n)))
+        };
+        // The factor with fewer entries: less memory, and on the meshes
+        // here fewer operations too.
+        let symbolic = match (amd, dissected) {
+            (Ok(a), Ok(d)) => {
+                if d.len_val() < a.len_val() { d } else { a }
+            }
+            (Ok(a), Err(_)) => a,
+            (Err(_), Ok(d)) => d,
+            (Err(e), Err(_)) => return Err(e),
+        };
         let factor_mem = MemBuffer::try_new(
             symbolic.factorize_numeric_ldlt_scratch::<f64>(par, Spec::<LdltParams, f64>::default()),
         )
