@@ -68,6 +68,19 @@ impl std::fmt::Display for LinalgError {
 
 impl std::error::Error for LinalgError {}
 
+/// Which elimination orderings `Ldlt` analyses.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Ordering {
+    /// Both; the one with fewer factor entries is kept.
+    Smaller,
+    /// faer's approximate minimum degree only.
+    #[cfg_attr(not(test), allow(dead_code))]
+    Amd,
+    /// tautline's nested dissection only.
+    #[cfg_attr(not(test), allow(dead_code))]
+    Dissection,
+}
+
 /// Symbolic analysis of one pattern plus the numeric factor of the latest
 /// tangent.
 pub struct Ldlt {
@@ -88,8 +101,13 @@ fn symbolic_view(p: &Pattern) -> SymbolicSparseColMatRef<'_, u32> {
 }
 
 impl Ldlt {
-    /// Symbolic analysis of the pattern (once per structure).
+    /// Symbolic analysis of the pattern (once per structure), under the
+    /// ordering that gives the smaller factor.
     pub fn new(pattern: &Pattern, par: Par) -> Result<Ldlt, LinalgError> {
+        Ldlt::with_ordering(pattern, par, Ordering::Smaller)
+    }
+
+    fn with_ordering(pattern: &Pattern, par: Par, choice: Ordering) -> Result<Ldlt, LinalgError> {
         let analyse = |ordering: SymmetricOrdering<'_, u32>| {
             factorize_symbolic_cholesky(symbolic_view(pattern), Side::Upper, ordering, CholeskySymbolicParams::default())
                 .map_err(|e| match e {
@@ -101,20 +119,21 @@ impl Ldlt {
                     e => LinalgError::Analysis(format!("{e:?}")),
                 })
         };
-        let amd = analyse(SymmetricOrdering::Amd);
-        let dissected = {
+        let amd = (choice != Ordering::Dissection).then(|| analyse(SymmetricOrdering::Amd));
+        let dissected = (choice != Ordering::Amd).then(|| {
             let order = ordering::nested_dissection(pattern);
             analyse(SymmetricOrdering::Custom(PermRef::new_checked(&order.fwd, &order.inv, pattern.n)))
-        };
+        });
         // The factor with fewer entries: less memory, and on the meshes
         // here fewer operations too.
         let symbolic = match (amd, dissected) {
-            (Ok(a), Ok(d)) => {
+            (Some(Ok(a)), Some(Ok(d))) => {
                 if d.len_val() < a.len_val() { d } else { a }
             }
-            (Ok(a), Err(_)) => a,
-            (Err(_), Ok(d)) => d,
-            (Err(e), Err(_)) => return Err(e),
+            (Some(Ok(a)), _) => a,
+            (_, Some(Ok(d))) => d,
+            (Some(Err(e)), _) | (None, Some(Err(e))) => return Err(e),
+            (None, None) => unreachable!("at least one ordering is analysed"),
         };
         let factor_mem = MemBuffer::try_new(
             symbolic.factorize_numeric_ldlt_scratch::<f64>(par, Spec::<LdltParams, f64>::default()),
@@ -320,5 +339,91 @@ mod tests {
         let mut f = Ldlt::new(&p, Par::Seq).unwrap();
         let inertia = f.factorize(&p, &v);
         assert!(inertia.is_singular(), "{inertia:?}");
+    }
+
+    /// A random sparse symmetric matrix on a random node graph (1–3 DOFs a
+    /// node, several components, isolated nodes), strictly diagonally
+    /// dominant with diagonal signs drawn at random: its inertia is that of
+    /// its diagonal (A(t) = D + t·(A − D) stays strictly dominant, so
+    /// nonsingular, for t in [0, 1]: no eigenvalue crosses zero).
+    #[allow(clippy::needless_range_loop)] // a[r][c] and a[c][r] together
+    fn random_dominant(seed: u64) -> (Pattern, Vec<f64>, usize) {
+        let mut state = seed.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+        let mut next = move || {
+            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let n_nodes = 1 + (next() * 40.0) as usize;
+        let mut first = vec![0usize];
+        for _ in 0..n_nodes {
+            first.push(first.last().unwrap() + 1 + (next() * 3.0) as usize);
+        }
+        let n = first[n_nodes];
+        let mut a = vec![vec![0.0f64; n]; n];
+        // Edges only inside blocks of nodes, so the graph has components.
+        let block = 1 + (next() * 12.0) as usize;
+        let p_edge = 0.1 + 0.4 * next();
+        for i in 0..n_nodes {
+            for j in i..n_nodes {
+                if i != j && (i / block != j / block || next() > p_edge) {
+                    continue;
+                }
+                for r in first[i]..first[i + 1] {
+                    for c in first[j]..first[j + 1] {
+                        if r != c {
+                            let v = 2.0 * next() - 1.0;
+                            a[r][c] = v;
+                            a[c][r] = v;
+                        }
+                    }
+                }
+            }
+        }
+        let mut negative = 0;
+        for r in 0..n {
+            let off: f64 = a[r].iter().map(|v| v.abs()).sum();
+            let sign = if next() < 0.3 { -1.0 } else { 1.0 };
+            negative += (sign < 0.0) as usize;
+            a[r][r] = sign * (off + 0.5 + next());
+        }
+        let (mut col_ptr, mut row_idx, mut vals) = (vec![0usize], Vec::new(), Vec::new());
+        for c in 0..n {
+            for (r, row) in a.iter().enumerate().take(c + 1) {
+                if row[c] != 0.0 {
+                    row_idx.push(r);
+                    vals.push(row[c]);
+                }
+            }
+            col_ptr.push(row_idx.len());
+        }
+        let p = Pattern::from_upper_csc(n, &col_ptr, &row_idx).unwrap();
+        (p, vals, negative)
+    }
+
+    #[test]
+    fn both_orderings_solve_and_count_on_random_graphs() {
+        for seed in 0..200 {
+            let (p, v, negative) = random_dominant(seed);
+            for choice in [Ordering::Amd, Ordering::Dissection, Ordering::Smaller] {
+                let mut f = Ldlt::with_ordering(&p, Par::Seq, choice).unwrap();
+                let inertia = f.factorize(&p, &v);
+                assert_eq!(inertia.negative, negative, "seed {seed}, {choice:?}");
+                assert!(!inertia.is_singular(), "seed {seed}, {choice:?}");
+                // b = A·1, so x must come back as ones.
+                let mut x = vec![0.0; p.n];
+                for c in 0..p.n {
+                    let col = p.col_ptr[c] as usize..p.col_ptr[c + 1] as usize;
+                    for (&r, &a) in p.row_idx[col.clone()].iter().zip(&v[col]) {
+                        x[r as usize] += a;
+                        if r as usize != c {
+                            x[c] += a;
+                        }
+                    }
+                }
+                f.solve_in_place(&mut x);
+                let err = x.iter().map(|xi| (xi - 1.0).abs()).fold(0.0, f64::max);
+                assert!(err < 1e-10, "seed {seed}, {choice:?}: error {err:e}");
+            }
+        }
     }
 }
