@@ -557,6 +557,48 @@ fn long_load_steps_do_not_jump_a_dome_limit() {
     }
 }
 
+/// A perfect 4-ring × 9-sector dome (0.5 m rise, 3000 N/m² on the plan)
+/// whose first limit is preceded by seven double bifurcations, loaded in
+/// five load steps to about 30 times that limit, so the first step's
+/// re-walk must pass them all. One sub-step of the walk crossed the snap
+/// to the inverted branch (6 to 17 negative pivots, still within 45° of
+/// its predictor), and the bisection of that sub-step landed behind its
+/// start on the cylinder around it: Newton reported the first three
+/// bifurcations twice, the second time in reverse, and "a limit at
+/// λ = −0.0044", with the path left at λ = 0. Every corrector must now stop
+/// at the first limit of the same dome traced by arc length (this
+/// project's own value: a consistency check between two controls, no
+/// literature value), within 1e-6, with every critical point between 0 and
+/// it, each leading the pivot count on from where the one before left it.
+#[test]
+fn a_walk_past_clustered_bifurcations_does_not_jump_the_snap() {
+    use tautline::generate::{DomeOptions, Loading, lattice_dome};
+    let g = lattice_dome(&DomeOptions { rings: 4, sectors: 9, rise: 0.5, load: Loading::Plan(3000.0), ..DomeOptions::default() }, "dome")
+        .expect("dome");
+    let arc = g
+        .toml
+        .replace("control = \"load\"", "control = \"arc-length\"")
+        .replace("[analysis]", "[analysis]\narc = 0.005\nmax_steps = 400\nmax_displacement = 0.2");
+    let reference = trace(model(&arc), Method::Newton);
+    let first = reference.path.critical.iter().find(|c| c.kind == CriticalKind::Limit).expect("the arc-length run meets the limit").clone();
+    assert!(first.pinpointed);
+    let before = reference.path.critical.iter().filter(|c| c.lambda < first.lambda).count();
+    assert!(before >= 7, "the arc-length run should pass the bifurcations first: {:?}", reference.path.critical);
+    let text = g.toml.replace("steps = 10", "steps = 5").replace("[analysis]", "[analysis]\ntolerance = 1e-10");
+    for method in ALL_METHODS {
+        let run = trace(model(&text), method);
+        let crit = &run.path.critical;
+        let lambdas: Vec<f64> = crit.iter().map(|c| c.lambda).collect();
+        assert_eq!(run.path.stop, StopReason::LimitPoint, "{method:?}: {lambdas:?}");
+        let c = crit.last().unwrap();
+        assert!(c.kind == CriticalKind::Limit && c.pinpointed, "{method:?}: {c:?}");
+        assert!(rel_err(c.lambda, first.lambda, 1.0) < 1e-6, "{method:?}: {} vs {}", c.lambda, first.lambda);
+        assert!(crit.iter().all(|c| c.lambda > 0.0 && c.lambda <= first.lambda * (1.0 + 1e-9)), "{method:?}: {lambdas:?}");
+        assert!(crit.windows(2).all(|w| w[1].pivots.0 == w[0].pivots.1 && w[1].lambda > w[0].lambda), "{method:?}: {lambdas:?}");
+        assert!(run.path.points.last().unwrap().lambda > 0.9 * first.lambda, "{method:?}: path left at {:?}", run.path.points.last().map(|p| p.lambda));
+    }
+}
+
 /// The arch with a spring in series (`spring_arch`) loaded in ONE load step
 /// to five times its limit load: the stiff spring hides the snap in every
 /// end-point test (the compliance along the load and the secant change by

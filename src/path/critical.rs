@@ -134,6 +134,20 @@ pub(super) fn push_critical(list: &mut Vec<Critical>, c: Critical, same_step_as_
     list.push(c);
 }
 
+/// Whether the critical points of one sub-step, in order, lead the count of
+/// negative pivots from `from` to `to`, each pinpointed and each starting at
+/// the count the one before it left.
+pub(super) fn accounts_for(points: &[Critical], from: usize, to: usize) -> bool {
+    let mut count = from;
+    for c in points {
+        if !c.pinpointed || c.pivots.0 != count {
+            return false;
+        }
+        count = c.pivots.1;
+    }
+    count == to
+}
+
 /// Whether `c` is the last point of `list` again (see [`push_critical`]).
 pub(super) fn coincides(list: &[Critical], c: &Critical, same_step_as_last: bool) -> bool {
     same_step_as_last && list.last().is_some_and(|l| (l.lambda - c.lambda).abs() <= COINCIDENT * l.lambda.abs().max(1.0))
@@ -208,16 +222,32 @@ impl<'a> Tracer<'a> {
         let mut bisections = 0;
         let mut st = b.clone();
         while bisections < MAX_BISECTIONS && distance(&ua, &ub) > BISECTION_TARGET * full {
-            let half = 0.5 * distance(&ua, &ub);
+            let width = distance(&ua, &ub);
             // Predictor halfway along the chord, corrected on the cylinder of
-            // radius `half` around A.
-            for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
-                *u = 0.5 * (a + b);
+            // radius `half` around A. The cylinder also meets the path behind
+            // A; a state found there is not in the bracket (it is further from
+            // B than A is), and bisecting towards it would report the
+            // critical points behind A again, in reverse: a 4 × 9 dome loaded
+            // in one step to 9 times its limit did that, listing its first
+            // three bifurcations twice and a limit at a negative load factor.
+            // Such a landing is tried again a quarter of the way from A; if
+            // that lands behind A too, the bisection stops there.
+            let mut term = Termination::MaxIterations;
+            for frac in [0.5, 0.25] {
+                for ((u, a), b) in st.u.iter_mut().zip(&ua).zip(&ub) {
+                    *u = a + frac * (b - a);
+                }
+                st.lambda = la + frac * (lb - la);
+                ws.set_factor_fresh(false);
+                let (t, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: frac * width }, &self.corrector, 0, observer);
+                add_records(&mut self.wasted, &rec);
+                term = t;
+                let behind = term == Termination::Converged && distance(&st.u, &ub) >= width;
+                if !behind {
+                    break;
+                }
+                term = Termination::Jumped;
             }
-            st.lambda = 0.5 * (la + lb);
-            ws.set_factor_fresh(false);
-            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: half }, &self.corrector, 0, observer);
-            add_records(&mut self.wasted, &rec);
             if matches!(term, Termination::SingularTangent { .. }) && st.relative_residual <= self.corrector.tolerance {
                 // The state between the bracket's ends is already in
                 // equilibrium and its tangent is singular: exactly on the
@@ -531,6 +561,21 @@ impl<'a> Tracer<'a> {
             if now != neg {
                 let (points, ended) =
                     self.pinpoint_all(ws, (&pu, pl, neg), &mut st, keep_field, Some((lambda_b, direction)), observer);
+                // A sub-step is believed only when the critical points
+                // pinpointed on the way from its start account for the
+                // whole change of the count (or end the walk): one that
+                // jumped to another branch (a 4 × 9 dome's sub-step went from
+                // 6 to 17 negative pivots across its snap, still within 45°
+                // of its predictor) has bisection states that cannot reach
+                // it. Walked again with half the arc.
+                if !ended && !accounts_for(&points, neg, now) && arc > arc0 * SMOOTH_ARC_FLOOR {
+                    restore(&mut st, pu, pl);
+                    let mut rec = StepRecord::default();
+                    ws.refactor_at(sys, &mut st, &mut rec);
+                    add_records(&mut self.wasted, &rec);
+                    arc *= 0.5;
+                    continue;
+                }
                 found.extend(points);
                 if ended {
                     return Some(found);
