@@ -192,6 +192,28 @@ pub fn find_mechanism(system: &System, ws: &mut Workspace, state: &State) -> Vec
 }
 
 impl<'a> Tracer<'a> {
+    /// The corrector of the bisection and of the load-control walk: Newton,
+    /// whatever the run's, with the run's tolerance and budget and the line
+    /// search a Newton run of this model takes. Their arcs are short and end
+    /// near tangents that change sign, and every state they keep is
+    /// factorized for its pivot count anyway, so a quasi-Newton corrector
+    /// saves no factorization there and its secant operator may converge on
+    /// another branch: a perfect 5-ring × 10-sector dome loaded in three
+    /// steps far past its limit, whose walk passes twelve bifurcations,
+    /// gave Broyden a limit "at 0.050889, not pinpointed" after six of
+    /// them, the count jumping from 10 to 24, where Newton pinpoints all
+    /// twelve and the limit at 0.051861. So what a run says about critical
+    /// points does not depend on its corrector.
+    pub(super) fn critical_corrector(&self) -> solve::CorrectorConfig {
+        let mut c = self.corrector;
+        c.method = crate::model::Method::Newton;
+        c.line_search = match self.model.analysis.line_search {
+            Some(trials) => solve::LineSearch { max_trials: trials, ..solve::LineSearch::DEFAULT },
+            None => solve::LineSearch::OFF,
+        };
+        c
+    }
+
     /// Bisects the step from state A (u, λ, negative pivots) to the converged
     /// state B in which the pivot count changed: arc-length sub-steps from A
     /// of half the bracketing length, keeping the half whose ends differ in
@@ -219,6 +241,7 @@ impl<'a> Tracer<'a> {
         let (mut ua, mut la) = (ua.to_vec(), la);
         let (mut ub, mut lb, mut nb) = (b.u.clone(), b.lambda, ws.negative_pivots());
         let full = distance(&ua, &ub);
+        let newton = self.critical_corrector();
         let mut bisections = 0;
         let mut st = b.clone();
         while bisections < MAX_BISECTIONS && distance(&ua, &ub) > BISECTION_TARGET * full {
@@ -239,7 +262,7 @@ impl<'a> Tracer<'a> {
                 }
                 st.lambda = la + frac * (lb - la);
                 ws.set_factor_fresh(false);
-                let (t, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: frac * width }, &self.corrector, 0, observer);
+                let (t, rec) = solve::drive(sys, ws, &mut st, &ua, la, &Cylindrical { arc: frac * width }, &newton, 0, observer);
                 add_records(&mut self.wasted, &rec);
                 term = t;
                 let behind = term == Termination::Converged && distance(&st.u, &ub) >= width;
@@ -390,6 +413,7 @@ impl<'a> Tracer<'a> {
         let (mut ua, mut la) = (ua.to_vec(), la);
         let (mut ub, mut lb) = (b.u.clone(), b.lambda);
         let full = distance(&ua, &ub);
+        let newton = self.critical_corrector();
         let mut bisections = 0;
         let mut st = b.clone();
         while bisections < MAX_BISECTIONS && distance(&ua, &ub) > BISECTION_TARGET * full {
@@ -472,6 +496,7 @@ impl<'a> Tracer<'a> {
             return None;
         }
         let mut arc = arc0;
+        let newton = self.critical_corrector();
         self.walked.clear();
         let mut found = Vec::new();
         let mut prev_inc: Vec<f64> = Vec::new();
@@ -497,7 +522,7 @@ impl<'a> Tracer<'a> {
             }
             st.u.iter_mut().zip(&du_f).for_each(|(u, d)| *u += dl * d);
             st.lambda += dl;
-            let (term, r) = solve::drive(sys, ws, &mut st, &pu, pl, &Cylindrical { arc }, &self.corrector, 0, observer);
+            let (term, r) = solve::drive(sys, ws, &mut st, &pu, pl, &Cylindrical { arc }, &newton, 0, observer);
             add_records(&mut self.wasted, &r);
             let turned = !prev_inc.is_empty()
                 && st.u.iter().zip(&pu).zip(&prev_inc).map(|((u, s), d)| (u - s) * d).sum::<f64>() < 0.0;
