@@ -424,7 +424,7 @@ impl<'a> Tracer<'a> {
             ws.set_factor_fresh(false);
             // λ is monotone through a displacement turning point (the tangent
             // is regular there), so the sub-step is a load-control one.
-            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &FixedLoad, &self.corrector, 0, observer);
+            let (term, rec) = solve::drive(sys, ws, &mut st, &ua, la, &FixedLoad, &newton, 0, observer);
             add_records(&mut self.wasted, &rec);
             if term != Termination::Converged {
                 break;
