@@ -599,35 +599,43 @@ fn a_walk_past_clustered_bifurcations_does_not_jump_the_snap() {
     }
 }
 
-/// A perfect 5-ring × 10-sector dome (2 m rise, 100 kN/m² on the plan)
-/// in three load steps: the first step's walk passes twelve bifurcations
-/// before the limit. Its sub-steps and bisections iterated with the run's
-/// corrector, and Broyden's reported a limit "at 0.050889, not
-/// pinpointed" after six of them, the count jumping from 10 to 24. Every
-/// corrector must now report Newton's critical points: the same kinds and
-/// counts, the same load factors within 1e-6, all pinpointed (a
+/// Perfect domes loaded in a few load steps far past their limits, whose
+/// first step's walk passes many bifurcations before the limit:
+/// - 5 rings × 10 sectors, 2 m rise, 100 kN/m², three steps (twelve
+///   bifurcations): the walk's sub-steps and bisections iterated with the
+///   run's corrector, and Broyden's reported a limit "at 0.050889, not
+///   pinpointed" after six of them, the count jumping from 10 to 24;
+/// - 5 rings × 8 sectors, 0.5 m rise, 100 kN/m², two steps (nine
+///   bifurcations): BFGS converged the first step on a state 10.5 m away,
+///   and a bisection that could not follow the path ended the walk with a
+///   "limit at 0.000277, multiplicity 17, not pinpointed", below the first
+///   bifurcation (0.000413), and the path at λ = 0.
+/// Every corrector must now report Newton's critical points: the same kinds
+/// and counts, the same load factors within 1e-6, all pinpointed (a
 /// consistency check between correctors, no literature value).
 #[test]
 fn every_corrector_reports_the_critical_points_of_a_walk_as_newton_does() {
     use tautline::generate::{DomeOptions, Loading, lattice_dome};
-    let g = lattice_dome(
-        &DomeOptions { rings: 5, sectors: 10, rise: 2.0, load: Loading::Plan(100_000.0), ..DomeOptions::default() },
-        "dome",
-    )
-    .expect("dome");
-    let text = g.toml.replace("steps = 10", "steps = 3").replace("[analysis]", "[analysis]\ntolerance = 1e-6");
-    let newton = trace(model(&text), Method::Newton);
-    let reference: Vec<_> = newton.path.critical.iter().map(|c| (c.kind, c.lambda, c.pivots)).collect();
-    assert!(reference.len() >= 10 && reference.last().unwrap().0 == CriticalKind::Limit, "{reference:?}");
-    for method in ALL_METHODS {
-        let run = trace(model(&text), method);
-        let got: Vec<_> = run.path.critical.iter().map(|c| (c.kind, c.lambda, c.pivots)).collect();
-        assert_eq!(run.path.stop, StopReason::LimitPoint, "{method:?}");
-        assert_eq!(got.len(), reference.len(), "{method:?}: {got:?}");
-        for ((k, l, p), (rk, rl, rp)) in got.iter().zip(&reference) {
-            assert!(k == rk && p == rp && rel_err(*l, *rl, 1.0) < 1e-6, "{method:?}: {got:?}");
+    for (rings, sectors, rise, steps, tolerance) in [(5, 10, 2.0, 3, "1e-6"), (5, 8, 0.5, 2, "1e-8")] {
+        let g = lattice_dome(
+            &DomeOptions { rings, sectors, rise, load: Loading::Plan(100_000.0), ..DomeOptions::default() },
+            "dome",
+        )
+        .expect("dome");
+        let text = g.toml.replace("steps = 10", &format!("steps = {steps}")).replace("[analysis]", &format!("[analysis]\ntolerance = {tolerance}"));
+        let newton = trace(model(&text), Method::Newton);
+        let reference: Vec<_> = newton.path.critical.iter().map(|c| (c.kind, c.lambda, c.pivots)).collect();
+        assert!(reference.len() >= 10 && reference.last().unwrap().0 == CriticalKind::Limit, "{reference:?}");
+        for method in ALL_METHODS {
+            let run = trace(model(&text), method);
+            let got: Vec<_> = run.path.critical.iter().map(|c| (c.kind, c.lambda, c.pivots)).collect();
+            assert_eq!(run.path.stop, StopReason::LimitPoint, "{method:?}");
+            assert_eq!(got.len(), reference.len(), "{method:?}: {got:?}");
+            for ((k, l, p), (rk, rl, rp)) in got.iter().zip(&reference) {
+                assert!(k == rk && p == rp && rel_err(*l, *rl, 1e-12) < 1e-6, "{method:?}: {got:?}");
+            }
+            assert!(run.path.critical.iter().all(|c| c.pinpointed), "{method:?}");
         }
-        assert!(run.path.critical.iter().all(|c| c.pinpointed), "{method:?}");
     }
 }
 

@@ -135,9 +135,10 @@ pub(super) fn push_critical(list: &mut Vec<Critical>, c: Critical, same_step_as_
 }
 
 /// Whether the critical points of one sub-step, in order, lead the count of
-/// negative pivots from `from` to `to`, each pinpointed and each starting at
-/// the count the one before it left.
-pub(super) fn accounts_for(points: &[Critical], from: usize, to: usize) -> bool {
+/// negative pivots on from `from`, each pinpointed and each starting at the
+/// count the one before it left, to `to` (or, when they `ended` the walk at
+/// a limit or past its target, as far as they go).
+pub(super) fn accounts_for(points: &[Critical], from: usize, to: usize, ended: bool) -> bool {
     let mut count = from;
     for c in points {
         if !c.pinpointed || c.pivots.0 != count {
@@ -145,7 +146,7 @@ pub(super) fn accounts_for(points: &[Critical], from: usize, to: usize) -> bool 
         }
         count = c.pivots.1;
     }
-    count == to
+    ended || count == to
 }
 
 /// Whether `c` is the last point of `list` again (see [`push_critical`]).
@@ -548,9 +549,9 @@ impl<'a> Tracer<'a> {
             let now = ws.negative_pivots();
             // A sub-step whose increment turned more than `SUB_STEP_TURN`
             // away from its tangent predictor has left the path it started
-            // on (the cylinder meets other branches too; a quasi-Newton
-            // corrector from a long predictor past a limit converged on the
-            // far side of a dome's snap, and the bisection between the two
+            // on (the cylinder meets other branches too; a corrector from a
+            // long predictor past a limit, a quasi-Newton one before the walk
+            // iterated with Newton, converged on the far side of a dome's snap, and the bisection between the two
             // branches then reported critical points that are not there):
             // walked again with half the arc.
             // The same when its load increment is not within a factor of 2
@@ -593,7 +594,12 @@ impl<'a> Tracer<'a> {
                 // 6 to 17 negative pivots across its snap, still within 45°
                 // of its predictor) has bisection states that cannot reach
                 // it. Walked again with half the arc.
-                if !ended && !accounts_for(&points, neg, now) && arc > arc0 * SMOOTH_ARC_FLOOR {
+                if !accounts_for(&points, neg, now, ended) {
+                    if arc <= arc0 * SMOOTH_ARC_FLOOR {
+                        // Nothing this walk found can be believed: the
+                        // caller cuts the load step back.
+                        return None;
+                    }
                     restore(&mut st, pu, pl);
                     let mut rec = StepRecord::default();
                     ws.refactor_at(sys, &mut st, &mut rec);
