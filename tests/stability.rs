@@ -610,6 +610,7 @@ fn a_walk_past_clustered_bifurcations_does_not_jump_the_snap() {
 ///   and a bisection that could not follow the path ended the walk with a
 ///   "limit at 0.000277, multiplicity 17, not pinpointed", below the first
 ///   bifurcation (0.000413), and the path at λ = 0.
+///
 /// Every corrector must now report Newton's critical points: the same kinds
 /// and counts, the same load factors within 1e-6, all pinpointed (a
 /// consistency check between correctors, no literature value).
