@@ -248,12 +248,13 @@ impl<'a> Tracer<'a> {
         while bisections < MAX_BISECTIONS && distance(&ua, &ub) > BISECTION_TARGET * full {
             let width = distance(&ua, &ub);
             // Predictor halfway along the chord, corrected on the cylinder of
-            // radius `half` around A. The cylinder also meets the path behind
-            // A; a state found there is not in the bracket (it is further from
-            // B than A is), and bisecting towards it would report the
-            // critical points behind A again, in reverse: a 4 × 9 dome loaded
-            // in one step to 9 times its limit did that, listing its first
-            // three bifurcations twice and a limit at a negative load factor.
+            // half the bracket's width around A. The cylinder also meets the
+            // path behind A; a state found there is not in the bracket (it is
+            // further from B than A is), and bisecting towards it would
+            // report the critical points behind A again, in reverse: a perfect
+            // 4 × 9 dome whose first load step went 6 times past its limit
+            // did that, listing its first three bifurcations twice and a limit
+            // at a negative load factor.
             // Such a landing is tried again a quarter of the way from A; if
             // that lands behind A too, the bisection stops there.
             let mut term = Termination::MaxIterations;
