@@ -533,9 +533,7 @@ impl<'a> Tracer<'a> {
                 if term == Termination::Stopped {
                     return None;
                 }
-                restore(&mut st, pu, pl);
-                ws.refactor_at(sys, &mut st, &mut rec);
-                add_records(&mut self.wasted, &rec);
+                self.retreat(ws, &mut st, pu, pl);
                 arc *= 0.5;
                 if arc < arc0 * 1e-4 {
                     return None;
@@ -575,10 +573,7 @@ impl<'a> Tracer<'a> {
             // Either way the sub-step is walked again with half the arc,
             // down to `SMOOTH_ARC_FLOOR` of the first.
             if (turned_away || rough) && arc > arc0 * SMOOTH_ARC_FLOOR {
-                restore(&mut st, pu, pl);
-                let mut rec = StepRecord::default();
-                ws.refactor_at(sys, &mut st, &mut rec);
-                add_records(&mut self.wasted, &rec);
+                self.retreat(ws, &mut st, pu, pl);
                 arc *= 0.5;
                 continue;
             }
@@ -601,10 +596,7 @@ impl<'a> Tracer<'a> {
                         // caller cuts the load step back.
                         return None;
                     }
-                    restore(&mut st, pu, pl);
-                    let mut rec = StepRecord::default();
-                    ws.refactor_at(sys, &mut st, &mut rec);
-                    add_records(&mut self.wasted, &rec);
+                    self.retreat(ws, &mut st, pu, pl);
                     arc *= 0.5;
                     continue;
                 }

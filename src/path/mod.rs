@@ -661,11 +661,7 @@ impl<'a> Tracer<'a> {
                     if a.control == Control::ArcLength && stable_ends && chord_softens(sys, ws, &start_u, start_lambda, &state) {
                         if stepper.can_cut_back() {
                             add_records(&mut self.wasted, &point.record);
-                            restore(&mut state, start_u.clone(), start_lambda);
-                            let mut rec = StepRecord::default();
-                            ws.refactor_at(sys, &mut state, &mut rec);
-                            add_records(&mut self.wasted, &rec);
-                            ws.set_factor_fresh(true);
+                            self.retreat(ws, &mut state, start_u.clone(), start_lambda);
                             stepper.cut_back();
                             n_cutbacks += 1;
                             continue 'path;
@@ -721,11 +717,7 @@ impl<'a> Tracer<'a> {
                                 if retreat {
                                     // Back to the step's start and its factor.
                                     add_records(&mut self.wasted, &point.record);
-                                    restore(&mut state, start_u.clone(), start_lambda);
-                                    let mut rec = StepRecord::default();
-                                    ws.refactor_at(sys, &mut state, &mut rec);
-                                    add_records(&mut self.wasted, &rec);
-                                    ws.set_factor_fresh(true);
+                                    self.retreat(ws, &mut state, start_u.clone(), start_lambda);
                                     if limit {
                                         let at = critical.iter().rev().find(|c| c.kind == CriticalKind::Limit).map_or(state.lambda, |c| c.lambda);
                                         self.keep_walked(ws, &mut state, &mut points, &mut keeper, at);
@@ -894,12 +886,8 @@ impl<'a> Tracer<'a> {
                         jumped_before: step_jumped,
                         left_branch: step_left_branch,
                     };
-                    restore(&mut state, start_u, start_lambda);
                     // Back to the last converged state and its tangent.
-                    let mut rec = StepRecord::default();
-                    let singular = ws.refactor_at(sys, &mut state, &mut rec).is_some();
-                    add_records(&mut self.wasted, &rec);
-                    ws.set_factor_fresh(!singular);
+                    let singular = self.retreat(ws, &mut state, start_u, start_lambda);
                     if singular || !stepper.cut_back() {
                         // Load control that cannot go on: is there a limit
                         // point between here and where it tried to go?
@@ -919,18 +907,12 @@ impl<'a> Tracer<'a> {
                                     c.step = step;
                                     critical.push(c);
                                 }
-                                restore(&mut state, u0, l0);
-                                let mut rec = StepRecord::default();
-                                ws.refactor_at(sys, &mut state, &mut rec);
-                                add_records(&mut self.wasted, &rec);
+                                self.retreat(ws, &mut state, u0, l0);
                                 let at = critical.iter().rev().find(|c| c.kind == CriticalKind::Limit).map_or(state.lambda, |c| c.lambda);
                                 self.keep_walked(ws, &mut state, &mut points, &mut keeper, at);
                                 break StopReason::LimitPoint;
                             }
-                            restore(&mut state, u0, l0);
-                            let mut rec = StepRecord::default();
-                            ws.refactor_at(sys, &mut state, &mut rec);
-                            add_records(&mut self.wasted, &rec);
+                            self.retreat(ws, &mut state, u0, l0);
                         }
                         last_failure = Some(failure);
                         break StopReason::NoConvergence;
@@ -1006,6 +988,21 @@ const PROBE_MAX_STEPS: usize = 400;
 /// distant branch and cut back.
 pub const JUMP_RATIO: f64 = 4.0;
 
+
+impl Tracer<'_> {
+    /// Back to (u, λ) and the tangent there: the state restored, its tangent
+    /// factorized (work counted as wasted) and the factor marked fresh, so
+    /// the next step or sub-step starts from it without factorizing the same
+    /// state again. Returns whether that tangent is singular.
+    pub(super) fn retreat(&mut self, ws: &mut Workspace, state: &mut State, u: Vec<f64>, lambda: f64) -> bool {
+        restore(state, u, lambda);
+        let mut rec = StepRecord::default();
+        let singular = ws.refactor_at(self.system, state, &mut rec).is_some();
+        add_records(&mut self.wasted, &rec);
+        ws.set_factor_fresh(!singular);
+        singular
+    }
+}
 
 fn restore(state: &mut State, u: Vec<f64>, lambda: f64) {
     state.u = u;
