@@ -385,3 +385,25 @@ fn a_newton_run_takes_the_line_search_it_is_given() {
     assert!(trials(&searched) > 0, "a Newton run with line_search = 5 never searched");
     assert!(max_rel_diff(&searched, &full) < 1e-6);
 }
+
+/// A flat net (26 × 31 nodes, no rise) at 5000 N per node in two load
+/// steps: Newton without a line search throws cables slack in its full
+/// steps and stops on a tangent that is singular at an iterate (relative
+/// residual 0.83), not at any state of the path, after six halvings. The
+/// stop message must say so and point to the energy line search and to
+/// BFGS, and both must then reach the target (the hint is true).
+#[test]
+fn a_singular_newton_iterate_points_to_the_line_search() {
+    use tautline::generate::{Loading, NetOptions, saddle_net};
+    let g = saddle_net(&NetOptions { nx: 26, ny: 31, rise: 0.0, load: Loading::PerNode(5000.0), ..Default::default() }, "flat")
+        .expect("net");
+    let text = g.toml.replace("steps = 10", "steps = 2").replace("tolerance = 1e-9", "tolerance = 1e-8");
+    let run = trace(model(&text), Method::Newton);
+    assert_eq!(run.path.stop, StopReason::NoConvergence);
+    let msg = tautline::results::stop_message(&run.model, &run.path);
+    assert!(msg.contains("far from equilibrium") && msg.contains("line_search = 5") && msg.contains("--method bfgs"), "{msg}");
+    let mut searched = model(&text);
+    searched.analysis.line_search = Some(5);
+    assert_eq!(trace(searched, Method::Newton).path.stop, StopReason::TargetReached);
+    assert_eq!(trace(model(&text), Method::Bfgs).path.stop, StopReason::TargetReached);
+}

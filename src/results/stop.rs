@@ -25,6 +25,10 @@ pub fn moving_away(model: &Model, path: &EquilibriumPath) -> Option<(usize, f64)
 }
 
 /// Describes why the path stopped, in words an engineer can act on.
+/// A failed step whose relative residual is this many times the tolerance
+/// ended far from any equilibrium state (common practice, no source).
+const ITERATE_FAR: f64 = 1e3;
+
 pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
     let units = &model.units;
     let last = path.points.last().map_or(0.0, |p| p.lambda);
@@ -179,6 +183,28 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
                         ("try a smaller step (more steps or a smaller arc) or more max_iterations".into(), false)
                     }
                 }
+            };
+            // A Newton run without a line search whose tangent turned
+            // singular far from equilibrium met the singular tangent at an
+            // iterate, not at a state of the path: cables the full Newton step
+            // threw slack. The energy line search (or a quasi-Newton
+            // corrector, which has it) keeps such steps in bounds: a flat
+            // 26 × 31 net at 5000 N per node in two load steps stopped this
+            // way with Newton and reached λ = 1 with `line_search = 5` and
+            // with BFGS.
+            let no_search = model.analysis.line_search.is_none_or(|t| t == 0);
+            let hint = if matches!(f.termination, Termination::SingularTangent { .. })
+                && model.analysis.method == crate::model::Method::Newton
+                && no_search
+                && f.relative_residual > ITERATE_FAR * model.analysis.tolerance
+            {
+                format!(
+                    "the singular tangent was met at an iterate far from equilibrium, not at an equilibrium state \
+                     (a full Newton step can throw cables slack or carry the iterate far past the path): set line_search = 5 in [analysis] (the energy line search) \
+                     or use --method bfgs, which has it; else {hint}"
+                )
+            } else {
+                hint
             };
             // Near a snap-back there is no equilibrium with the controlled
             // displacement a little further on: every corrector fails there,
