@@ -24,11 +24,11 @@ pub fn moving_away(model: &Model, path: &EquilibriumPath) -> Option<(usize, f64)
         .then_some((closest.step, closest.lambda))
 }
 
-/// Describes why the path stopped, in words an engineer can act on.
 /// A failed step whose relative residual is this many times the tolerance
 /// ended far from any equilibrium state (common practice, no source).
 const ITERATE_FAR: f64 = 1e3;
 
+/// Describes why the path stopped, in words an engineer can act on.
 pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
     let units = &model.units;
     let last = path.points.last().map_or(0.0, |p| p.lambda);
@@ -186,8 +186,8 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
             };
             // A Newton run without a line search whose tangent turned
             // singular far from equilibrium met the singular tangent at an
-            // iterate, not at a state of the path: cables the full Newton step
-            // threw slack. The energy line search (or a quasi-Newton
+            // iterate, not at a state of the path (on the nets, cables the
+            // full Newton step threw slack). The energy line search (or a quasi-Newton
             // corrector, which has it) keeps such steps in bounds: a flat
             // 26 × 31 net at 5000 N per node in two load steps stopped this
             // way with Newton and reached λ = 1 with `line_search = 5` and
@@ -200,8 +200,9 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
             {
                 format!(
                     "the singular tangent was met at an iterate far from equilibrium, not at an equilibrium state \
-                     (a full Newton step can throw cables slack or carry the iterate far past the path): set line_search = 5 in [analysis] (the energy line search) \
-                     or use --method bfgs, which has it; else {hint}"
+                     (a full Newton step can throw cables slack or carry the iterate far past the path): \
+                     set line_search = 5 in [analysis] (the energy line search) or use --method bfgs, which has it; \
+                     else {hint}"
                 )
             } else {
                 hint
