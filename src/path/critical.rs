@@ -550,8 +550,9 @@ impl<'a> Tracer<'a> {
             // away from its tangent predictor has left the path it started
             // on (the cylinder meets other branches too; a corrector from a
             // long predictor past a limit, a quasi-Newton one before the walk
-            // iterated with Newton, converged on the far side of a dome's snap, and the bisection between the two
-            // branches then reported critical points that are not there):
+            // iterated with Newton, converged on the far side of a dome's
+            // snap, and the bisection between the two branches then reported
+            // critical points that are not there):
             // walked again with half the arc.
             // The same when its load increment is not within a factor of 2
             // of the predictor's: the tangent at the sub-step's start no
@@ -585,7 +586,8 @@ impl<'a> Tracer<'a> {
                     self.pinpoint_all(ws, (&pu, pl, neg), &mut st, keep_field, Some((lambda_b, direction)), observer);
                 // A sub-step is believed only when the critical points
                 // pinpointed on the way from its start account for the
-                // whole change of the count (or end the walk): one that
+                // whole change of the count (or, all pinpointed, end the
+                // walk at a limit or past its target): one that
                 // jumped to another branch (a 4 × 9 dome's sub-step went from
                 // 6 to 17 negative pivots across its snap, still within 45°
                 // of its predictor) has bisection states that cannot reach
