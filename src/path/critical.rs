@@ -154,6 +154,11 @@ pub(super) fn coincides(list: &[Critical], c: &Critical, same_step_as_last: bool
     same_step_as_last && list.last().is_some_and(|l| (l.lambda - c.lambda).abs() <= COINCIDENT * l.lambda.abs().max(1.0))
 }
 
+/// The largest change of the pivot count a walk's sub-step may make before
+/// it is bisected (a double bifurcation's); a larger one is walked again
+/// with half the arc (see [`Tracer::walk`]).
+pub const WALK_MAX_COUNT_CHANGE: usize = 2;
+
 /// Largest number of critical points pinpointed within one step.
 pub const MAX_POINTS_PER_STEP: usize = 16;
 
@@ -581,6 +586,20 @@ impl<'a> Tracer<'a> {
             // λ fell along the path: a limit point lies in this sub-step or
             // at its start (λ has its extremum there).
             let fell = (st.lambda - pl) * direction < 0.0;
+            // A sub-step whose pivot count changed by more than a double
+            // point holds several critical points, and the longer it is the
+            // likelier it has left the path for another branch whose
+            // critical points chain just as well: a perfect 5-ring ×
+            // 14-sector dome (0.5 m rise, 100 kN/m²) in ten load steps had
+            // BFGS's walk take one from 16 to 25 negative pivots onto such a
+            // branch and report a limit at λ = 0.00118271, 30 % above the
+            // one at 0.00091010 that Newton and a fine arc-length trace find.
+            // Halved before any bisection, down to `SMOOTH_ARC_FLOOR`.
+            if now.abs_diff(neg) > WALK_MAX_COUNT_CHANGE && arc > arc0 * SMOOTH_ARC_FLOOR {
+                self.retreat(ws, &mut st, pu, pl);
+                arc *= 0.5;
+                continue;
+            }
             if now != neg {
                 let (points, ended) =
                     self.pinpoint_all(ws, (&pu, pl, neg), &mut st, keep_field, Some((lambda_b, direction)), observer);
