@@ -3,7 +3,8 @@
 //! gives the smaller factor.
 //!
 //! Why: on the big plane nets the factorization is most of the run
-//! (a 578 × 578 net, a million DOF: 2.9 s a factorization with AMD), and
+//! (a 578 × 578 net, a million DOF: 2.9 to 3.7 s a factorization with AMD
+//! on this machine, measured on two days), and
 //! for meshes of the plane a nested-dissection ordering is the one whose
 //! fill grows as N·log N and whose work as N^1.5 (George, "Nested
 //! dissection of a regular finite element mesh", SIAM J. Numer. Anal. 10,

@@ -213,10 +213,7 @@ impl<'a> Tracer<'a> {
     pub(super) fn critical_corrector(&self) -> solve::CorrectorConfig {
         let mut c = self.corrector;
         c.method = crate::model::Method::Newton;
-        c.line_search = match self.model.analysis.line_search {
-            Some(trials) => solve::LineSearch { max_trials: trials, ..solve::LineSearch::DEFAULT },
-            None => solve::LineSearch::OFF,
-        };
+        c.line_search = solve::LineSearch::for_run(c.method, self.model.analysis.line_search);
         c
     }
 
@@ -576,16 +573,6 @@ impl<'a> Tracer<'a> {
             let rough = now == neg
                 && ((st.lambda - pl) * direction <= 0.0
                     || crossing_suspected(sys, c_start, load_compliance(sys, ws), &pu, pl, &st));
-            // Either way the sub-step is walked again with half the arc,
-            // down to `SMOOTH_ARC_FLOOR` of the first.
-            if (turned_away || rough) && arc > arc0 * SMOOTH_ARC_FLOOR {
-                self.retreat(ws, &mut st, pu, pl);
-                arc *= 0.5;
-                continue;
-            }
-            // λ fell along the path: a limit point lies in this sub-step or
-            // at its start (λ has its extremum there).
-            let fell = (st.lambda - pl) * direction < 0.0;
             // A sub-step whose pivot count changed by more than a double
             // point holds several critical points, and the longer it is the
             // likelier it has left the path for another branch whose
@@ -594,12 +581,18 @@ impl<'a> Tracer<'a> {
             // BFGS's walk take one from 16 to 25 negative pivots onto such a
             // branch and report a limit at λ = 0.00118271, 30 % above the
             // one at 0.00091010 that Newton and a fine arc-length trace find.
-            // Halved before any bisection, down to `SMOOTH_ARC_FLOOR`.
-            if now.abs_diff(neg) > WALK_MAX_COUNT_CHANGE && arc > arc0 * SMOOTH_ARC_FLOOR {
+            let crowded = now.abs_diff(neg) > WALK_MAX_COUNT_CHANGE;
+            // Any of the three: the sub-step is walked again with half the
+            // arc, down to `SMOOTH_ARC_FLOOR` of the first, before any
+            // bisection.
+            if (turned_away || rough || crowded) && arc > arc0 * SMOOTH_ARC_FLOOR {
                 self.retreat(ws, &mut st, pu, pl);
                 arc *= 0.5;
                 continue;
             }
+            // λ fell along the path: a limit point lies in this sub-step or
+            // at its start (λ has its extremum there).
+            let fell = (st.lambda - pl) * direction < 0.0;
             if now != neg {
                 let (points, ended) =
                     self.pinpoint_all(ws, (&pu, pl, neg), &mut st, keep_field, Some((lambda_b, direction)), observer);

@@ -192,7 +192,7 @@ pub fn stop_message(model: &Model, path: &EquilibriumPath) -> String {
             // 26 × 31 net at 5000 N per node in two load steps stopped this
             // way with Newton and reached λ = 1 with `line_search = 5` and
             // with BFGS.
-            let no_search = model.analysis.line_search.is_none_or(|t| t == 0);
+            let no_search = crate::solve::LineSearch::for_run(model.analysis.method, model.analysis.line_search).max_trials == 0;
             let hint = if matches!(f.termination, Termination::SingularTangent { .. })
                 && model.analysis.method == crate::model::Method::Newton
                 && no_search

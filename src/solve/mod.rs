@@ -99,6 +99,18 @@ impl LineSearch {
     /// Matthies & Strang (1979) accept a ratio of 0.5; 0.8 asks for a trial
     /// only where the full step clearly over- or undershoots.
     pub const DEFAULT: LineSearch = LineSearch { max_trials: 5, energy_ratio: 0.8 };
+
+    /// The line search a run of `method` takes with `line_search = trials`
+    /// in `[analysis]` (None: the method's default, on for the quasi-Newton
+    /// correctors, off for Newton, whose full step is already well scaled
+    /// near a solution).
+    pub fn for_run(method: Method, trials: Option<usize>) -> LineSearch {
+        let mut search = if method == Method::Newton { LineSearch::OFF } else { LineSearch::DEFAULT };
+        if let Some(trials) = trials {
+            search.max_trials = trials;
+        }
+        search
+    }
 }
 
 /// Settings of one corrector.
@@ -131,9 +143,7 @@ impl CorrectorConfig {
             stall_ratio: a.stall_ratio,
             slack: SlackPolicy::DEFAULT,
         };
-        if let Some(trials) = a.line_search {
-            c.line_search.max_trials = trials;
-        }
+        c.line_search = LineSearch::for_run(a.method, a.line_search);
         c.displacement_tolerance = a.displacement_tolerance;
         c.energy_tolerance = a.energy_tolerance;
         c
@@ -142,10 +152,7 @@ impl CorrectorConfig {
     /// Defaults for a method: line search on for the quasi-Newton correctors,
     /// off for Newton (whose full step is already well scaled near a solution).
     pub fn for_method(method: Method, tolerance: f64, max_iterations: usize) -> Self {
-        let line_search = match method {
-            Method::Newton => LineSearch::OFF,
-            _ => LineSearch::DEFAULT,
-        };
+        let line_search = LineSearch::for_run(method, None);
         CorrectorConfig {
             method,
             max_iterations,
